@@ -1,0 +1,45 @@
+"""Dust: the forward model of disk colours, its fast path, fits and grids.
+
+The forward model (:mod:`motes.dust.model`), its description format
+(:mod:`motes.dust.description`), quadrature rules (:mod:`motes.dust.sampling`)
+and lookup tables (:mod:`motes.dust.tables`) are re-exported here; fits and
+grids live in their own modules.
+"""
+
+from __future__ import annotations
+
+from .description import (
+    ModelDescription,
+    StarDescription,
+    model_from_description,
+    parse_model_description,
+    read_model_description,
+)
+from .model import (
+    FRACTIONS_NOTE,
+    METHODS,
+    MIE_SPHERES_NOTE,
+    PHASES,
+    BandOptics,
+    DiskColourModel,
+    ScatteringGeometry,
+)
+from .sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
+
+__all__ = [
+    "BandOptics",
+    "DiskColourModel",
+    "FRACTIONS_NOTE",
+    "METHODS",
+    "MIE_SPHERES_NOTE",
+    "ModelDescription",
+    "PHASES",
+    "ScatteringGeometry",
+    "SizeSampling",
+    "StarDescription",
+    "model_from_description",
+    "parse_model_description",
+    "read_model_description",
+    "size_parameter_rule",
+    "weighted_gauss_nodes",
+]

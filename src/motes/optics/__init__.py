@@ -1,0 +1,55 @@
+"""Dust optics: optical constants, effective-medium mixing, Mie scattering, size distributions.
+
+Optical constants and mixing (``constants``, ``mixing``) are re-exported
+here; see ``docs/materials.md`` for the file format, the bundled materials
+and the fraction/porosity definitions.
+"""
+
+from __future__ import annotations
+
+# --- optical constants and mixing (materials engineer) -----------------------
+from .constants import (
+    EXTRAPOLATION_RULES,
+    MATERIALS_PATH_VARIABLE,
+    VACUUM,
+    IndexSample,
+    Material,
+    bundled_material_names,
+    check_optical_constants,
+    list_materials,
+    load_material,
+    read_optical_constants,
+    user_material_names,
+)
+from .mixing import (
+    bruggeman_epsilon,
+    maxwell_garnett_epsilon,
+    mix_refractive_index,
+    mixture_density,
+    whole_grain_fractions,
+)
+
+_MATERIALS_NAMES = [
+    "EXTRAPOLATION_RULES",
+    "MATERIALS_PATH_VARIABLE",
+    "VACUUM",
+    "IndexSample",
+    "Material",
+    "bundled_material_names",
+    "check_optical_constants",
+    "list_materials",
+    "load_material",
+    "read_optical_constants",
+    "user_material_names",
+    "bruggeman_epsilon",
+    "maxwell_garnett_epsilon",
+    "mix_refractive_index",
+    "mixture_density",
+    "whole_grain_fractions",
+]
+
+# --- Mie scattering and size distributions (Mie/model engineer) --------------
+# (re-exports of motes.optics.mie and motes.optics.sizes go here)
+_MIE_NAMES: list[str] = []
+
+__all__ = _MATERIALS_NAMES + _MIE_NAMES

@@ -1,0 +1,110 @@
+"""Photometry: bands and zero points, reading targets, calibrating photometry.
+
+Typical use::
+
+    from motes.photometry import read_target, calibrate, write_photometry
+    result = calibrate(read_target("companion_target.toml"))
+    print(format_photometry(result))
+    write_photometry(result, "out/")
+"""
+
+from __future__ import annotations
+
+from .bands import (
+    COUNTING_MODES,
+    VEGA_REFERENCE,
+    Band,
+    band_from_curve,
+    gaussian_band,
+    get_band,
+    read_band_curve,
+    standard_band_names,
+    top_hat_band,
+    vega_spectrum,
+)
+from .catalogue import band_table, format_band, format_band_table, plot_band
+from .conversions import (
+    MAG_PER_LN,
+    ZERO_POINT_FRACTIONAL_ERROR,
+    delta_mag_to_ratio,
+    distance_from_parallax,
+    distance_modulus,
+    distance_modulus_error,
+    flux_to_magnitude,
+    magnitude_to_flux,
+    ratio_to_delta_mag,
+    zero_point_error,
+)
+from .measurements import BandPhotometry, CalibratedPhotometry, calibrate
+from .output import format_photometry, write_photometry
+from .spectra import blackbody_flux_lambda
+from .synthesis import SynthesisedMagnitude, nearest_reference_band, spectrum_colour, synthesise_host_magnitude
+from .targets import (
+    DEFAULT_SYNTHESIS_SYSTEMATIC_MAG,
+    INPUT_KINDS,
+    CalibrationSettings,
+    HostMagnitude,
+    HostSpectrum,
+    HostStar,
+    Measurement,
+    Target,
+    parse_flux_unit,
+    read_host_spectrum,
+    read_photometry_table,
+    read_target,
+    read_user_bands,
+)
+
+__all__ = [
+    # bands
+    "Band",
+    "COUNTING_MODES",
+    "VEGA_REFERENCE",
+    "band_from_curve",
+    "gaussian_band",
+    "get_band",
+    "read_band_curve",
+    "standard_band_names",
+    "top_hat_band",
+    "vega_spectrum",
+    "band_table",
+    "format_band",
+    "format_band_table",
+    "plot_band",
+    # conversions
+    "MAG_PER_LN",
+    "ZERO_POINT_FRACTIONAL_ERROR",
+    "delta_mag_to_ratio",
+    "distance_from_parallax",
+    "distance_modulus",
+    "distance_modulus_error",
+    "flux_to_magnitude",
+    "magnitude_to_flux",
+    "ratio_to_delta_mag",
+    "zero_point_error",
+    # targets and calibration
+    "DEFAULT_SYNTHESIS_SYSTEMATIC_MAG",
+    "INPUT_KINDS",
+    "CalibrationSettings",
+    "HostMagnitude",
+    "HostSpectrum",
+    "HostStar",
+    "Measurement",
+    "Target",
+    "parse_flux_unit",
+    "read_host_spectrum",
+    "read_photometry_table",
+    "read_target",
+    "read_user_bands",
+    "BandPhotometry",
+    "CalibratedPhotometry",
+    "calibrate",
+    "format_photometry",
+    "write_photometry",
+    # spectra and synthesis
+    "blackbody_flux_lambda",
+    "SynthesisedMagnitude",
+    "nearest_reference_band",
+    "spectrum_colour",
+    "synthesise_host_magnitude",
+]

@@ -498,7 +498,9 @@ def get_band(name: str, custom: dict[str, Band] | None = None, counting: str = "
     canonical = _canonical(name)
     if canonical is None:
         known = list(custom) + standard_band_names()
-        close = difflib.get_close_matches(name, known, n=3, cutoff=0.4)
+        # compare case-insensitively: "2mass.k" should suggest "2MASS.Ks"
+        by_lower = {k.lower(): k for k in known}
+        close = [by_lower[c] for c in difflib.get_close_matches(name.lower(), list(by_lower), n=3, cutoff=0.4)]
         close += [k for k in known if k.lower().endswith("." + name.lower()) and k not in close]
         hint = f"; did you mean {', '.join(repr(c) for c in close[:4])}?" if close else ""
         raise BandError(

@@ -1,0 +1,1 @@
+"""Data files bundled with motes (read with importlib.resources)."""

@@ -1,0 +1,41 @@
+"""Demo part "photometry": calibrate the invented companion Velmora b.
+
+Inputs (generated from known truth by ``examples/make_photometry_demo.py``):
+``companion_target.toml``, ``companion_photometry.ecsv`` and
+``companion_nb3p1_curve.txt``. Output: ``photometry/velmora_b_photometry.ecsv``
+(and ``.csv``) in the demo folder.
+"""
+
+from __future__ import annotations
+
+import shutil
+from importlib import resources
+from pathlib import Path
+
+__all__ = ["INPUT_FILES", "TARGET_FILE", "write_inputs", "run"]
+
+#: Files this part copies into the demo folder.
+INPUT_FILES = ("companion_target.toml", "companion_photometry.ecsv", "companion_nb3p1_curve.txt")
+#: The target description the part (and the companion part) reads.
+TARGET_FILE = "companion_target.toml"
+
+
+def write_inputs(folder: Path) -> None:
+    """Copy the photometry demo inputs into ``folder``."""
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    data = resources.files("motes.demo") / "data"
+    for name in INPUT_FILES:
+        with resources.as_file(data / name) as src:
+            shutil.copyfile(src, folder / name)
+
+
+def run(folder: Path) -> None:
+    """Calibrate the demo target, print the table and write it as ECSV and CSV."""
+    from ..photometry import calibrate, format_photometry, read_target, write_photometry
+
+    folder = Path(folder)
+    result = calibrate(read_target(folder / TARGET_FILE))
+    print(format_photometry(result))
+    for path in write_photometry(result, folder / "photometry", csv=True):
+        print(f"wrote {path}")

@@ -1,0 +1,372 @@
+"""Dust-model descriptions in TOML: star, materials, mixing, geometry, bands.
+
+The same sections are shared by ``motes optics`` (a mixture file), ``motes fit``
+and ``motes grid`` descriptions; each command adds its own sections (data,
+priors, grid axes) and ignores the others'. Relative paths are resolved
+against the folder of the description file::
+
+    [star]
+    teff = 5800.0                   # [K] blackbody (or give a spectrum)
+    spectrum = "star.txt"           # optional: wavelength [um], F_lambda columns
+                                    #   or { file = "...", wavelength_unit = "nm", flux = "f_nu" }
+    luminosity = 1.0                # [L_sun] optional, for the blow-out size
+    mass = 1.0                      # [M_sun] optional, for the blow-out size
+
+    [[materials]]                   # one table per solid component, in order
+    name = "silicate"               # label used in tables (letters, digits, _ . + -)
+    source = "silica_amorphous"     # optional: bundled name or file path; default: name
+    density = 2.2                   # optional override [g cm^-3]
+    extrapolation = "constant"      # optional: allow an explicit extrapolation rule
+    wavelength_unit = "um"          # optional, for files without a header
+
+    [mixing]
+    rule = "bruggeman"              # or "maxwell_garnett"
+    matrix = "silicate"             # maxwell_garnett only: a material name or "vacuum"
+
+    [geometry]
+    angles_deg = [90.0]             # scattering angles, averaged; or
+    inclination_deg = 60.0          #   a ring at this inclination (angles over 90 +- i)
+    phase = "mie"                   # or "hg" (Henyey-Greenstein with Mie's g)
+
+    [model]
+    bands = ["2MASS.J", "2MASS.H", "nb_3.1"]   # optional when the bands come from the data
+    a_max = 1000.0                  # [um]
+    method = "fast"                 # or "exact"
+    wavelength_nodes = 6            # Gauss nodes per band
+
+    [bands."nb_3.1"]                # user bands: same format as target descriptions
+    shape = "top-hat"
+    centre_um = 3.1
+    width_um = 0.1
+
+Every problem is an :class:`~motes.errors.InputError` naming the file and the
+TOML field.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError, MotesError
+from ..optics.constants import Material, load_material
+from ..photometry.bands import Band, get_band
+from .model import METHODS, PHASES, DiskColourModel, ScatteringGeometry
+
+__all__ = [
+    "StarDescription",
+    "ModelDescription",
+    "parse_model_description",
+    "read_model_description",
+    "model_from_description",
+]
+
+_NAME_RE = re.compile(r"[A-Za-z0-9_.+-]+")
+_STAR_KEYS = {"teff", "spectrum", "luminosity", "mass"}
+_MATERIAL_KEYS = {"name", "source", "density", "extrapolation", "wavelength_unit"}
+_MIXING_KEYS = {"rule", "matrix"}
+_GEOMETRY_KEYS = {"angles_deg", "inclination_deg", "n_azimuths", "phase"}
+_MODEL_KEYS = {"bands", "a_max", "method", "wavelength_nodes"}
+
+
+@dataclass(frozen=True)
+class StarDescription:
+    """The star of a dust-model description.
+
+    Attributes
+    ----------
+    teff : float or None [K]
+    spectrum : (ndarray, ndarray) or None
+        Wavelength [um] and F_lambda.
+    luminosity : float or None [L_sun]
+    mass : float or None [M_sun]
+    """
+
+    teff: float | None
+    spectrum: tuple | None
+    luminosity: float | None
+    mass: float | None
+
+    @property
+    def has_luminosity_and_mass(self) -> bool:
+        return self.luminosity is not None and self.mass is not None
+
+
+@dataclass(frozen=True)
+class ModelDescription:
+    """A parsed dust-model description (see the module docstring for the format).
+
+    Attributes
+    ----------
+    star : StarDescription
+    materials : tuple of Material
+        Named by their ``[[materials]] name`` labels.
+    mixing : str
+    matrix : str or None
+    geometry : ScatteringGeometry
+    bands : tuple of Band
+        From ``[model] bands`` (empty if not given).
+    custom_bands : dict of str to Band
+        User bands from ``[bands.NAME]`` tables.
+    a_max : float [um]
+    method : str
+    wavelength_nodes : int
+    source : str
+        File the description came from (for messages).
+    """
+
+    star: StarDescription
+    materials: tuple[Material, ...]
+    mixing: str
+    matrix: str | None
+    geometry: ScatteringGeometry
+    bands: tuple[Band, ...]
+    custom_bands: dict
+    a_max: float
+    method: str
+    wavelength_nodes: int
+    source: str
+
+    @property
+    def material_names(self) -> tuple[str, ...]:
+        return tuple(m.name for m in self.materials)
+
+    def build_model(self, bands=None, method: str | None = None) -> DiskColourModel:
+        """The :class:`DiskColourModel` described.
+
+        Parameters
+        ----------
+        bands : sequence of Band or str, optional
+            Bands to use (e.g. those of the data); names are looked up among the
+            description's user bands first. Default: ``[model] bands``.
+        method : {"fast", "exact"}, optional
+            Overrides ``[model] method``.
+        """
+        if bands is None:
+            bands = self.bands
+        else:
+            bands = tuple(b if isinstance(b, Band) else _band(b, self.custom_bands, self.source, "bands")
+                          for b in bands)
+        if not bands:
+            raise InputError("no bands: list them in [model] bands = [...] or give the data's bands",
+                             path=self.source, where="[model] bands")
+        try:
+            return DiskColourModel(
+                self.materials, bands, star_teff=self.star.teff, star_spectrum=self.star.spectrum,
+                mixing=self.mixing, matrix=self.matrix, geometry=self.geometry,
+                method=method or self.method, a_max=self.a_max, wavelength_nodes=self.wavelength_nodes)
+        except InputError as exc:
+            if exc.path is not None:
+                raise
+            raise InputError(exc.reason, path=self.source, where=exc.where) from None
+
+
+def _check_keys(table, allowed, source, where):
+    if not isinstance(table, dict):
+        raise InputError("expected a table", path=source, where=where)
+    unknown = set(table) - set(allowed)
+    if unknown:
+        raise InputError(f"unknown key(s) {sorted(unknown)}; allowed: {sorted(allowed)}", path=source, where=where)
+
+
+def _number(value, source, where, positive=True) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value) \
+            or (positive and value <= 0):
+        raise InputError(f"expected a {'positive ' if positive else ''}number, got {value!r}",
+                         path=source, where=where)
+    return float(value)
+
+
+def _band(name, custom, source, where) -> Band:
+    if not isinstance(name, str):
+        raise InputError(f"band names must be strings, got {name!r}", path=source, where=where)
+    try:
+        return get_band(name, custom)
+    except MotesError as exc:
+        raise InputError(str(exc), path=source, where=where) from None
+
+
+def _read_star(doc, source, base_dir) -> StarDescription:
+    star = doc.get("star", {})
+    _check_keys(star, _STAR_KEYS, source, "[star]")
+    teff = _number(star["teff"], source, "[star] teff") if "teff" in star else None
+    spectrum = None
+    if "spectrum" in star:
+        from ..photometry.targets import read_host_spectrum
+
+        spec = star["spectrum"]
+        if isinstance(spec, str):
+            spec = {"file": spec}
+        _check_keys(spec, {"file", "wavelength_unit", "flux"}, source, "[star] spectrum")
+        if not isinstance(spec.get("file"), str):
+            raise InputError('expected spectrum = "PATH" or { file = "PATH", wavelength_unit = "um", '
+                             'flux = "f_lambda" }', path=source, where="[star] spectrum")
+        path = base_dir / spec["file"]
+        if not path.is_file():
+            raise InputError(f"spectrum file {str(path)!r} not found", path=source, where="[star] spectrum")
+        s = read_host_spectrum(path, str(spec.get("wavelength_unit", "um")), str(spec.get("flux", "f_lambda")))
+        spectrum = (s.wavelength, s.flux_lambda)
+    if teff is None and spectrum is None:
+        raise InputError("the star needs teff = ... [K] or a spectrum file", path=source, where="[star]")
+    lum = _number(star["luminosity"], source, "[star] luminosity") if "luminosity" in star else None
+    mass = _number(star["mass"], source, "[star] mass") if "mass" in star else None
+    return StarDescription(teff, spectrum, lum, mass)
+
+
+def _read_materials(doc, source, base_dir) -> tuple[Material, ...]:
+    mats = doc.get("materials")
+    if not isinstance(mats, list) or not mats:
+        raise InputError("no [[materials]] tables: name at least one material", path=source)
+    out, names = [], []
+    for i, entry in enumerate(mats):
+        where = f"[[materials]] #{i + 1}"
+        _check_keys(entry, _MATERIAL_KEYS, source, where)
+        name = entry.get("name")
+        if not isinstance(name, str) or not _NAME_RE.fullmatch(name):
+            raise InputError(f'name must be a label of letters, digits, _ . + - (got {name!r})',
+                             path=source, where=f"{where} name")
+        if name in names:
+            raise InputError(f"material '{name}' is listed twice", path=source, where=f"{where} name")
+        names.append(name)
+        src = entry.get("source", name)
+        if not isinstance(src, str):
+            raise InputError(f"source must be a material name or a file path, got {src!r}",
+                             path=source, where=f"{where} source")
+        candidate = base_dir / src
+        kw = {}
+        for key in ("extrapolation", "wavelength_unit"):
+            if key in entry:
+                kw[key] = entry[key]
+        if "density" in entry:
+            kw["density"] = _number(entry["density"], source, f"{where} density")
+        try:
+            mat = load_material(candidate if candidate.is_file() else src, **kw)
+        except MotesError as exc:
+            raise InputError(str(exc), path=source, where=f"{where} source") from None
+        out.append(dataclasses.replace(mat, name=name))
+    return tuple(out)
+
+
+def _read_geometry(doc, source) -> ScatteringGeometry:
+    geo = doc.get("geometry", {})
+    _check_keys(geo, _GEOMETRY_KEYS, source, "[geometry]")
+    phase = geo.get("phase", "mie")
+    if phase not in PHASES:
+        raise InputError(f"phase must be one of {PHASES}, got {phase!r}", path=source, where="[geometry] phase")
+    try:
+        if "inclination_deg" in geo:
+            if "angles_deg" in geo:
+                raise InputError("give angles_deg or inclination_deg, not both", path=source, where="[geometry]")
+            n = geo.get("n_azimuths", 8)
+            if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+                raise InputError(f"n_azimuths must be a positive integer, got {n!r}", path=source,
+                                 where="[geometry] n_azimuths")
+            inc = _number(geo["inclination_deg"], source, "[geometry] inclination_deg", positive=False)
+            return ScatteringGeometry.ring(inc, n, phase)
+        angles = geo.get("angles_deg", [90.0])
+        angles = angles if isinstance(angles, list) else [angles]
+        angles = [_number(a, source, "[geometry] angles_deg") for a in angles]
+        return ScatteringGeometry(tuple(angles), phase)
+    except InputError as exc:
+        if exc.path is not None:
+            raise
+        raise InputError(exc.reason, path=source, where=f"[geometry] {exc.where or ''}".strip()) from None
+
+
+def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -> ModelDescription:
+    """Parse the dust-model sections of a description already loaded from TOML.
+
+    Parameters
+    ----------
+    doc : dict
+        The whole TOML document (other commands' sections are ignored).
+    base_dir : path
+        Folder against which relative file names are resolved.
+    source : str
+        File name used in messages.
+
+    Returns
+    -------
+    ModelDescription
+    """
+    base_dir = Path(base_dir)
+    if not isinstance(doc, dict):
+        raise InputError("expected a TOML document", path=source)
+    star = _read_star(doc, source, base_dir)
+    materials = _read_materials(doc, source, base_dir)
+    mixing = doc.get("mixing", {})
+    _check_keys(mixing, _MIXING_KEYS, source, "[mixing]")
+    rule = mixing.get("rule", "bruggeman")
+    if rule not in ("bruggeman", "maxwell_garnett"):
+        raise InputError(f"rule must be 'bruggeman' or 'maxwell_garnett', got {rule!r}",
+                         path=source, where="[mixing] rule")
+    matrix = mixing.get("matrix")
+    names = [m.name for m in materials]
+    if matrix is not None and matrix != "vacuum" and matrix not in names:
+        raise InputError(f"matrix must be one of the materials {names} or 'vacuum', got {matrix!r}",
+                         path=source, where="[mixing] matrix")
+    if matrix is not None and rule != "maxwell_garnett":
+        raise InputError("matrix is used by rule = 'maxwell_garnett' only", path=source, where="[mixing] matrix")
+    geometry = _read_geometry(doc, source)
+    try:
+        from ..photometry.targets import _read_user_bands  # shared [bands.NAME] format
+
+        custom = _read_user_bands(doc, Path(source) if source != "<string>" else base_dir / "description.toml",
+                                  "photon")
+    except MotesError as exc:
+        raise InputError(getattr(exc, "reason", str(exc)), path=source, where=getattr(exc, "where", None)) from None
+    model = doc.get("model", {})
+    _check_keys(model, _MODEL_KEYS, source, "[model]")
+    band_names = model.get("bands", [])
+    if not isinstance(band_names, list):
+        raise InputError("bands must be a list of band names", path=source, where="[model] bands")
+    bands = tuple(_band(b, custom, source, "[model] bands") for b in band_names)
+    a_max = _number(model.get("a_max", 1000.0), source, "[model] a_max")
+    method = model.get("method", "fast")
+    if method not in METHODS:
+        raise InputError(f"method must be one of {METHODS}, got {method!r}", path=source, where="[model] method")
+    nodes = model.get("wavelength_nodes", 6)
+    if isinstance(nodes, bool) or not isinstance(nodes, int) or not 1 <= nodes <= 64:
+        raise InputError(f"wavelength_nodes must be an integer in 1..64, got {nodes!r}",
+                         path=source, where="[model] wavelength_nodes")
+    return ModelDescription(star, materials, rule, matrix, geometry, bands, custom, a_max, method, nodes, source)
+
+
+def read_model_description(path) -> ModelDescription:
+    """Read a dust-model (mixture) description from a TOML file."""
+    path = Path(path)
+    try:
+        text = path.read_text()
+    except FileNotFoundError:
+        raise InputError("description file not found", path=path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read the description ({exc})", path=path) from None
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", path=path) from None
+    return parse_model_description(doc, base_dir=path.parent, source=str(path))
+
+
+def model_from_description(doc_or_path, bands=None, method=None, base_dir=".") -> DiskColourModel:
+    """Build a :class:`DiskColourModel` from a TOML file or an already-parsed dict.
+
+    Parameters
+    ----------
+    doc_or_path : dict, str or Path
+    bands : sequence of Band or str, optional
+        Bands to model (default: ``[model] bands``).
+    method : {"fast", "exact"}, optional
+    base_dir : path
+        For a dict: folder against which relative paths are resolved.
+    """
+    if isinstance(doc_or_path, dict):
+        desc = parse_model_description(doc_or_path, base_dir=base_dir)
+    else:
+        desc = read_model_description(doc_or_path)
+    return desc.build_model(bands=bands, method=method)

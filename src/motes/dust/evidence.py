@@ -1,0 +1,231 @@
+"""Reading evidences: model ranking, Bayes factors, per-material verdicts, summaries.
+
+Bayes factor of model A over model B: ln B = ln Z_A - ln Z_B, with
+uncertainty sigma = sqrt(sigma_A^2 + sigma_B^2) (independent runs).
+
+Strength scale: Kass & Raftery (1995, JASA 90, 773, sec. 3.2) read 2 ln B
+with breaks at 2, 6 and 10, i.e. ln B = 1, 3, 5. motes words the four bins as
+
+=============  ==================
+ln B           reading
+=============  ==================
+< 1            hardly any
+1 to 3         modest
+3 to 5         firm
+>= 5           overwhelming
+=============  ==================
+
+Verdict per material (the rule printed with every verdict)
+    ln B = ln Z(with the material) - ln Z(without it), sigma its uncertainty.
+    "needed"      when ln B - 2 sigma >= 3,
+    "not needed"  when ln B + 2 sigma <= -1,
+    "undecided"   otherwise.
+
+Which pair of models: for a set with "each material removed in turn" (or any
+set holding the full set and the full set minus that material) the pair is
+(full set, full set without the material). Otherwise (all subsets, explicit
+lists) it is the best model containing the material against the best model
+without it. A material in every model (or in none) cannot be judged: "not
+tested".
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = [
+    "VERDICT_RULE",
+    "STRENGTH_SCALE",
+    "strength_of",
+    "ModelEvidence",
+    "Verdict",
+    "rank_models",
+    "material_verdicts",
+    "summarise_posterior",
+]
+
+#: The verdict rule, as printed with the verdicts.
+VERDICT_RULE = (
+    "Verdict rule: ln B = ln Z(with material) - ln Z(without), sigma its uncertainty; "
+    "'needed' if ln B - 2 sigma >= 3, 'not needed' if ln B + 2 sigma <= -1, otherwise "
+    "'undecided'. Pair: full set vs full set without the material when both were run, "
+    "else the best model with vs the best model without it. "
+    "Strength of ln B (Kass & Raftery 1995 breaks at ln B = 1, 3, 5): "
+    "hardly any / modest / firm / overwhelming."
+)
+
+#: (upper edge of ln B, reading) in increasing order.
+STRENGTH_SCALE = ((1.0, "hardly any"), (3.0, "modest"), (5.0, "firm"), (math.inf, "overwhelming"))
+
+_NEEDED, _NOT_NEEDED = 3.0, -1.0
+
+
+def strength_of(ln_b: float) -> str:
+    """Reading of |ln B| on the strength scale (module notes); the sign says which side."""
+    x = abs(float(ln_b))
+    for edge, label in STRENGTH_SCALE:
+        if x < edge:
+            return label
+    return STRENGTH_SCALE[-1][1]
+
+
+@dataclass(frozen=True)
+class ModelEvidence:
+    """What the ranking needs from one model's run."""
+
+    name: str
+    materials: tuple[str, ...]
+    ln_z: float
+    ln_z_err: float
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """The data's verdict on one material.
+
+    Attributes
+    ----------
+    material : str
+    verdict : {"needed", "not needed", "undecided", "not tested"}
+    ln_b, ln_b_err : float
+        ln Z(with) - ln Z(without) and its 1-sigma uncertainty (nan if not tested).
+    with_model, without_model : str
+        The two models compared ("" if not tested).
+    pairing : str
+        "removed in turn" or "best with vs best without".
+    strength : str
+        Reading of |ln B| on the strength scale.
+    """
+
+    material: str
+    verdict: str
+    ln_b: float
+    ln_b_err: float
+    with_model: str
+    without_model: str
+    pairing: str
+    strength: str
+
+    def sentence(self) -> str:
+        """One readable line, e.g. ``water_ice: needed (ln B = 7.9 ± 0.3, firm ...)``."""
+        if self.verdict == "not tested":
+            return f"{self.material}: not tested (it is in every model, or in none)"
+        side = "for" if self.ln_b >= 0 else "against"
+        return (f"{self.material}: {self.verdict} (ln B = {self.ln_b:+.2f} ± {self.ln_b_err:.2f}, "
+                f"{self.strength} evidence {side} it; {self.with_model} vs {self.without_model})")
+
+
+def rank_models(models, full_name: str | None = None):
+    """Rank models by ln Z.
+
+    Parameters
+    ----------
+    models : sequence of ModelEvidence
+    full_name : str, optional
+        Name of the model with every material (Bayes factors against it).
+
+    Returns
+    -------
+    astropy.table.Table
+        Columns rank, model, n_materials, ln_z, ln_z_err, ln_b_best, ln_b_best_err,
+        strength_vs_best, ln_b_full, ln_b_full_err (nan without a full set),
+        posterior_probability (equal prior odds over the models).
+    """
+    from astropy.table import Table
+
+    models = sorted(models, key=lambda m: -m.ln_z)
+    best = models[0]
+    full = next((m for m in models if m.name == full_name), None)
+    ln_z = np.array([m.ln_z for m in models])
+    prob = np.exp(ln_z - ln_z.max())
+    prob /= prob.sum()
+    rows = []
+    for i, m in enumerate(models):
+        lb = m.ln_z - best.ln_z
+        lbe = 0.0 if m is best else math.hypot(m.ln_z_err, best.ln_z_err)
+        lf = m.ln_z - full.ln_z if full is not None else math.nan
+        lfe = (0.0 if m is full else math.hypot(m.ln_z_err, full.ln_z_err)) if full is not None else math.nan
+        rows.append((i + 1, m.name, len(m.materials), m.ln_z, m.ln_z_err, lb, lbe,
+                     "best" if m is best else strength_of(lb), lf, lfe, prob[i]))
+    names = ("rank", "model", "n_materials", "ln_z", "ln_z_err", "ln_b_best", "ln_b_best_err",
+             "strength_vs_best", "ln_b_full", "ln_b_full_err", "posterior_probability")
+    table = Table(rows=rows, names=names)
+    table.meta["note"] = ("ln_b_best = ln Z - ln Z(best); ln_b_full = ln Z - ln Z(full set); "
+                          "posterior_probability assumes equal prior odds for the models")
+    return table
+
+
+def material_verdicts(models, materials, full_name: str | None = None) -> tuple[Verdict, ...]:
+    """Per-material verdicts by the rule in the module notes.
+
+    Parameters
+    ----------
+    models : sequence of ModelEvidence
+    materials : sequence of str
+        Candidate materials, in description order.
+    full_name : str, optional
+        Name of the full-set model (enables the "removed in turn" pairing).
+
+    Returns
+    -------
+    tuple of Verdict
+    """
+    by_set = {frozenset(m.materials): m for m in models}
+    full = next((m for m in models if m.name == full_name), None)
+    out = []
+    for mat in materials:
+        with_m = [m for m in models if mat in m.materials]
+        without = [m for m in models if mat not in m.materials]
+        pair = None
+        if full is not None and mat in full.materials:
+            partner = by_set.get(frozenset(full.materials) - {mat})
+            if partner is not None:
+                pair = (full, partner, "removed in turn")
+        if pair is None and with_m and without:
+            pair = (max(with_m, key=lambda m: m.ln_z), max(without, key=lambda m: m.ln_z),
+                    "best with vs best without")
+        if pair is None:
+            out.append(Verdict(mat, "not tested", math.nan, math.nan, "", "", "", ""))
+            continue
+        a, b, how = pair
+        ln_b = a.ln_z - b.ln_z
+        err = math.hypot(a.ln_z_err, b.ln_z_err)
+        if ln_b - 2 * err >= _NEEDED:
+            verdict = "needed"
+        elif ln_b + 2 * err <= _NOT_NEEDED:
+            verdict = "not needed"
+        else:
+            verdict = "undecided"
+        out.append(Verdict(mat, verdict, ln_b, err, a.name, b.name, how, strength_of(ln_b)))
+    return tuple(out)
+
+
+def summarise_posterior(samples, names):
+    """Median, 68% and 95% central intervals, and 95% upper limit per parameter.
+
+    Parameters
+    ----------
+    samples : ndarray[M, P]
+        Equally weighted posterior samples.
+    names : sequence of str
+        Parameter names (P).
+
+    Returns
+    -------
+    astropy.table.Table
+        Columns parameter, median, lo68, hi68, lo95, hi95, upper95 (the 95th
+        percentile: the one-sided 95% upper limit, used for fractions of
+        unfavoured materials).
+    """
+    from astropy.table import Table
+
+    samples = np.atleast_2d(np.asarray(samples, dtype=float))
+    q = np.percentile(samples, [50, 16, 84, 2.5, 97.5, 95], axis=0)
+    table = Table()
+    table["parameter"] = list(names)
+    for i, col in enumerate(("median", "lo68", "hi68", "lo95", "hi95", "upper95")):
+        table[col] = q[i]
+    return table

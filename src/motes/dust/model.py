@@ -1,0 +1,614 @@
+"""Forward model of debris-disk scattered-light colours for dust mixtures.
+
+For optically thin dust seen at scattering angle theta, the disk/star flux
+ratio at wavelength lambda is proportional to (GUIDE section 5; e.g. Bohren &
+Huffman 1983, ch. 3)::
+
+    R(lambda) = integral n(a) pi a^2 Q_sca(a, lambda) p(theta; a, lambda) da     [sr^-1]
+
+with n(a) ∝ a^-q on [a_min, a_max] normalised to unit total geometric cross
+section (``integral n pi a^2 da = 1``), m = m_eff(lambda) the effective index of
+the porous mixture (:func:`motes.optics.mixing.mix_refractive_index`) and p the
+Mie phase function (``integral p dOmega = 1``), averaged with equal weights over
+the angles of the :class:`ScatteringGeometry`. Per band b the model returns::
+
+    R_b = integral w_b(lambda) F*(lambda) R(lambda) dlambda / integral w_b F* dlambda
+
+with the band's weight ``w_b`` (:meth:`motes.photometry.bands.Band.weight`,
+photon counting by default) and the stellar F_lambda (a blackbody of
+``star_teff`` or a user spectrum), integrated by Gauss quadrature against
+``w_b F*`` (:func:`motes.dust.sampling.weighted_gauss_nodes`).
+
+Substituting a = t lambda / 2 pi (GUIDE section 9)::
+
+    R(lambda) = (lambda / 2 pi)^(3-q) [G(x_max) - G(x_min)] / integral_{a_min}^{a_max} a^(2-q) da
+    G(x) = 1/2 integral_0^x t^-q (|S1|^2 + |S2|^2) dt
+
+(Bohren & Huffman amplitudes; ``pi a^2 Q_sca p = a^2 (|S1|^2+|S2|^2) / 2 x^2``).
+``method="exact"`` evaluates this with miepython at every quadrature node
+(:mod:`motes.dust.sampling`); ``method="fast"`` interpolates tabulated G
+(:mod:`motes.dust.tables`). With ``phase="hg"`` the phase function is
+Henyey-Greenstein with the cross-section-weighted Mie asymmetry g of the size
+distribution at that wavelength::
+
+    R(lambda) = p_HG(theta; g_bar) integral n pi a^2 Q_sca da,
+    g_bar = integral n a^2 Q_sca g da / integral n a^2 Q_sca da.
+
+Real grains are not Mie spheres: irregular and aggregate grains scatter
+differently (especially in the phase function). Every result carries that note.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import InputError, ModelError, OpticalConstantsError
+from ..optics import mie
+from ..optics.constants import Material, load_material
+from ..optics.mixing import mix_refractive_index, mixture_density
+from ..optics.sizes import power_law_cross_section, find_blowout_size, BlowoutResult
+from ..photometry.bands import Band, get_band
+from ..photometry.spectra import blackbody_flux_lambda
+from .sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
+
+__all__ = [
+    "ScatteringGeometry",
+    "DiskColourModel",
+    "BandOptics",
+    "MIE_SPHERES_NOTE",
+    "FRACTIONS_NOTE",
+    "METHODS",
+    "PHASES",
+]
+
+METHODS = ("fast", "exact")
+PHASES = ("mie", "hg")
+MIE_SPHERES_NOTE = ("real grains are not Mie spheres: irregular, porous aggregates scatter with other "
+                    "phase functions and colours; treat compositions as those of equivalent spheres")
+FRACTIONS_NOTE = ("fractions are volume fractions of the solid; porosity is the vacuum fraction of the "
+                  "whole grain volume")
+_FRACTION_TOLERANCE = 1e-6
+
+
+@dataclass(frozen=True)
+class ScatteringGeometry:
+    """Scattering angles at which the disk is seen, and the phase-function model.
+
+    Parameters
+    ----------
+    angles_deg : tuple of float
+        Scattering angles [deg] in (0, 180], averaged with equal weights.
+    phase : {"mie", "hg"}
+        Mie phase function, or Henyey-Greenstein with the size-distribution
+        averaged Mie asymmetry parameter g.
+    """
+
+    angles_deg: tuple[float, ...] = (90.0,)
+    phase: str = "mie"
+
+    def __post_init__(self):
+        try:
+            angles = tuple(float(a) for a in np.atleast_1d(self.angles_deg))
+        except (TypeError, ValueError):
+            raise InputError(f"angles_deg must be numbers, got {self.angles_deg!r}", where="angles_deg") from None
+        if not angles or not all(np.isfinite(a) and 0 < a <= 180 for a in angles):
+            raise InputError(f"scattering angles must be in (0, 180] deg, got {angles!r}", where="angles_deg")
+        if self.phase not in PHASES:
+            raise InputError(f"phase must be one of {PHASES}, got {self.phase!r}", where="phase")
+        object.__setattr__(self, "angles_deg", angles)
+
+    @classmethod
+    def ring(cls, inclination_deg: float, n_azimuths: int = 8, phase: str = "mie") -> "ScatteringGeometry":
+        """Angles sampled by a circular ring at inclination i (0 = face-on).
+
+        A ring point at azimuth phi from the ansa is seen at scattering angle
+        ``theta = arccos(sin i cos phi)``; ``n_azimuths`` azimuths at the
+        midpoints of equal intervals over a half-turn give angles spread
+        over 90 deg +- i with the ring's own weighting.
+        """
+        i = float(inclination_deg)
+        if not (np.isfinite(i) and 0 <= i < 90) or n_azimuths < 1:
+            raise InputError(f"inclination must be in [0, 90) deg, got {inclination_deg!r}",
+                             where="inclination_deg")
+        phi = (np.arange(n_azimuths) + 0.5) * np.pi / n_azimuths
+        theta = np.degrees(np.arccos(np.sin(np.radians(i)) * np.cos(phi)))
+        return cls(tuple(float(t) for t in theta), phase)
+
+    @property
+    def angles_rad(self) -> np.ndarray:
+        return np.radians(np.asarray(self.angles_deg))
+
+    def key(self) -> str:
+        """Stable text identifying the geometry (used in table cache keys)."""
+        return f"{self.phase}:" + ",".join(f"{a:.10g}" for a in self.angles_deg)
+
+    def hg_phase(self, g) -> np.ndarray:
+        """Henyey-Greenstein phase function [sr^-1] averaged over the angles.
+
+        ``p = (1 - g^2) / (4 pi (1 + g^2 - 2 g cos theta)^(3/2))`` (Henyey &
+        Greenstein 1941, ApJ 93, 70); ``g`` any shape.
+        """
+        g = np.asarray(g, dtype=float)[..., None]
+        mu = np.cos(self.angles_rad)
+        p = (1 - g**2) / (4 * np.pi * (1 + g**2 - 2 * g * mu) ** 1.5)
+        return p.mean(axis=-1)
+
+
+@dataclass(frozen=True)
+class BandOptics:
+    """Per-band optical properties of one mixture and size distribution.
+
+    Attributes
+    ----------
+    bands : tuple of str
+    flux_ratio : ndarray[n_bands] [sr^-1]
+        Disk/star flux ratio per unit total grain cross-section.
+    albedo : ndarray[n_bands]
+        Single-scattering albedo, ``int n C_sca / int n C_ext``, band averaged.
+    g : ndarray[n_bands]
+        Cross-section-weighted asymmetry parameter ``int n C_sca g / int n C_sca``.
+    q_ext : ndarray[n_bands]
+        Cross-section-weighted extinction efficiency.
+    m_pivot : complex ndarray[n_bands]
+        Effective refractive index at each band's pivot wavelength.
+    pivot : ndarray[n_bands] [um]
+    density : float [g cm^-3]
+        Mixture density (nan if a component's density is unknown).
+    notes : tuple of str
+    """
+
+    bands: tuple[str, ...]
+    flux_ratio: np.ndarray
+    albedo: np.ndarray
+    g: np.ndarray
+    q_ext: np.ndarray
+    m_pivot: np.ndarray
+    pivot: np.ndarray
+    density: float
+    notes: tuple[str, ...]
+
+    def colours(self, reference: int = 0) -> np.ndarray:
+        """Magnitudes relative to band ``reference``: -2.5 log10(R_b / R_ref)."""
+        return -2.5 * np.log10(self.flux_ratio / self.flux_ratio[reference])
+
+
+def _as_material(item, i) -> Material:
+    if isinstance(item, Material):
+        return item
+    if isinstance(item, str):
+        return load_material(item)
+    raise InputError(f"materials[{i}] must be a Material or a material name, got {type(item).__name__}",
+                     where="materials")
+
+
+def _as_band(item, i) -> Band:
+    if isinstance(item, Band):
+        return item
+    if isinstance(item, str):
+        return get_band(item)
+    raise InputError(f"bands[{i}] must be a Band or a band name, got {type(item).__name__}", where="bands")
+
+
+class DiskColourModel:
+    """Scattered-light colours of a debris disk made of porous dust mixtures.
+
+    Parameters
+    ----------
+    materials : sequence of Material or str
+        Solid components, in the order of the ``fractions`` columns (names are
+        loaded with :func:`motes.optics.constants.load_material`).
+    bands : sequence of Band or str
+        Bands in the order of the output columns.
+    star_teff : float [K], optional
+        Blackbody stellar spectrum (used when ``star_spectrum`` is None).
+    star_spectrum : (ndarray[m], ndarray[m]), optional
+        Stellar wavelength [um] and F_lambda (any unit); must cover every band.
+    mixing : {"bruggeman", "maxwell_garnett"}
+    matrix : int, str or None
+        Maxwell Garnett matrix: a component index or name, or ``"vacuum"``.
+    geometry : ScatteringGeometry
+    method : {"fast", "exact"}
+        Lookup tables (:mod:`motes.dust.tables`) or miepython at every node.
+    a_max : float [um]
+        Default largest grain radius.
+    wavelength_nodes : int
+        Gauss nodes per band (weight: filter times stellar spectrum).
+    size_sampling : SizeSampling
+        Size-parameter quadrature of the exact path.
+
+    Notes
+    -----
+    See the module docstring for the formulas. Output: ``flux_ratio`` [sr^-1]
+    per unit total cross-section; multiply by a free scale (dust amount and
+    geometry) to compare with data.
+    """
+
+    def __init__(self, materials, bands, *, star_teff=None, star_spectrum=None,
+                 mixing="bruggeman", matrix=None, geometry=ScatteringGeometry(),
+                 method="fast", a_max=1000.0, wavelength_nodes: int = 6,
+                 size_sampling: SizeSampling = SizeSampling(), table_spec=None):
+        self.materials = tuple(_as_material(m, i) for i, m in enumerate(materials))
+        self.bands = tuple(_as_band(b, i) for i, b in enumerate(bands))
+        if not self.materials:
+            raise InputError("a dust model needs at least one material", where="materials")
+        if not self.bands:
+            raise InputError("a dust model needs at least one band", where="bands")
+        names = [m.name for m in self.materials]
+        if len(set(names)) != len(names):
+            raise InputError(f"materials are listed twice: {names}", where="materials")
+        if method not in METHODS:
+            raise InputError(f"method must be one of {METHODS}, got {method!r}", where="method")
+        if mixing not in ("bruggeman", "maxwell_garnett"):
+            raise InputError(f"mixing must be 'bruggeman' or 'maxwell_garnett', got {mixing!r}", where="mixing")
+        if not isinstance(geometry, ScatteringGeometry):
+            raise InputError("geometry must be a ScatteringGeometry", where="geometry")
+        if not (np.isfinite(a_max) and a_max > 0):
+            raise InputError(f"a_max must be a positive size in um, got {a_max!r}", where="a_max")
+        if int(wavelength_nodes) < 1:
+            raise InputError("wavelength_nodes must be >= 1", where="wavelength_nodes")
+        self.mixing = mixing
+        self.matrix = self._matrix_index(matrix)
+        self.geometry = geometry
+        self.method = method
+        self.a_max = float(a_max)
+        self.wavelength_nodes = int(wavelength_nodes)
+        self.size_sampling = size_sampling
+        self.table_spec = table_spec
+        self._table = None
+        self.star_teff, self.star_spectrum = self._check_star(star_teff, star_spectrum)
+        self._setup_nodes()
+
+    # ------------------------------------------------------------ set-up
+    def _matrix_index(self, matrix):
+        if matrix is None:
+            return 0
+        if isinstance(matrix, str):
+            if matrix == "vacuum":
+                return "vacuum"
+            names = [m.name for m in self.materials]
+            if matrix not in names:
+                raise InputError(f"matrix {matrix!r} is not one of the materials {names} or 'vacuum'",
+                                 where="matrix")
+            return names.index(matrix)
+        if isinstance(matrix, (int, np.integer)) and 0 <= matrix < len(self.materials):
+            return int(matrix)
+        raise InputError(f"matrix must be a material name, index or 'vacuum', got {matrix!r}", where="matrix")
+
+    @staticmethod
+    def _check_star(teff, spectrum):
+        if spectrum is not None:
+            try:
+                wl, fl = (np.asarray(v, dtype=float) for v in spectrum)
+            except (TypeError, ValueError):
+                raise InputError("star_spectrum must be (wavelength [um], F_lambda) arrays",
+                                 where="star_spectrum") from None
+            if wl.ndim != 1 or wl.shape != fl.shape or wl.size < 2 or not np.all(np.diff(wl) > 0) \
+                    or not (np.isfinite(fl).all() and (fl >= 0).all()):
+                raise InputError("star_spectrum needs increasing wavelengths and finite F_lambda >= 0 "
+                                 "of the same length", where="star_spectrum")
+            return (None if teff is None else float(teff)), (wl, fl)
+        if teff is None:
+            raise InputError("give the star as star_teff [K] (blackbody) or star_spectrum", where="star")
+        if not (np.isfinite(teff) and teff > 0):
+            raise InputError(f"star_teff must be a positive temperature in K, got {teff!r}", where="star_teff")
+        return float(teff), None
+
+    def star_flux(self, wavelength) -> np.ndarray:
+        """Stellar F_lambda at ``wavelength`` [um] (arbitrary scale)."""
+        wavelength = np.asarray(wavelength, dtype=float)
+        if self.star_spectrum is None:
+            return blackbody_flux_lambda(wavelength, self.star_teff)
+        wl, fl = self.star_spectrum
+        return np.interp(wavelength, wl, fl, left=np.nan, right=np.nan)
+
+    def _setup_nodes(self):
+        nodes, weights, owner = [], [], []
+        notes = [MIE_SPHERES_NOTE, FRACTIONS_NOTE]
+        for b, band in enumerate(self.bands):
+            grid = np.union1d(np.linspace(band.wavelength_min, band.wavelength_max, 801),
+                              band.wavelength[(band.wavelength >= band.wavelength_min)
+                                              & (band.wavelength <= band.wavelength_max)])
+            if self.star_spectrum is not None:
+                wl = self.star_spectrum[0]
+                if wl[0] > band.wavelength_min or wl[-1] < band.wavelength_max:
+                    raise InputError(f"the stellar spectrum ({wl[0]:.4g}-{wl[-1]:.4g} um) does not cover band "
+                                     f"'{band.name}' ({band.wavelength_min:.4g}-{band.wavelength_max:.4g} um)",
+                                     where="star_spectrum")
+                grid = np.union1d(grid, wl[(wl > grid[0]) & (wl < grid[-1])])
+            w = band.weight(grid) * self.star_flux(grid)
+            x, wx = weighted_gauss_nodes(grid, w, self.wavelength_nodes)
+            nodes.append(x)
+            weights.append(wx)
+            owner.append(np.full(x.size, b))
+            if band.approximate:
+                notes.append(f"band '{band.name}' is approximate ({band.source})")
+        self.node_wavelength = np.concatenate(nodes)
+        self.node_weight = np.concatenate(weights)
+        self.node_band = np.concatenate(owner)
+        # band-average matrix [L, B]
+        avg = np.zeros((self.node_wavelength.size, len(self.bands)))
+        avg[np.arange(self.node_wavelength.size), self.node_band] = self.node_weight
+        self._band_matrix = avg
+        indices = []
+        for mat in self.materials:
+            try:
+                sample = mat.sample(self.node_wavelength)
+            except OpticalConstantsError as exc:
+                lo, hi = mat.wavelength_range
+                bad = [bd.name for bd, x in zip(self.bands, nodes)
+                       if x.min() < lo or x.max() > hi]
+                raise OpticalConstantsError(
+                    f"band(s) {bad} lie outside the optical constants of '{mat.name}' "
+                    f"({lo:.4g}-{hi:.4g} um); choose other bands, another file, or allow an explicit "
+                    f"extrapolation rule for this material ({exc.reason})", path=mat.path) from None
+            indices.append(sample.m)
+            notes.extend(sample.notes)
+        self._indices = np.asarray(indices, dtype=complex)  # [K, L]
+        self.notes = tuple(dict.fromkeys(notes))
+
+    # ----------------------------------------------------------- inputs
+    def _parameters(self, fractions, porosity, a_min, q, a_max):
+        f = np.asarray(fractions, dtype=float)
+        k = len(self.materials)
+        if f.ndim == 1:
+            f = f[None, :]
+        if f.ndim != 2 or f.shape[1] != k:
+            raise InputError(f"fractions must have shape (N, {k}) for the materials "
+                             f"{[m.name for m in self.materials]}, got {np.shape(fractions)}", where="fractions")
+        if not np.isfinite(f).all() or (f < 0).any():
+            raise InputError("fractions must be finite and >= 0", where="fractions")
+        sums = f.sum(axis=1)
+        if np.any(np.abs(sums - 1) > _FRACTION_TOLERANCE):
+            i = int(np.argmax(np.abs(sums - 1)))
+            raise InputError(f"fractions (volume fractions of the solid) must sum to 1; row {i} sums to "
+                             f"{sums[i]:.6g}", where="fractions")
+        n = f.shape[0]
+        a_max = self.a_max if a_max is None else a_max
+        try:
+            porosity, a_min, q, a_max = (np.broadcast_to(np.asarray(v, dtype=float), (n,)).copy()
+                                         for v in (porosity, a_min, q, a_max))
+        except ValueError:
+            raise InputError(f"porosity, a_min, q and a_max must be scalars or arrays of length {n}") from None
+        if not np.isfinite(porosity).all() or (porosity < 0).any() or (porosity >= 1).any():
+            raise InputError("porosity (vacuum fraction of the whole grain) must be in [0, 1)", where="porosity")
+        if not (np.isfinite(a_min).all() and np.isfinite(a_max).all()) or (a_min <= 0).any():
+            raise InputError("a_min and a_max must be finite and > 0 um", where="a_min")
+        if (a_min >= a_max).any():
+            i = int(np.flatnonzero(a_min >= a_max)[0])
+            raise InputError(f"a_min must be smaller than a_max; row {i}: a_min = {a_min[i]:g} um, "
+                             f"a_max = {a_max[i]:g} um", where="a_min")
+        if not np.isfinite(q).all():
+            raise InputError("q must be finite", where="q")
+        return f, porosity, a_min, q, a_max
+
+    def effective_index(self, fractions, porosity, wavelength=None) -> np.ndarray:
+        """Effective index ``n + ik`` of the mixtures.
+
+        Parameters
+        ----------
+        fractions : ndarray[N, K]
+        porosity : ndarray[N] or float
+        wavelength : ndarray[L] [um], optional
+            Default: the model's band nodes.
+
+        Returns
+        -------
+        complex ndarray[N, L]
+        """
+        f = np.atleast_2d(np.asarray(fractions, dtype=float))
+        p = np.broadcast_to(np.asarray(porosity, dtype=float), (f.shape[0],))
+        if wavelength is None:
+            ind = self._indices
+        else:
+            ind = np.asarray([m.refractive_index(np.atleast_1d(wavelength)) for m in self.materials])
+        return mix_refractive_index(ind[:, None, :], f.T[:, :, None], p[:, None],
+                                    rule=self.mixing, matrix=self.matrix)
+
+    def density(self, fractions, porosity) -> np.ndarray:
+        """Mixture density [g cm^-3], ``(1 - P) sum f_i rho_i`` (nan if unknown)."""
+        f = np.atleast_2d(np.asarray(fractions, dtype=float))
+        rho = np.array([m.density for m in self.materials])
+        return mixture_density(rho, f.T, porosity)
+
+    # ------------------------------------------------------------ outputs
+    def flux_ratio(self, fractions, porosity, a_min, q, a_max=None) -> np.ndarray:
+        """Disk/star flux ratio per band for dust of unit total cross-section.
+
+        Parameters
+        ----------
+        fractions : ndarray[N, K]
+            Volume fractions of the solid; rows sum to 1.
+        porosity : ndarray[N] or float
+            Vacuum fraction of the whole grain.
+        a_min : ndarray[N] or float [um]
+        q : ndarray[N] or float
+        a_max : ndarray[N] or float [um], optional
+            Default: the model's ``a_max``.
+
+        Returns
+        -------
+        ndarray[N, n_bands] [sr^-1]
+            Band-averaged cross-section-weighted ``Q_sca p(theta)``.
+        """
+        f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
+        m = self.effective_index(f, p)
+        if self.method == "fast":
+            node = self._fast_table().node_values(m, self.node_wavelength, a_min, q, a_max)
+        else:
+            node = self.node_values_exact(m, self.node_wavelength, a_min, q, a_max)
+        return node @ self._band_matrix
+
+    def _fast_table(self):
+        if self._table is None:
+            from .tables import table_for_model
+
+            self._table = table_for_model(self)
+        return self._table
+
+    def prepare(self) -> None:
+        """Build or load the fast path's lookup table now (``method="fast"`` only)."""
+        if self.method == "fast":
+            self._fast_table()
+
+    def node_values_exact(self, m, wavelength, a_min, q, a_max, sampling: SizeSampling | None = None):
+        """Monochromatic flux ratio R(lambda) by direct Mie quadrature.
+
+        Parameters
+        ----------
+        m : complex ndarray[N, L]
+            Effective indices at the wavelengths.
+        wavelength : ndarray[L] [um]
+        a_min, q, a_max : ndarray[N]
+        sampling : SizeSampling, optional
+            Default: the model's ``size_sampling``.
+
+        Returns
+        -------
+        ndarray[N, L] [sr^-1]
+        """
+        sampling = sampling or self.size_sampling
+        m = mie.check_index(np.atleast_2d(m))
+        wavelength = np.asarray(wavelength, dtype=float)
+        n_pts, n_lam = m.shape
+        a_min, q, a_max = (np.broadcast_to(np.asarray(v, dtype=float), (n_pts,)) for v in (a_min, q, a_max))
+        out = np.empty((n_pts, n_lam))
+        theta = self.geometry.angles_rad
+        norm = power_law_cross_section(a_min, a_max, q)
+        for i in range(n_pts):
+            ts, ws, mm, owner = [], [], [], []
+            for j in range(n_lam):
+                k = 2 * np.pi / wavelength[j]
+                t, w = size_parameter_rule(k * a_min[i], k * a_max[i], sampling)
+                ts.append(t)
+                ws.append(w)
+                mm.append(np.full(t.size, m[i, j]))
+                owner.append(np.full(t.size, j))
+            t, w, mm, owner = (np.concatenate(v) for v in (ts, ws, mm, owner))
+            if self.geometry.phase == "mie":
+                s = mie.scattered_intensity(mm, t, theta)
+                integral = np.bincount(owner, w * 0.5 * t ** (-q[i]) * s, minlength=n_lam)
+            else:
+                e = mie.efficiencies(mm, t)
+                base = w * t ** (2.0 - q[i]) * e.q_sca
+                csca = np.pi * np.bincount(owner, base, minlength=n_lam)
+                gbar = np.bincount(owner, base * e.g, minlength=n_lam) * np.pi / csca
+                integral = csca * self.geometry.hg_phase(gbar)
+            out[i] = (wavelength / (2 * np.pi)) ** (3.0 - q[i]) * integral / norm[i]
+        return out
+
+    def monochromatic_flux_ratio(self, wavelength, fractions, porosity, a_min, q, a_max=None) -> np.ndarray:
+        """R(lambda) [sr^-1] at given wavelengths (no band average), exact path.
+
+        Returns
+        -------
+        ndarray[N, L]
+        """
+        wavelength = np.atleast_1d(np.asarray(wavelength, dtype=float))
+        f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
+        m = self.effective_index(f, p, wavelength)
+        return self.node_values_exact(m, wavelength, a_min, q, a_max)
+
+    def band_optics(self, fractions, porosity, a_min, q, a_max=None, n_per_efold: int = 24) -> BandOptics:
+        """Flux ratio, albedo, g and Q_ext per band for ONE mixture (exact path).
+
+        Parameters
+        ----------
+        fractions : ndarray[K]
+        porosity, a_min, q, a_max : float
+        n_per_efold : int
+            Gauss-Legendre nodes per e-fold of a for the efficiency averages
+            (Q_ext, Q_sca and g are smooth in a once averaged over a band).
+        """
+        f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
+        if f.shape[0] != 1:
+            raise InputError("band_optics takes one mixture (fractions of shape (K,))", where="fractions")
+        ratio = (self.node_values_exact(self.effective_index(f, p), self.node_wavelength, a_min, q, a_max)
+                 @ self._band_matrix)[0]
+        from ..optics.sizes import PowerLaw
+
+        a, w = PowerLaw(float(a_min[0]), float(a_max[0]), float(q[0])).quadrature(n_per_efold)
+        m = self.effective_index(f, p)[0]  # [L]
+        e = mie.efficiencies(m[:, None], 2 * np.pi * a[None, :] / self.node_wavelength[:, None])
+        csca = (e.q_sca * w).sum(axis=1)
+        cext = (e.q_ext * w).sum(axis=1)
+        cg = (e.q_sca * e.g * w).sum(axis=1)
+        bm = self._band_matrix
+        albedo = (csca @ bm) / (cext @ bm)
+        g = (cg @ bm) / (csca @ bm)
+        pivots = np.array([b.pivot_wavelength for b in self.bands])
+        m_piv = self.effective_index(f, p, pivots)[0]
+        return BandOptics(bands=tuple(b.name for b in self.bands), flux_ratio=ratio, albedo=albedo, g=g,
+                          q_ext=cext @ bm, m_pivot=m_piv, pivot=pivots,
+                          density=float(np.ravel(self.density(f, p))[0]), notes=self.notes)
+
+    def radiation_pressure_efficiency(self, fractions, porosity, a, n_wavelengths: int = 64):
+        """Q_pr = Q_ext - g Q_sca averaged over the stellar F_lambda, for radii ``a`` [um].
+
+        The average runs over the wavelengths where every material has data
+        (no extrapolation); the fraction of stellar flux covered is returned.
+
+        Returns
+        -------
+        q_pr : ndarray[len(a)]
+        covered : float
+            Fraction of the stellar bolometric flux inside the range used.
+        """
+        lo = max(m.wavelength_range[0] for m in self.materials)
+        hi = min(m.wavelength_range[1] for m in self.materials)
+        lo, hi = max(lo, 0.05), min(hi, 1000.0)
+        if self.star_spectrum is not None:
+            lo, hi = max(lo, self.star_spectrum[0][0]), min(hi, self.star_spectrum[0][-1])
+        lam = np.geomspace(lo, hi, n_wavelengths)
+        flux = self.star_flux(lam)
+        full = np.geomspace(0.05, 1000.0, 4000)
+        if self.star_spectrum is not None:
+            full = self.star_spectrum[0]
+        inside = (full >= lo) & (full <= hi)
+        fl_full = self.star_flux(full)
+        covered = float(np.trapezoid(np.where(inside, fl_full, 0.0), full) / np.trapezoid(fl_full, full))
+        m = self.effective_index(np.atleast_2d(fractions), porosity, lam)[0]
+        a = np.atleast_1d(np.asarray(a, dtype=float))
+        e = mie.efficiencies(m[None, :], 2 * np.pi * a[:, None] / lam[None, :])
+        wts = np.gradient(lam) * flux
+        return (e.q_pr * wts).sum(axis=1) / wts.sum(), covered
+
+    def blowout(self, fractions, porosity, luminosity_lsun, mass_msun) -> BlowoutResult:
+        """Blow-out radius of this mixture around a star (Burns, Lamy & Soter 1979).
+
+        Q_pr(a) from Mie theory averaged over the stellar spectrum; the
+        mixture density from the components' bulk densities and the porosity.
+        """
+        rho = float(np.ravel(self.density(fractions, porosity))[0])
+        if not np.isfinite(rho) or rho <= 0:
+            raise ModelError("the mixture density is unknown (a component has no density); "
+                             "give densities to compute the blow-out size")
+        cache = {}
+
+        def q_pr(a):
+            q, cov = self.radiation_pressure_efficiency(fractions, porosity, a)
+            cache["covered"] = cov
+            return q
+
+        result = find_blowout_size(q_pr, luminosity_lsun, mass_msun, rho, a_range=(0.01, 100.0))
+        cov = cache.get("covered", 1.0)
+        if cov < 0.99:
+            note = (f"Q_pr averaged over the wavelengths covered by every material's data, "
+                    f"{100 * cov:.0f}% of the stellar flux")
+            result = BlowoutResult(result.size, result.beta_max, result.size_of_beta_max, result.a,
+                                   result.beta, result.q_pr, result.message, result.notes + (note,))
+        return result
+
+    def describe(self) -> str:
+        """Short multi-line summary of the model's set-up."""
+        star = (f"blackbody {self.star_teff:g} K" if self.star_spectrum is None
+                else f"user spectrum ({self.star_spectrum[0][0]:.3g}-{self.star_spectrum[0][-1]:.3g} um)")
+        return "\n".join([
+            f"materials: {', '.join(m.name for m in self.materials)} (mixing: {self.mixing})",
+            f"bands: {', '.join(b.name for b in self.bands)} ({self.wavelength_nodes} nodes per band)",
+            f"star: {star}",
+            f"geometry: scattering angles {', '.join(f'{a:g}' for a in self.geometry.angles_deg)} deg, "
+            f"phase function {self.geometry.phase}",
+            f"method: {self.method}; default a_max {self.a_max:g} um; Mie: {mie.solver_summary()}",
+        ])

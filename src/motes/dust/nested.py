@@ -1,0 +1,232 @@
+"""Running dynesty for one model: checkpoints, resume, worker pool, progress.
+
+dynesty (Speagle 2020, MNRAS 493, 3132; Koposov et al., Zenodo) samples the
+posterior and estimates the evidence Z = integral L(theta) pi(theta) dtheta by
+nested sampling (Skilling 2006, Bayesian Analysis 1, 833).
+
+Checkpoints: ``run_nested(checkpoint_file=...)`` saves the sampler state
+every ``checkpoint_every`` seconds (dynesty writes a temporary file and
+renames it); :func:`run_nested_model` resumes with
+``NestedSampler.restore(file, pool=...)`` and ``run_nested(resume=True)``.
+The sampler state file is dynesty's own (a pickle, readable only by the same
+dynesty version); motes' *results* are written in open formats elsewhere.
+
+Workers: the sampler always calls the likelihood through dynesty's
+``dynesty.pool`` function cache (set in the driver process too), so a
+checkpoint holds no reference to a particular pool and resumes with any number
+of workers; with ``workers > 1`` a ``dynesty.pool.Pool`` of that many
+processes (spawned, each building the forward model once from the fit
+description) evaluates proposals in parallel, ``queue_size = workers``.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import math
+import sys
+import time
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import FitError
+from .fitspec import SamplerSettings
+
+__all__ = ["NestedRun", "run_nested_model", "open_pool"]
+
+
+@dataclass(frozen=True)
+class NestedRun:
+    """Outcome of one nested-sampling run.
+
+    Attributes
+    ----------
+    ln_z, ln_z_err : float
+        ln evidence and its 1-sigma uncertainty (dynesty's estimate).
+    samples : ndarray[M, ndim]
+        All dead (and final live) points, in parameter space.
+    ln_l : ndarray[M]
+        Their ln-likelihoods.
+    ln_weight : ndarray[M]
+        Their ln importance weights (normalised: logsumexp = 0).
+    n_calls : int
+        Likelihood calls in total (all sessions).
+    n_iterations : int
+    information : float
+        Kullback-Leibler information H [nats] of the posterior vs the prior.
+    resumed : bool
+        True when this session continued from a checkpoint.
+    wall_time : float [s]
+        Wall time of this session.
+    """
+
+    ln_z: float
+    ln_z_err: float
+    samples: np.ndarray
+    ln_l: np.ndarray
+    ln_weight: np.ndarray
+    n_calls: int
+    n_iterations: int
+    information: float
+    resumed: bool
+    wall_time: float
+
+    def equal_weight_samples(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        """Resample to at most ``n`` equally weighted posterior samples, ndarray[n', ndim]."""
+        from dynesty.utils import resample_equal
+
+        w = np.exp(self.ln_weight - self.ln_weight.max())
+        w /= w.sum()
+        eq = resample_equal(self.samples, w, rng)
+        n_eff = int(min(n, eq.shape[0]))
+        idx = rng.choice(eq.shape[0], size=n_eff, replace=False)
+        return eq[idx]
+
+
+@contextlib.contextmanager
+def open_pool(workers: int, loglike, prior_transform):
+    """Context manager: a dynesty process pool, or ``None`` for one worker.
+
+    The driver process always gets dynesty's function cache set to
+    ``loglike``/``prior_transform``, so samplers built on
+    ``dynesty.pool.loglike_cache``/``prior_transform_cache`` work with and
+    without a pool, and so do their checkpoints.
+    """
+    from dynesty import pool as dpool
+
+    if workers < 1:
+        raise FitError(f"workers must be >= 1, got {workers}")
+    dpool.initializer(loglike, prior_transform, (), {}, (), {})
+    if workers == 1:
+        yield None
+        return
+    with dpool.Pool(workers, loglike, prior_transform) as pool:
+        yield pool
+
+
+class _Progress:
+    """One tqdm line per model: iterations, calls, ln Z so far, remaining Delta ln Z."""
+
+    def __init__(self, label: str, enabled: bool, initial: int = 0):
+        self.bar = None
+        if enabled:
+            from tqdm import tqdm
+
+            self.bar = tqdm(desc=label, initial=initial, unit=" it", file=sys.stderr, leave=True,
+                            dynamic_ncols=True, mininterval=0.5)
+
+    def __call__(self, result, niter, ncall, add_live_it=None, dlogz=None, stop_val=None,
+                 nbatch=None, logl_min=-np.inf, logl_max=np.inf):
+        if self.bar is None:
+            return
+        logz = getattr(result, "logz", math.nan)
+        logzvar = getattr(result, "logzvar", math.nan)
+        err = math.sqrt(logzvar) if 0 <= logzvar < 1e6 else math.nan
+        remaining = result.delta_logz
+        parts = [f"calls {ncall}", f"ln Z {logz:.2f}±{err:.2f}" if logz > -1e6 else "ln Z -inf"]
+        if add_live_it is not None:
+            parts.append(f"adding live point {add_live_it}")
+        elif nbatch:
+            parts.append(f"batch {nbatch}")
+        else:
+            parts.append(f"left {remaining:.3g}" + (f" (stop < {dlogz:g})" if dlogz else ""))
+        self.bar.set_postfix_str(", ".join(parts), refresh=False)
+        self.bar.update(max(niter - self.bar.n, 0) if add_live_it is None else 0)
+
+    def close(self):
+        if self.bar is not None:
+            self.bar.close()
+
+
+def run_nested_model(ndim: int, settings: SamplerSettings, checkpoint: Path, *, pool=None,
+                     workers: int = 1, seed_key: int = 0, resume: bool = True,
+                     progress: bool = True, label: str = "") -> NestedRun:
+    """Run (or resume) nested sampling for one model.
+
+    Parameters
+    ----------
+    ndim : int
+        Dimension of the unit cube.
+    settings : SamplerSettings
+    checkpoint : pathlib.Path
+        Sampler state file; resumed from when it exists and ``resume``.
+    pool : dynesty.pool.Pool or None
+        From :func:`open_pool` (which also sets the function cache).
+    workers : int
+        Pool size (queue size).
+    seed_key : int
+        Distinguishes the random streams of the models of one fit.
+    resume : bool
+    progress : bool
+        Show a progress line on stderr.
+    label : str
+        Progress-line label.
+
+    Returns
+    -------
+    NestedRun
+    """
+    import dynesty
+    from dynesty import pool as dpool
+
+    start = time.perf_counter()
+    checkpoint = Path(checkpoint)
+    sampler_cls = dynesty.DynamicNestedSampler if settings.kind == "dynamic" else dynesty.NestedSampler
+    resumed = bool(resume and checkpoint.exists())
+    if resumed:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            sampler = sampler_cls.restore(str(checkpoint), pool=pool)
+        if pool is not None:
+            # queue as wide as the pool, whatever the interrupted session used
+            samplers = [sampler] + [s for s in (getattr(sampler, "sampler", None),
+                                                getattr(sampler, "batch_sampler", None)) if s is not None]
+            for s in samplers:
+                s.queue_size = workers
+    else:
+        rng = np.random.default_rng([int(settings.seed), int(seed_key)])
+        kwargs = dict(bound=settings.bound, sample=settings.sample, rstate=rng,
+                      pool=pool, queue_size=workers if pool is not None else None)
+        if settings.kind == "dynamic":
+            sampler = sampler_cls(dpool.loglike_cache, dpool.prior_transform_cache, ndim, **kwargs)
+        else:
+            sampler = sampler_cls(dpool.loglike_cache, dpool.prior_transform_cache, ndim,
+                                  nlive=settings.nlive, **kwargs)
+    checkpoint.parent.mkdir(parents=True, exist_ok=True)
+    initial = int(getattr(sampler, "it", 1)) - 1 if resumed else 0
+    bar = _Progress(label, progress, initial=max(initial, 0))
+    try:
+        if settings.kind == "dynamic":
+            sampler.run_nested(nlive_init=settings.nlive, dlogz_init=settings.dlogz,
+                               nlive_batch=settings.nlive_batch, maxbatch=settings.maxbatch,
+                               wt_kwargs={"pfrac": settings.pfrac}, maxcall=settings.maxcall,
+                               print_progress=progress, print_func=bar,
+                               checkpoint_file=str(checkpoint),
+                               checkpoint_every=settings.checkpoint_every, resume=resumed)
+        else:
+            with warnings.catch_warnings():
+                warnings.filterwarnings("ignore", message="You are resuming a finished static run")
+                sampler.run_nested(dlogz=settings.dlogz, maxcall=settings.maxcall,
+                                   print_progress=progress, print_func=bar,
+                                   checkpoint_file=str(checkpoint),
+                                   checkpoint_every=settings.checkpoint_every, resume=resumed)
+    finally:
+        bar.close()
+    res = sampler.results
+    logwt = np.asarray(res["logwt"], dtype=float)
+    ln_z = float(res["logz"][-1])
+    ln_weight = logwt - ln_z
+    return NestedRun(
+        ln_z=ln_z,
+        ln_z_err=float(res["logzerr"][-1]),
+        samples=np.asarray(res["samples"], dtype=float),
+        ln_l=np.asarray(res["logl"], dtype=float),
+        ln_weight=ln_weight,
+        n_calls=int(np.sum(res["ncall"])),
+        n_iterations=int(res["niter"]),
+        information=float(res["information"][-1]),
+        resumed=resumed,
+        wall_time=time.perf_counter() - start,
+    )

@@ -1,0 +1,169 @@
+"""The band catalogue: tables, descriptions and plots of bands (``motes bands``)."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+from ..errors import InputError
+from .bands import Band, get_band, standard_band_names
+
+__all__ = ["band_table", "format_band_table", "format_band", "plot_band"]
+
+
+def band_table(bands=None, counting: str | None = "photon"):
+    """A table describing bands (pivot, FWHM, zero points, Vega's magnitude, ...).
+
+    Parameters
+    ----------
+    bands : sequence of Band or str, optional
+        Default: every standard band.
+    counting : {"photon", "energy"} or None
+        Detector counting mode for the zero points; None keeps each Band's
+        own mode (photon for bands given by name).
+
+    Returns
+    -------
+    astropy.table.Table
+        Columns ``name, system, pivot_wavelength [um], fwhm [um],
+        vega_zero_point [Jy], ab_minus_vega [mag], vega_magnitude [mag],
+        response, approximate, note``.
+    """
+    import astropy.units as u
+    from astropy.table import Table
+
+    if bands is None:
+        bands = standard_band_names()
+    resolved = [get_band(b, counting=counting or "photon") if isinstance(b, str)
+                else (b.with_counting(counting) if counting else b) for b in bands]
+    info = [b.describe() for b in resolved]
+    t = Table()
+    t["name"] = [i["name"] for i in info]
+    t["system"] = [i["system"] for i in info]
+    t["pivot_wavelength"] = [i["pivot_um"] for i in info] * u.um
+    t["fwhm"] = [i["fwhm_um"] for i in info] * u.um
+    t["vega_zero_point"] = [i["vega_zp_jy"] for i in info] * u.Jy
+    t["ab_minus_vega"] = [i["ab_minus_vega"] for i in info] * u.mag
+    t["vega_magnitude"] = [i["vega_mag"] for i in info] * u.mag
+    t["response"] = [i["response"] for i in info]
+    t["approximate"] = [i["approximate"] for i in info]
+    t["note"] = [_short_note(b) for b in resolved]
+    modes = sorted({b.counting for b in resolved})
+    t.meta["counting"] = modes[0] if len(modes) == 1 else "/".join(modes)
+    return t
+
+
+def _short_note(band: Band) -> str:
+    parts = []
+    if band.approximate:
+        parts.append("approximate")
+    if band.system in ("WISE", "Spitzer/IRAC"):
+        parts.append("colour corrections may be needed")
+    elif band.note:
+        parts.append(band.note.split(";")[0].split(" (")[0][:48])
+    if band.native_system == "AB":
+        parts.append("AB system")
+    return "; ".join(parts)
+
+
+def format_band_table(table) -> str:
+    """Plain-text listing of :func:`band_table`."""
+    head = (f"{'name':<11} {'system':<16} {'pivot[um]':>9} {'FWHM[um]':>8} {'ZP_Vega[Jy]':>11} "
+            f"{'AB-Vega':>7} {'m(Vega)':>7} {'response':<8} notes")
+    lines = [head, "-" * len(head)]
+    for row in table:
+        lines.append(
+            f"{row['name']:<11} {row['system']:<16} {row['pivot_wavelength']:9.4f} {row['fwhm']:8.4f} "
+            f"{row['vega_zero_point']:11.1f} {row['ab_minus_vega']:7.3f} {row['vega_magnitude']:7.2f} "
+            f"{row['response']:<8} {row['note']}"
+        )
+    lines.append("")
+    lines.append(f"zero points by synthetic photometry of the CALSPEC Vega spectrum, "
+                 f"{table.meta.get('counting', 'photon')}-counting; m(Vega) = magnitude the system assigns "
+                 "to Vega; response = kind of curve (photon or energy response)")
+    return "\n".join(lines)
+
+
+def format_band(band: Band) -> str:
+    """A multi-line description of one band."""
+    d = band.describe()
+    rows = [
+        ("name", d["name"]),
+        ("system", d["system"]),
+        ("pivot wavelength", f"{d['pivot_um']:.5f} um"),
+        ("effective wavelength (Vega)", f"{d['effective_um']:.5f} um"),
+        ("mean wavelength", f"{band.mean_wavelength:.5f} um"),
+        ("FWHM", f"{d['fwhm_um']:.5f} um"),
+        ("equivalent width", f"{d['width_um']:.5f} um"),
+        ("range", f"{band.wavelength_min:.4f}-{band.wavelength_max:.4f} um"),
+        ("Vega zero point", f"{d['vega_zp_jy']:.2f} Jy = {band.vega_zero_point_flux_lambda:.4e} W m-2 um-1"),
+        ("AB - Vega", f"{d['ab_minus_vega']:+.4f} mag"),
+        ("Vega's magnitude", f"{d['vega_mag']:.2f} mag"),
+        ("catalogue system", d["native"]),
+        ("curve response", d["response"]),
+        ("counting mode", d["counting"]),
+        ("approximate", "yes (built from a centre and width)" if d["approximate"] else "no"),
+        ("source", d["source"]),
+    ]
+    if d["note"]:
+        rows.append(("note", d["note"]))
+    width = max(len(k) for k, _ in rows)
+    return "\n".join(f"{k:<{width}}  {v}" for k, v in rows)
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+def plot_band(band: Band, path) -> Path:
+    """Save a plot of a band's curve (normalised) to ``path`` (PNG, PDF, ...).
+
+    Parameters
+    ----------
+    band : Band
+    path : str or Path
+        Output file; the format follows the suffix.
+
+    Returns
+    -------
+    Path
+    """
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    path = Path(path)
+    if path.parent and not path.parent.exists():
+        raise InputError("output folder does not exist", path.parent)
+    fig, ax = plt.subplots(figsize=(6.0, 3.6))
+    t = band.throughput / band.throughput.max()
+    ax.plot(band.wavelength, t, color="#1f5f8b", lw=1.6, label=f"curve ({band.response} response)")
+    w = band.weight(band.wavelength)
+    ax.plot(band.wavelength, w / w.max(), color="#c0622f", lw=1.0, ls="--",
+            label=f"{band.counting}-counting weight")
+    ax.axvline(band.pivot_wavelength, color="0.3", lw=0.8, ls=":", label=f"pivot {band.pivot_wavelength:.4f} µm")
+    ax.set_xlabel("wavelength [µm]")
+    ax.set_ylabel("normalised throughput")
+    title = band.name + (" (approximate)" if band.approximate else "")
+    ax.set_title(title)
+    ax.set_ylim(0, 1.12)
+    ax.legend(fontsize=8, loc="lower center")
+    fig.tight_layout()
+    suffix = path.suffix or ".png"
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=suffix, dir=path.parent or ".")
+    os.close(fd)
+    try:
+        fig.savefig(tmp, dpi=130)
+        os.chmod(tmp, 0o666 & ~_umask())
+        os.replace(tmp, path)
+    except (OSError, ValueError) as exc:
+        raise InputError(f"cannot save plot: {exc}", path) from None
+    finally:
+        plt.close(fig)
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+    return path

@@ -1,0 +1,706 @@
+"""Reading a target: a TOML description plus a photometry table.
+
+A *target* is one companion (or any faint source) next to a host star. It is
+described by two files (the format is documented with a full example in
+``docs/photometry.md``):
+
+* a TOML file with the ``[companion]`` name and photometry-table path, the
+  ``[host]`` star (catalogue magnitudes, distance or parallax, Teff or a
+  spectrum for synthesising missing host magnitudes), user ``[bands.NAME]``
+  (curve file, top-hat or Gaussian) and optional ``[settings]``;
+* a photometry table (CSV or ECSV) with one row per band and the columns
+  ``band, kind, value, error`` plus ``unit`` (flux rows), ``limit_sigma``
+  (upper limits) and an optional free-text ``note``.
+
+Everything a user can get wrong raises :class:`motes.errors.InputError`
+naming the file and the row or field, never a raw parser exception.
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+import tomllib
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import BandError, InputError
+from .bands import (
+    COUNTING_MODES,
+    Band,
+    gaussian_band,
+    get_band,
+    read_band_curve,
+    top_hat_band,
+)
+
+__all__ = [
+    "INPUT_KINDS",
+    "DEFAULT_SYNTHESIS_SYSTEMATIC_MAG",
+    "Measurement",
+    "HostMagnitude",
+    "HostSpectrum",
+    "HostStar",
+    "CalibrationSettings",
+    "Target",
+    "read_target",
+    "read_user_bands",
+    "read_photometry_table",
+    "read_host_spectrum",
+    "parse_flux_unit",
+]
+
+#: Kinds of measurement a photometry row may hold.
+INPUT_KINDS = ("vega_mag", "ab_mag", "flux", "contrast_mag", "contrast_ratio")
+
+#: Default systematic uncertainty [mag] added to a host magnitude synthesised
+#: from a spectrum model. 0.15 mag: between Ks and ~3.4 um, blackbody colours
+#: are redder than the mean colours of real dwarfs by ~0.1 mag for G and K
+#: stars and ~0.2 mag for M dwarfs, whose molecular bands (CO, H2O) a
+#: blackbody lacks (comparison with the Pecaut & Mamajek 2013 sequence, see
+#: tests/test_photometry_synthesis.py). Set ``[settings]
+#: synthesis_systematic_mag`` to change it; use a model spectrum for M hosts.
+DEFAULT_SYNTHESIS_SYSTEMATIC_MAG = 0.15
+
+_TABLE_COLUMNS = ("band", "kind", "value", "error", "unit", "limit_sigma", "note")
+
+
+# ----------------------------------------------------------------- records
+@dataclass(frozen=True)
+class Measurement:
+    """One input row of a photometry table, validated but not calibrated.
+
+    Parameters
+    ----------
+    band : Band
+    kind : str
+        One of :data:`INPUT_KINDS`.
+    value : float
+        Magnitude [mag], flux density [``unit``], Δmag [mag] or flux ratio
+        (companion/host). For an upper limit, the N-sigma limiting value.
+    error : float
+        1-sigma uncertainty in the unit of ``value`` (nan for upper limits).
+    unit : str
+        Flux-density unit for ``kind == "flux"`` (astropy syntax), else "".
+    limit_sigma : float
+        N of an N-sigma upper limit; nan for a detection.
+    row : int
+        1-based data row in the file (for messages).
+    note : str
+        Free text from the file's ``note`` column.
+    """
+
+    band: Band
+    kind: str
+    value: float
+    error: float
+    unit: str = ""
+    limit_sigma: float = math.nan
+    row: int = 0
+    note: str = ""
+
+    @property
+    def is_limit(self) -> bool:
+        """True for an N-sigma upper limit."""
+        return not math.isnan(self.limit_sigma)
+
+
+@dataclass(frozen=True)
+class HostMagnitude:
+    """A catalogue magnitude of the host star.
+
+    ``system`` is ``"Vega"`` or ``"AB"``; ``error`` is 1-sigma [mag].
+    """
+
+    band: Band
+    magnitude: float
+    error: float
+    system: str = "Vega"
+
+
+@dataclass(frozen=True)
+class HostSpectrum:
+    """A host-star spectrum for synthesising magnitudes.
+
+    ``wavelength`` [um] increasing, ``flux_lambda`` F_lambda in any
+    consistent unit (only colours are taken from it).
+    """
+
+    wavelength: np.ndarray
+    flux_lambda: np.ndarray
+    source: str = ""
+
+
+@dataclass(frozen=True)
+class HostStar:
+    """The host star: catalogue photometry, distance and spectrum model.
+
+    Distances are [pc]; parallax [mas]; ``teff`` [K]. Unknown values are nan.
+    When a parallax is given, ``distance_pc`` is left nan and the distance
+    is derived from the parallax by :func:`motes.photometry.calibrate`.
+    """
+
+    name: str = "host"
+    magnitudes: tuple[HostMagnitude, ...] = ()
+    distance_pc: float = math.nan
+    distance_pc_error: float = math.nan
+    parallax_mas: float = math.nan
+    parallax_mas_error: float = math.nan
+    teff: float = math.nan
+    spectrum: HostSpectrum | None = None
+
+    def magnitude_in(self, band: Band) -> HostMagnitude | None:
+        """The catalogue magnitude in ``band`` (matched by name), or None."""
+        for entry in self.magnitudes:
+            if entry.band.name == band.name:
+                return entry
+        return None
+
+
+@dataclass(frozen=True)
+class CalibrationSettings:
+    """Explicit choices of a calibration (the ``[settings]`` TOML table).
+
+    Parameters
+    ----------
+    synthesis_systematic_mag : float
+        Systematic 1-sigma [mag] added to synthesised host magnitudes
+        (default :data:`DEFAULT_SYNTHESIS_SYSTEMATIC_MAG`).
+    synthesis_reference_band : str or None
+        Host catalogue band to normalise synthesised magnitudes to; None picks
+        the band nearest in pivot wavelength.
+    counting : {"photon", "energy"}
+        Detector counting mode for every band (a user band may override it).
+    zero_point_errors : dict of str to float
+        Fractional zero-point uncertainties overriding the defaults, keyed by
+        band name or photometric system name.
+    """
+
+    synthesis_systematic_mag: float = DEFAULT_SYNTHESIS_SYSTEMATIC_MAG
+    synthesis_reference_band: str | None = None
+    counting: str = "photon"
+    zero_point_errors: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Target:
+    """A companion's photometry with everything needed to calibrate it.
+
+    Build it with :func:`read_target`, or directly in Python.
+    """
+
+    name: str
+    host: HostStar
+    measurements: tuple[Measurement, ...]
+    bands: dict = field(default_factory=dict)  # user bands: name -> Band
+    settings: CalibrationSettings = field(default_factory=CalibrationSettings)
+    path: str | None = None
+    photometry_path: str | None = None
+
+
+# ----------------------------------------------------------------- helpers
+def _number(value, path, where, what="a number") -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(f"expected {what}, got {value!r}", path, where)
+    value = float(value)
+    if not math.isfinite(value):
+        raise InputError(f"expected {what}, got {value!r}", path, where)
+    return value
+
+
+def _pair(value, path, where, what) -> tuple[float, float]:
+    """A ``[value, error]`` pair with a positive error."""
+    if not isinstance(value, list) or len(value) != 2:
+        raise InputError(f"expected [{what}, uncertainty] (two numbers), got {value!r}", path, where)
+    v = _number(value[0], path, where, what)
+    e = _number(value[1], path, where, "an uncertainty")
+    if e <= 0:
+        raise InputError(f"uncertainty must be > 0, got {e!r}", path, where)
+    return v, e
+
+
+def _check_keys(table: dict, allowed, path, where):
+    unknown = sorted(set(table) - set(allowed))
+    if unknown:
+        raise InputError(
+            f"unknown key(s) {', '.join(map(repr, unknown))}; allowed: {', '.join(allowed)}", path, where
+        )
+
+
+def parse_flux_unit(text: str):
+    """Parse a flux-density unit (f_nu or F_lambda) with astropy.
+
+    A lone ``A`` is read as angstrom (``erg s-1 cm-2 A-1``), since ampere
+    makes no sense in a flux density.
+
+    Returns
+    -------
+    astropy.units.UnitBase
+
+    Raises
+    ------
+    ValueError
+        When the text does not parse or is not a flux density.
+    """
+    import astropy.units as u
+
+    text = str(text).strip()
+    if not text:
+        raise ValueError("a flux row needs a unit (e.g. Jy, mJy, W m-2 um-1, erg s-1 cm-2 AA-1)")
+    candidates = [text]
+    tokens = text.replace("/", " / ").split()
+    if any(t.split("^")[0].rstrip("-0123456789") == "A" for t in tokens):
+        candidates.append(" ".join(
+            "AA" + t[1:] if t.split("^")[0].rstrip("-0123456789") == "A" else t for t in tokens
+        ))
+    for cand in candidates:
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                unit = u.Unit(cand, parse_strict="raise")
+        except (ValueError, TypeError):
+            continue
+        if unit.is_equivalent(u.Jy) or unit.is_equivalent(u.W / u.m**2 / u.um):
+            return unit
+    raise ValueError(
+        f"unit {text!r} is not a flux density: use f_nu (Jy, mJy, erg s-1 cm-2 Hz-1) or "
+        "F_lambda (W m-2 um-1, erg s-1 cm-2 AA-1)"
+    )
+
+
+# ----------------------------------------------------------------- bands
+def _read_user_bands(doc: dict, path: Path, counting: str) -> dict[str, Band]:
+    bands = doc.get("bands", {})
+    if not isinstance(bands, dict):
+        raise InputError("[bands] must be a table of named bands", path, "[bands]")
+    out = {}
+    for name, spec in bands.items():
+        where = f"[bands.{name}]"
+        if not isinstance(spec, dict):
+            raise InputError("each band must be a table with a 'shape' key", path, where)
+        shape = spec.get("shape")
+        try:
+            if shape == "top-hat":
+                _check_keys(spec, ("shape", "centre_um", "width_um", "counting", "note"), path, where)
+                band = top_hat_band(name, _number(spec.get("centre_um"), path, f"{where} centre_um", "centre_um [um]"),
+                                    _number(spec.get("width_um"), path, f"{where} width_um", "width_um [um]"))
+            elif shape == "gaussian":
+                _check_keys(spec, ("shape", "centre_um", "fwhm_um", "counting", "note"), path, where)
+                band = gaussian_band(name, _number(spec.get("centre_um"), path, f"{where} centre_um", "centre_um [um]"),
+                                     _number(spec.get("fwhm_um"), path, f"{where} fwhm_um", "fwhm_um [um]"))
+            elif shape == "curve":
+                _check_keys(spec, ("shape", "file", "wavelength_unit", "response", "vega_magnitude",
+                                   "counting", "note"), path, where)
+                file = spec.get("file")
+                if not isinstance(file, str):
+                    raise InputError("a curve band needs file = \"PATH\" (relative to this file)", path, where)
+                curve_path = (path.parent / file)
+                if not curve_path.is_file():
+                    raise InputError(f"filter curve file {str(curve_path)!r} not found", path, f"{where} file")
+                response = spec.get("response", "photon")
+                if response not in ("photon", "energy"):
+                    raise InputError(f"response must be 'photon' or 'energy', got {response!r}", path,
+                                     f"{where} response")
+                band = read_band_curve(curve_path, name=name,
+                                       wavelength_unit=str(spec.get("wavelength_unit", "um")),
+                                       response=response)
+                if "vega_magnitude" in spec:
+                    vmag = _number(spec["vega_magnitude"], path, f"{where} vega_magnitude")
+                    band = Band(band.name, band.wavelength, band.throughput, band.response, band.system,
+                                vmag, band.native_system, band.approximate, band.counting, band.source,
+                                band.note)
+            else:
+                raise InputError(
+                    f"shape must be 'top-hat', 'gaussian' or 'curve', got {shape!r}", path, f"{where} shape"
+                )
+        except BandError as exc:
+            if exc.path is not None:
+                raise
+            raise InputError(exc.reason, path, where) from None
+        band_counting = spec.get("counting", counting)
+        if band_counting not in COUNTING_MODES:
+            raise InputError(f"counting must be one of {COUNTING_MODES}, got {band_counting!r}", path,
+                             f"{where} counting")
+        note = spec.get("note", "")
+        if note:
+            band = Band(band.name, band.wavelength, band.throughput, band.response, band.system,
+                        band.vega_magnitude, band.native_system, band.approximate, band.counting,
+                        band.source, str(note))
+        out[name] = band.with_counting(band_counting)
+    return out
+
+
+def _lookup_band(name, custom, counting, path, where) -> Band:
+    try:
+        return get_band(name, custom, counting=custom[name].counting if name in custom else counting)
+    except BandError as exc:
+        raise InputError(exc.reason, path, where) from None
+
+
+# ----------------------------------------------------------------- host
+def read_host_spectrum(path, wavelength_unit: str = "um", flux: str = "f_lambda") -> HostSpectrum:
+    """Read a host spectrum: two columns, wavelength and flux density.
+
+    Lines starting with ``#`` are comments. ``flux`` says whether the second
+    column is ``"f_lambda"`` or ``"f_nu"`` (any unit: only colours are used).
+
+    Raises
+    ------
+    InputError
+        Naming the file and line of the first problem.
+    """
+    import astropy.units as u
+
+    path = Path(path)
+    try:
+        lines = path.read_text().splitlines()
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read spectrum: {exc}", path) from None
+    rows = []
+    for number, line in enumerate(lines, 1):
+        text = line.strip()
+        if not text or text.startswith("#"):
+            continue
+        parts = text.replace(",", " ").split()
+        try:
+            values = (float(parts[0]), float(parts[1]))
+        except (ValueError, IndexError):
+            raise InputError(f"expected two numbers (wavelength, flux), got {text!r}", path,
+                             f"line {number}") from None
+        if not all(math.isfinite(v) for v in values) or values[1] < 0:
+            raise InputError(f"wavelength and flux must be finite, flux >= 0; got {text!r}", path,
+                             f"line {number}")
+        rows.append(values)
+    if len(rows) < 2:
+        raise InputError("a spectrum needs at least two rows", path)
+    try:
+        scale = (1 * u.Unit(wavelength_unit)).to_value(u.um)
+    except (ValueError, TypeError, u.UnitConversionError):
+        raise InputError(f"wavelength unit {wavelength_unit!r} is not a length unit", path) from None
+    arr = np.asarray(rows)
+    wl = arr[:, 0] * scale
+    fl = arr[:, 1]
+    if np.any(wl <= 0) or np.any(np.diff(wl) <= 0):
+        raise InputError("wavelengths must be positive and strictly increasing (no duplicates)", path)
+    if flux == "f_nu":
+        fl = fl / wl**2
+    elif flux != "f_lambda":
+        raise InputError(f"flux must be 'f_lambda' or 'f_nu', got {flux!r}", path)
+    return HostSpectrum(wl, fl, source=str(path))
+
+
+def _read_host(doc, path, custom, counting) -> HostStar:
+    host = doc.get("host")
+    if not isinstance(host, dict):
+        raise InputError("missing [host] table (host star photometry and distance)", path, "[host]")
+    _check_keys(host, ("name", "distance_pc", "parallax_mas", "teff_k", "magnitudes", "spectrum"), path, "[host]")
+    name = host.get("name", "host")
+    if not isinstance(name, str):
+        raise InputError(f"expected a string, got {name!r}", path, "[host] name")
+    d = de = p = pe = math.nan
+    if "distance_pc" in host and "parallax_mas" in host:
+        raise InputError("give either distance_pc or parallax_mas, not both", path, "[host]")
+    if "distance_pc" in host:
+        d, de = _pair(host["distance_pc"], path, "[host] distance_pc", "distance [pc]")
+        if d <= 0:
+            raise InputError(f"distance must be > 0 pc, got {d!r}", path, "[host] distance_pc")
+    if "parallax_mas" in host:
+        p, pe = _pair(host["parallax_mas"], path, "[host] parallax_mas", "parallax [mas]")
+        if p <= 0:
+            raise InputError(
+                f"parallax must be > 0 mas to give a distance, got {p!r} "
+                "(a non-positive parallax carries no distance: give distance_pc or leave both out)",
+                path, "[host] parallax_mas",
+            )
+    teff = math.nan
+    if "teff_k" in host:
+        teff = _number(host["teff_k"], path, "[host] teff_k", "Teff [K]")
+        if teff <= 0:
+            raise InputError(f"Teff must be > 0 K, got {teff!r}", path, "[host] teff_k")
+    spectrum = None
+    if "spectrum" in host:
+        spec = host["spectrum"]
+        where = "[host.spectrum]"
+        if not isinstance(spec, dict) or not isinstance(spec.get("file"), str):
+            raise InputError('expected a table with file = "PATH" (and wavelength_unit, flux)', path, where)
+        _check_keys(spec, ("file", "wavelength_unit", "flux"), path, where)
+        spath = path.parent / spec["file"]
+        if not spath.is_file():
+            raise InputError(f"spectrum file {str(spath)!r} not found", path, f"{where} file")
+        spectrum = read_host_spectrum(spath, str(spec.get("wavelength_unit", "um")), str(spec.get("flux", "f_lambda")))
+    mags = host.get("magnitudes", {})
+    if not isinstance(mags, dict):
+        raise InputError("expected a table of band = [magnitude, error]", path, "[host.magnitudes]")
+    entries, seen = [], {}
+    for key, val in mags.items():
+        where = f"[host.magnitudes] {key!r}"
+        band = _lookup_band(key, custom, counting, path, where)
+        if band.name in seen:
+            raise InputError(f"duplicate band: {seen[band.name]!r} and {key!r} are the same band", path, where)
+        seen[band.name] = key
+        system = band.native_system
+        if isinstance(val, dict):
+            _check_keys(val, ("mag", "error", "system"), path, where)
+            system = val.get("system", system)
+            if system not in ("Vega", "AB"):
+                raise InputError(f"system must be 'Vega' or 'AB', got {system!r}", path, where)
+            val = [val.get("mag"), val.get("error")]
+        m, e = _pair(val, path, where, "magnitude")
+        entries.append(HostMagnitude(band, m, e, system))
+    return HostStar(name, tuple(entries), d, de, p, pe, teff, spectrum)
+
+
+def _read_settings(doc, path) -> CalibrationSettings:
+    s = doc.get("settings", {})
+    if not isinstance(s, dict):
+        raise InputError("[settings] must be a table", path, "[settings]")
+    _check_keys(s, ("synthesis_systematic_mag", "synthesis_reference_band", "counting", "zero_point_errors"),
+                path, "[settings]")
+    kw = {}
+    if "synthesis_systematic_mag" in s:
+        v = _number(s["synthesis_systematic_mag"], path, "[settings] synthesis_systematic_mag", "a magnitude")
+        if v < 0:
+            raise InputError(f"must be >= 0 mag, got {v!r}", path, "[settings] synthesis_systematic_mag")
+        kw["synthesis_systematic_mag"] = v
+    if "synthesis_reference_band" in s:
+        if not isinstance(s["synthesis_reference_band"], str):
+            raise InputError("expected a band name", path, "[settings] synthesis_reference_band")
+        kw["synthesis_reference_band"] = s["synthesis_reference_band"]
+    if "counting" in s:
+        if s["counting"] not in COUNTING_MODES:
+            raise InputError(f"counting must be one of {COUNTING_MODES}, got {s['counting']!r}", path,
+                             "[settings] counting")
+        kw["counting"] = s["counting"]
+    if "zero_point_errors" in s:
+        zp = s["zero_point_errors"]
+        if not isinstance(zp, dict):
+            raise InputError("expected a table of band-or-system = fractional error", path,
+                             "[settings.zero_point_errors]")
+        clean = {}
+        for k, v in zp.items():
+            v = _number(v, path, f"[settings.zero_point_errors] {k!r}", "a fractional error")
+            if v < 0:
+                raise InputError(f"must be >= 0, got {v!r}", path, f"[settings.zero_point_errors] {k!r}")
+            clean[k] = v
+        kw["zero_point_errors"] = clean
+    return CalibrationSettings(**kw)
+
+
+# ----------------------------------------------------------------- table
+def _table_rows(path: Path) -> tuple[list[str], list[dict[str, str]]]:
+    """Header and rows of a CSV or ECSV file (cells as stripped strings)."""
+    try:
+        text = path.read_text()
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read photometry table: {exc}", path) from None
+    if text.lstrip().startswith("# %ECSV"):
+        from astropy.table import Table
+
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                table = Table.read(path, format="ascii.ecsv")
+        except Exception as exc:  # astropy raises many types for a malformed ECSV
+            raise InputError(f"malformed ECSV table: {exc}", path) from None
+        names = [n.strip().lower() for n in table.colnames]
+        rows = []
+        for rec in table:
+            row = {}
+            for n, col in zip(names, table.colnames):
+                cell = rec[col]
+                masked = np.ma.is_masked(cell)
+                row[n] = "" if masked else str(cell).strip()
+            rows.append(row)
+        return names, rows
+    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
+    if not lines:
+        raise InputError("photometry table is empty (expected a header line: band,kind,value,error,...)", path)
+    try:
+        reader = csv.reader(lines)
+        header = [h.strip().lower() for h in next(reader)]
+        rows = []
+        for number, cells in enumerate(reader, 1):
+            if len(cells) > len(header):
+                raise InputError(f"{len(cells)} cells but the header has {len(header)} columns", path,
+                                 f"row {number}")
+            cells = cells + [""] * (len(header) - len(cells))
+            rows.append({h: c.strip() for h, c in zip(header, cells)})
+    except csv.Error as exc:
+        raise InputError(f"malformed CSV: {exc}", path) from None
+    return header, rows
+
+
+def _cell_float(text, path, where, column):
+    if text == "":
+        return math.nan
+    try:
+        return float(text)
+    except ValueError:
+        raise InputError(f"column {column!r}: expected a number, got {text!r}", path, where) from None
+
+
+def read_photometry_table(path, custom: dict | None = None, counting: str = "photon") -> tuple[Measurement, ...]:
+    """Read and validate a companion photometry table (CSV or ECSV).
+
+    Parameters
+    ----------
+    path : str or Path
+    custom : dict of str to Band, optional
+        User bands (searched before the standard ones).
+    counting : {"photon", "energy"}
+        Counting mode for standard bands.
+
+    Returns
+    -------
+    tuple of Measurement
+
+    Raises
+    ------
+    InputError
+        Naming the file and row: unknown band, unknown kind, missing/NaN/non-
+        positive value or uncertainty, flux without a parsable unit,
+        duplicate band, non-positive limit_sigma.
+    """
+    path = Path(path)
+    custom = custom or {}
+    if not path.is_file():
+        raise InputError("photometry table not found", path)
+    header, rows = _table_rows(path)
+    missing = [c for c in ("band", "kind", "value", "error") if c not in header]
+    if missing:
+        raise InputError(
+            f"missing column(s) {', '.join(missing)}; expected columns {', '.join(_TABLE_COLUMNS)}", path, "header"
+        )
+    extra = [c for c in header if c not in _TABLE_COLUMNS]
+    if extra:
+        raise InputError(f"unknown column(s) {', '.join(extra)}; allowed: {', '.join(_TABLE_COLUMNS)}", path, "header")
+    if not rows:
+        raise InputError("photometry table has no rows", path)
+    out, seen = [], {}
+    for number, row in enumerate(rows, 1):
+        where = f"row {number}" + (f" (band {row['band']!r})" if row.get("band") else "")
+        name = row["band"]
+        if not name:
+            raise InputError("empty band name", path, where)
+        band = _lookup_band(name, custom, counting, path, where)
+        if band.name in seen:
+            raise InputError(f"duplicate band: {band.name!r} is also in row {seen[band.name]}", path, where)
+        seen[band.name] = number
+        kind = row["kind"].lower()
+        if kind not in INPUT_KINDS:
+            raise InputError(f"kind must be one of {', '.join(INPUT_KINDS)}, got {row['kind']!r}", path, where)
+        value = _cell_float(row["value"], path, where, "value")
+        error = _cell_float(row["error"], path, where, "error")
+        sigma = _cell_float(row.get("limit_sigma", ""), path, where, "limit_sigma")
+        if math.isnan(value):
+            raise InputError("value is missing or NaN", path, where)
+        if not math.isfinite(value):
+            raise InputError(f"value must be finite, got {value!r}", path, where)
+        if row.get("limit_sigma", "") != "":
+            if not (math.isfinite(sigma) and sigma > 0):
+                raise InputError(f"limit_sigma must be a positive number (N of an N-sigma limit), got "
+                                 f"{row['limit_sigma']!r}", path, where)
+            if row["error"] != "" and not math.isnan(error):
+                raise InputError("an upper limit (limit_sigma set) takes no error: leave error empty",
+                                 path, where)
+            error = math.nan
+        else:
+            if row["error"] == "" or math.isnan(error):
+                raise InputError("uncertainty (error) is missing or NaN; every detection needs a 1-sigma "
+                                 "uncertainty (use limit_sigma for an upper limit)", path, where)
+            if not math.isfinite(error) or error <= 0:
+                raise InputError(f"uncertainty must be a positive finite number, got {error!r}", path, where)
+        unit = row.get("unit", "")
+        if kind == "flux":
+            try:
+                parse_flux_unit(unit)
+            except ValueError as exc:
+                raise InputError(str(exc), path, where) from None
+            if value <= 0:
+                raise InputError(f"flux must be > 0 (give an upper limit for a non-detection), got {value!r}",
+                                 path, where)
+        elif unit:
+            raise InputError(f"unit {unit!r} given for kind {kind!r}; only flux rows take a unit", path, where)
+        if kind == "contrast_ratio" and value <= 0:
+            raise InputError(f"a flux ratio must be > 0 (give an upper limit for a non-detection), got {value!r}",
+                             path, where)
+        out.append(Measurement(band, kind, value, error, unit, sigma, number, row.get("note", "")))
+    return tuple(out)
+
+
+# ----------------------------------------------------------------- target
+def _load_toml(path: Path) -> dict:
+    if not path.is_file():
+        raise InputError("target file not found", path)
+    try:
+        return tomllib.loads(path.read_text())
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"malformed TOML: {exc}", path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read target file: {exc}", path) from None
+
+
+def read_user_bands(path) -> dict[str, Band]:
+    """The user bands (``[bands.NAME]`` tables) of a target file, by name.
+
+    Only the ``[bands]`` and ``[settings]`` tables are read; the rest of the
+    file is not validated.
+    """
+    path = Path(path)
+    doc = _load_toml(path)
+    settings = _read_settings(doc, path)
+    return _read_user_bands(doc, path, settings.counting)
+
+
+def read_target(path) -> Target:
+    """Read a target description (TOML) and its photometry table.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file; paths inside it are relative to its folder.
+
+    Returns
+    -------
+    Target
+
+    Raises
+    ------
+    InputError
+        For a missing or malformed file, naming the file and field or row.
+
+    Notes
+    -----
+    The format is documented with a complete example in ``docs/photometry.md``.
+    """
+    path = Path(path)
+    doc = _load_toml(path)
+    _check_keys(doc, ("companion", "host", "bands", "settings"), path, "top level")
+    settings = _read_settings(doc, path)
+    comp = doc.get("companion")
+    if not isinstance(comp, dict):
+        raise InputError('missing [companion] table with name = "..." and photometry = "FILE"', path, "[companion]")
+    _check_keys(comp, ("name", "photometry"), path, "[companion]")
+    name = comp.get("name")
+    if not isinstance(name, str) or not name.strip():
+        raise InputError("expected a non-empty name", path, "[companion] name")
+    table = comp.get("photometry")
+    if not isinstance(table, str):
+        raise InputError('expected photometry = "FILE" (a CSV or ECSV table, relative to this file)', path,
+                         "[companion] photometry")
+    custom = _read_user_bands(doc, path, settings.counting)
+    host = _read_host(doc, path, custom, settings.counting)
+    if settings.synthesis_reference_band is not None:
+        ref = _lookup_band(settings.synthesis_reference_band, custom, settings.counting, path,
+                           "[settings] synthesis_reference_band")
+        if host.magnitude_in(ref) is None:
+            raise InputError(f"the host has no magnitude in {ref.name!r} under [host.magnitudes]", path,
+                             "[settings] synthesis_reference_band")
+    table_path = path.parent / table
+    if not table_path.is_file():
+        raise InputError(f"photometry table {str(table_path)!r} not found", path, "[companion] photometry")
+    measurements = read_photometry_table(table_path, custom, settings.counting)
+    return Target(name.strip(), host, measurements, custom, settings, str(path), str(table_path))

@@ -1,0 +1,154 @@
+"""Figures of a grid summary: chi-square profiles per material and axis, best models vs data.
+
+Functions take a :class:`motes.dust.gridsummary.GridSummary` and a file path,
+draw with matplotlib's Agg backend, write the figure (temporary name, then
+rename) and return the path. :func:`write_grid_figures` writes all of them.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+
+__all__ = ["plot_fraction_profiles", "plot_axis_profiles", "plot_best_models", "write_grid_figures"]
+
+_AXIS_LABELS = {"porosity": "porosity (vacuum fraction)", "a_min": "a_min [µm]", "q": "size slope q",
+                "a_max": "a_max [µm]"}
+_PROFILE_COLOUR = "#1b6a8f"
+_SHARE_COLOUR = "#d08c2f"
+
+
+def _save(fig, path) -> Path:
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name("." + path.stem + ".tmp" + path.suffix)
+    fig.savefig(tmp, dpi=120)
+    plt.close(fig)
+    os.replace(tmp, path)
+    return path
+
+
+def _profile_panels(columns, title, summary):
+    """Figure with two rows per column: Delta chi2 profile (top), likelihood share (bottom)."""
+    n = len(columns)
+    fig, axes = plt.subplots(2, n, figsize=(3.0 * n + 1.0, 5.2), squeeze=False, sharey="row",
+                             gridspec_kw={"height_ratios": [3, 2]})
+    for i, (label, x, delta, share, log_x) in enumerate(columns):
+        top, bottom = axes[0, i], axes[1, i]
+        top.plot(x, delta, "o-", color=_PROFILE_COLOUR, ms=4, lw=1.4)
+        for level, style in ((1.0, ":"), (4.0, "--")):
+            top.axhline(level, color="0.45", ls=style, lw=0.8)
+        top.set_title(label, fontsize=10)
+        width = np.diff(x).min() * 0.8 if len(x) > 1 else 0.1
+        if log_x:
+            top.set_xscale("log")
+            bottom.set_xscale("log")
+            bottom.plot(x, share, "s-", color=_SHARE_COLOUR, ms=4)
+        else:
+            bottom.bar(x, share, width=width, color=_SHARE_COLOUR, alpha=0.85)
+        bottom.set_xlabel(label if log_x else label, fontsize=9)
+        top.tick_params(labelsize=8)
+        bottom.tick_params(labelsize=8)
+    axes[0, 0].set_ylabel("best Δχ² (profile)")
+    axes[1, 0].set_ylabel("share of exp(−Δχ²/2)")
+    axes[0, 0].set_ylim(bottom=-0.5)
+    fig.suptitle(f"{title} — χ²_min = {summary.chi2_min:.2f} for {summary.dof} dof "
+                 f"(dotted Δχ² = 1, dashed Δχ² = 4)", fontsize=10)
+    fig.tight_layout()
+    return fig
+
+
+def plot_fraction_profiles(summary, path) -> Path:
+    """Best Delta chi2 and likelihood share against each material's fraction.
+
+    Parameters
+    ----------
+    summary : GridSummary
+    path : str or os.PathLike
+        Output image (PNG or PDF by suffix).
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    prof = summary.fraction_profiles
+    cols = []
+    for name in summary.materials:
+        rows = prof[prof["material"] == name]
+        cols.append((f"{name} fraction", np.asarray(rows["fraction"]), np.asarray(rows["delta_chi2"]),
+                     np.asarray(rows["share"]), False))
+    return _save(_profile_panels(cols, "Materials", summary), path)
+
+
+def plot_axis_profiles(summary, path) -> Path | None:
+    """Best Delta chi2 and likelihood share against porosity, a_min, q and a_max.
+
+    Axes with a single value are left out; returns None when none has more.
+    """
+    prof = summary.axis_profiles
+    cols = []
+    for name in ("porosity", "a_min", "q", "a_max"):
+        rows = prof[prof["axis"] == name]
+        if len(rows) < 2:
+            continue
+        cols.append((_AXIS_LABELS[name], np.asarray(rows["value"]), np.asarray(rows["delta_chi2"]),
+                     np.asarray(rows["share"]), name in ("a_min", "a_max")))
+    if not cols:
+        return None
+    return _save(_profile_panels(cols, "Porosity and sizes", summary), path)
+
+
+def plot_best_models(summary, path, n_models: int = 5) -> Path:
+    """The data against the scaled colours of the best grid points.
+
+    Parameters
+    ----------
+    summary : GridSummary
+    path : str or os.PathLike
+    n_models : int
+        How many of the best points to draw.
+    """
+    obs = summary.observations
+    wave = np.asarray(obs["pivot_wavelength_um"])
+    value, error = np.asarray(obs["value"]), np.asarray(obs["error"])
+    limit = np.asarray(obs["is_limit"], dtype=bool)
+    order = np.argsort(wave)
+    fig, ax = plt.subplots(figsize=(6.4, 4.2))
+    det = ~limit
+    ax.errorbar(wave[det], value[det], yerr=error[det], fmt="o", color="k", ms=5, capsize=2,
+                label="disk data", zorder=5)
+    if np.any(limit):
+        ax.errorbar(wave[limit], value[limit], yerr=0.3 * value[limit], uplims=True, fmt="v", color="k",
+                    ms=5, zorder=5, label="upper limits")
+    best = summary.best
+    cmap = plt.get_cmap("viridis")
+    for i in range(min(n_models, len(best))):
+        row = best[i]
+        model = np.array([row[f"model_{b}"] for b in summary.bands]) * row["scale"]
+        mix = ", ".join(f"{m} {row['f_' + m]:.2f}" for m in summary.materials if row["f_" + m] > 0)
+        label = (f"#{i + 1} Δχ²={row['delta_chi2']:.2f}: {mix}; p={row['porosity']:.2f}, "
+                 f"a_min={row['a_min']:.3g} µm")
+        ax.plot(wave[order], model[order], "-", marker=".", lw=1.2, color=cmap(i / max(n_models, 2)),
+                label=label, zorder=4 - i * 0.1)
+    ax.set_xlabel("pivot wavelength [µm]")
+    ax.set_ylabel("disk / star" + (" [arcsec⁻²]" if obs.get("normalisation") == "surface brightness" else ""))
+    ax.set_yscale("log")
+    ax.legend(fontsize=6.5, loc="best", frameon=False)
+    ax.set_title("Best grid mixtures (Mie spheres) against the data", fontsize=10)
+    fig.tight_layout()
+    return _save(fig, path)
+
+
+def write_grid_figures(summary, folder) -> list[Path]:
+    """Write every grid figure into ``folder``; return the paths written."""
+    folder = Path(folder)
+    paths = [plot_fraction_profiles(summary, folder / "grid_fraction_profiles.png"),
+             plot_axis_profiles(summary, folder / "grid_axis_profiles.png"),
+             plot_best_models(summary, folder / "grid_best_models.png")]
+    return [p for p in paths if p is not None]

@@ -1,0 +1,86 @@
+"""Figure of a material's optical constants: n and k against wavelength.
+
+:func:`plot_optical_constants` draws n (linear axis) and k (log axis, zeros
+marked along the bottom) for one or more :class:`~motes.optics.constants.Material`
+objects on a logarithmic wavelength axis, with the tabulated points shown,
+writes the figure to a temporary name and renames it, and returns the path.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+
+__all__ = ["plot_optical_constants"]
+
+_COLOURS = ("#1b6a8f", "#c0392b", "#2e8b57", "#8e44ad", "#d08c2f", "#34495e", "#b03a74")
+
+
+def plot_optical_constants(materials, path, *, wavelength_range=None, title=None) -> Path:
+    """Plot n and k of one or several materials.
+
+    Parameters
+    ----------
+    materials : Material or sequence of Material
+    path : str or os.PathLike
+        Output image (format from the suffix, e.g. ``.png``, ``.pdf``).
+    wavelength_range : (float, float), optional [um]
+        Limits of the wavelength axis (default: the union of the data).
+    title : str, optional
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+    """
+    if not isinstance(materials, (list, tuple)):
+        materials = [materials]
+    fig, (ax_n, ax_k) = plt.subplots(2, 1, sharex=True, figsize=(7.0, 6.0),
+                                     gridspec_kw={"hspace": 0.08})
+    k_floor = np.inf
+    for mat in materials:
+        positive = mat.k[mat.k > 0]
+        if positive.size:
+            k_floor = min(k_floor, positive.min())
+    k_floor = 1e-12 if not np.isfinite(k_floor) else k_floor / 3.0
+    for i, mat in enumerate(materials):
+        colour = _COLOURS[i % len(_COLOURS)]
+        ax_n.plot(mat.wavelength, mat.n, "-", color=colour, lw=1.3, label=mat.name)
+        ax_n.plot(mat.wavelength, mat.n, ".", color=colour, ms=2.5)
+        k = np.where(mat.k > 0, mat.k, np.nan)
+        ax_k.plot(mat.wavelength, k, "-", color=colour, lw=1.3)
+        ax_k.plot(mat.wavelength, k, ".", color=colour, ms=2.5)
+        zeros = mat.k == 0
+        if zeros.any():
+            ax_k.plot(mat.wavelength[zeros], np.full(zeros.sum(), k_floor), "|", color=colour,
+                      ms=8, label=f"{mat.name}: k = 0")
+    ax_n.set_xscale("log")
+    ax_k.set_yscale("log")
+    ax_n.set_ylabel("n (real part)")
+    ax_k.set_ylabel("k (imaginary part)")
+    ax_k.set_xlabel("wavelength [µm]")
+    if wavelength_range is not None:
+        ax_k.set_xlim(*wavelength_range)
+    for ax in (ax_n, ax_k):
+        ax.grid(True, which="major", alpha=0.3)
+    ax_n.legend(fontsize=8, frameon=False)
+    if ax_k.get_legend_handles_labels()[0]:
+        ax_k.legend(fontsize=8, frameon=False)
+    ax_n.set_title(title or "optical constants m = n + ik (dots: tabulated points)", fontsize=10)
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name("." + path.stem + ".tmp" + path.suffix)
+    try:
+        fig.savefig(tmp, dpi=130, bbox_inches="tight")
+        os.replace(tmp, path)
+    finally:
+        plt.close(fig)
+        if tmp.exists():
+            tmp.unlink()
+    return path

@@ -1,0 +1,140 @@
+"""Crash safety: a grid run killed with SIGKILL several times, then finished, equals an uninterrupted run.
+
+The runs are real subprocesses. Each is killed (SIGKILL to its whole process
+group: the driver and its worker processes) at a different moment, chosen by
+watching the store fill; the store must then hold only whole chunks, and the
+final store must have the same keys and bit-identical values as a run that
+was never interrupted, with no duplicated key.
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pyarrow.parquet as pq
+import pytest
+
+from motes.dust.grid import read_grid_description
+from motes.dust.gridrun import GridRunSettings, run_grid
+from motes.dust.gridstore import GridStore
+
+from test_dust_grid import grid_text, read_sorted, standin_factory, write_photometry
+
+TESTS = Path(__file__).resolve().parent
+
+# a driver script that runs the grid with the analytic stand-in, slowed so that it can be killed part-way
+_DRIVER = """
+import sys, time
+sys.path.insert(0, {tests!r})
+import test_dust_grid as t
+from motes.dust.grid import read_grid_description
+from motes.dust.gridrun import GridRunSettings, run_grid
+
+def slow_factory(spec, observations):
+    model = t.standin_factory(spec, observations)
+    inner = model.flux_ratio
+    def flux_ratio(*args, **kw):
+        time.sleep(0.04)
+        return inner(*args, **kw)
+    model.flux_ratio = flux_ratio
+    return model
+
+if __name__ == "__main__":
+    run_grid(read_grid_description({grid!r}), {store!r},
+             GridRunSettings(workers={workers}, progress=False), model_factory=slow_factory)
+"""
+
+
+def parts_in(store: Path) -> int:
+    parts = store / "parts"
+    return len(list(parts.glob("chunk-*.parquet"))) if parts.is_dir() else 0
+
+
+def group_alive(pgid: int) -> bool:
+    try:
+        os.killpg(pgid, 0)
+    except ProcessLookupError:
+        return False
+    return True
+
+
+def run_and_kill(cmd, store: Path, kill_after_parts: int, extra_delay: float, driver_only: bool = False,
+                 timeout: float = 120.0) -> bool:
+    """Start ``cmd``; SIGKILL it once ``kill_after_parts`` parts exist (plus a delay).
+
+    With ``driver_only`` only the driver is killed, and its worker processes
+    must then exit by themselves within a few seconds; otherwise the whole
+    process group is killed at once. Returns True when the process was killed,
+    False when it finished first.
+    """
+    proc = subprocess.Popen(cmd, start_new_session=True, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    deadline = time.monotonic() + timeout
+    try:
+        while proc.poll() is None:
+            if parts_in(store) >= kill_after_parts:
+                time.sleep(extra_delay)
+                if proc.poll() is not None:
+                    break
+                if driver_only:
+                    proc.kill()
+                    proc.wait()
+                    limit = time.monotonic() + 10.0
+                    while group_alive(proc.pid) and time.monotonic() < limit:
+                        time.sleep(0.05)
+                    assert not group_alive(proc.pid), "worker processes outlived their killed driver"
+                else:
+                    os.killpg(proc.pid, signal.SIGKILL)
+                    proc.wait()
+                return True
+            if time.monotonic() > deadline:
+                raise AssertionError("grid subprocess did not progress in time")
+            time.sleep(0.005)
+    finally:
+        if group_alive(proc.pid):
+            os.killpg(proc.pid, signal.SIGKILL)
+        proc.wait()
+    err = proc.stderr.read().decode()
+    assert proc.returncode == 0, err
+    return False
+
+
+def check_whole_chunks(store: Path) -> None:
+    """Every part present is a whole, readable chunk; no stray files but temporary ones."""
+    s = GridStore.open(store)
+    for chunk in s.completed_chunks():
+        path = store / "parts" / f"chunk-{chunk:07d}.parquet"
+        keys = pq.read_table(path, columns=["key"]).column("key").to_numpy()
+        np.testing.assert_array_equal(keys, np.arange(chunk * s.chunk_size, chunk * s.chunk_size + s.chunk_length(chunk)))
+
+
+def test_sigkilled_runs_resume_to_the_uninterrupted_store(tmp_path, rng):
+    write_photometry(tmp_path, rng=rng)
+    grid = tmp_path / "grid.toml"
+    grid.write_text(grid_text(extra="chunk_size = 24\n"))       # 594 points in 25 chunks
+    spec = read_grid_description(grid)
+    run_grid(spec, tmp_path / "reference", GridRunSettings(workers=1, progress=False), model_factory=standin_factory)
+
+    store = tmp_path / "killed"
+    script = tmp_path / "driver.py"
+    script.write_text(_DRIVER.format(tests=str(TESTS), grid=str(grid), store=str(store), workers=2))
+    kills = 0
+    # kill at different moments: right after a part appears, and part-way between writes
+    for target, delay, driver_only in ((1, 0.0, True), (7, 0.013, False), (13, 0.031, True), (19, 0.0, False)):
+        if parts_in(store) < spec.n_chunks:
+            kills += run_and_kill([sys.executable, str(script)], store, target, delay, driver_only)
+            check_whole_chunks(store)
+    assert kills >= 3, "the runs finished before they could be killed; slow the stand-in down"
+    if parts_in(store) < spec.n_chunks:
+        assert not run_and_kill([sys.executable, str(script)], store, spec.n_chunks + 1, 0.0)
+
+    final, reference = read_sorted(store), read_sorted(tmp_path / "reference")
+    assert final["key"].is_unique
+    np.testing.assert_array_equal(final["key"], np.arange(spec.n_points))
+    assert final.equals(reference)
+    assert not list((store / "parts").glob(".*"))
