@@ -62,12 +62,18 @@ def write_photometry(folder, n_materials=3, rng=None, truth=TRUTH):
     return path
 
 
+SOURCES = {"silica": "silica_amorphous", "carbon": "carbon_amorphous", "ice": "water_ice_crystalline"}
+
+
 def grid_text(materials=("silica", "carbon", "ice"), step="0.1", porosity="[0.0, 0.3, 0.6]",
               a_min="[1.0, 2.0, 4.0]", extra=""):
-    mats = "\n".join(f'[[materials]]\nname = "{m}"\n' for m in materials)
+    mats = "\n".join(f'[[materials]]\nname = "{m}"\nsource = "{SOURCES.get(m, m)}"\n' for m in materials)
     return textwrap.dedent(f"""\
         [data]
         photometry = "disk.csv"
+
+        [star]
+        teff = 5600.0
 
         {mats}
         [grid]
@@ -75,6 +81,33 @@ def grid_text(materials=("silica", "carbon", "ice"), step="0.1", porosity="[0.0,
         porosity = {porosity}
         a_min = {a_min}
         """) + extra
+
+
+REAL_MODEL = """
+[model]
+method = "exact"          # tiny settings: one wavelength node per band, grains up to 10 um
+wavelength_nodes = 1
+a_max = 10.0
+"""
+
+
+def write_real_grid(folder, rng, step="0.25", chunk_size=4):
+    """A small grid on the real Mie model (exact path, tiny settings) with data drawn from it."""
+    from motes.dust.description import model_from_description
+
+    text = grid_text(step=step, porosity="[0.0, 0.5]", a_min="[0.5, 2.0]", extra=f"chunk_size = {chunk_size}\n")
+    text = text.replace("[grid]", REAL_MODEL + "\n[grid]")
+    import tomllib
+
+    model = model_from_description(tomllib.loads(text), bands=BANDS, base_dir=folder)
+    truth = model.flux_ratio(np.array([[0.4, 0.2, 0.4]]), 0.3, 1.2, 3.5)[0]
+    error = 0.03 * truth
+    value = truth + rng.normal(0.0, 1.0, truth.size) * error
+    lines = ["band,value,error"] + [f"{b},{float(v)!r},{float(e)!r}" for b, v, e in zip(BANDS, value, error)]
+    (folder / "disk.csv").write_text("\n".join(lines) + "\n")
+    path = folder / "grid.toml"
+    path.write_text(text)
+    return path
 
 
 @pytest.fixture

@@ -26,7 +26,8 @@ HC_EV_UM = 1.239841984  # h c in eV um (CODATA 2018 exact constants)
 
 
 def _write(path, rows, header=""):
-    path.write_text(header + "".join(f"{float(a)!r} {float(b)!r} {float(c)!r}\n" for a, b, c in rows), encoding="utf-8")
+    body = "".join(f"{float(a)!r} {float(b)!r} {float(c)!r}\n" for a, b, c in rows)
+    path.write_text(header + body, encoding="utf-8")
     return path
 
 
@@ -217,6 +218,17 @@ def test_loglog_extrapolation_continues_power_laws():
     assert s.extrapolated.all() and "'loglog' rule" in s.notes[0]
 
 
+@pytest.mark.parametrize("rule", [None, "constant", "loglog"])
+def test_scalar_wavelengths(rule):
+    mat = Material("t", WL, N, K, extrapolation=rule)
+    m = mat.refractive_index(2.0)
+    assert np.ndim(m) == 0 and m == pytest.approx(N[3] + 1j * K[3])
+    if rule is not None:
+        s = mat.sample(9.0)
+        assert s.extrapolated and s.notes == (
+            f"optical constants of 't' extrapolated with the '{rule}' rule at 9 um (data cover 0.5-5 um)",)
+
+
 def test_unknown_extrapolation_rule(tmp_path):
     with pytest.raises(OpticalConstantsError, match="extrapolation must be"):
         Material("t", WL, N, K, extrapolation="linear")
@@ -295,3 +307,47 @@ def test_load_material_passes_options(tmp_path):
     mat = load_material("iron", extrapolation="constant", density=7.0)
     assert mat.extrapolation == "constant" and mat.density == 7.0
     assert mat.density_source == "given by the caller"
+
+
+# ------------------------------------------------------------------ command line
+def test_cli_lists_bundled_and_user_materials(tmp_path, monkeypatch, capsys):
+    from motes.cli import main
+
+    _write(tmp_path / "my_tholin.dat", zip(WL, N, K), "# material: invented tholin\n# citation: Nobody 2000\n")
+    (tmp_path / "broken.dat").write_text("0.5 1.5 -1\n0.6 1.5 0.1\n", encoding="utf-8")
+    monkeypatch.setenv(MATERIALS_PATH_VARIABLE, str(tmp_path))
+    assert main(["materials"]) == 0
+    out = capsys.readouterr().out
+    assert "water_ice_crystalline" in out and "Warren and Brandt 2008" in out
+    assert "my_tholin" in out and "invented tholin - Nobody 2000" in out
+    assert "broken" in out and "INVALID" in out and "k must be >= 0" in out
+    assert "volume fractions of the solid" in out
+
+
+def test_cli_check_good_and_bad_files(tmp_path, capsys):
+    from motes.cli import main
+
+    good = _write(tmp_path / "good.dat", zip(1e4 / WL, N, K), "# wavelength_unit: cm-1\n")
+    png = tmp_path / "nk.png"
+    assert main(["materials", "check", str(good), "--plot", str(png)]) == 0
+    out = capsys.readouterr().out
+    assert "OK" in out and "0.5 - 5 um" in out and png.stat().st_size > 0
+    bad = tmp_path / "bad.dat"
+    bad.write_text("0.5 1.5 0.1\n0.6 nan 0.1\n0.7 1.5 -0.1\n", encoding="utf-8")
+    assert main(["materials", "check", str(bad)]) == 2
+    captured = capsys.readouterr()
+    assert "line 2: non-finite" in captured.out and "line 3: k must be >= 0" in captured.out
+    assert "cannot be used" in captured.err
+    plain = _write(tmp_path / "plain.dat", zip(WL * 1e3, N, K))
+    assert main(["materials", "check", str(plain), "--wavelength-unit", "nm"]) == 0
+    assert "0.5 - 5 um" in capsys.readouterr().out
+
+
+def test_cli_show_prints_provenance(capsys, tmp_path):
+    from motes.cli import main
+
+    assert main(["materials", "show", "methane_ice", "--plot", str(tmp_path / "ch4.png")]) == 0
+    out = capsys.readouterr().out
+    assert "Martonchik" in out and "license: CC0" in out and (tmp_path / "ch4.png").is_file()
+    assert main(["materials", "show", "no_such_material"]) == 2
+    assert "unknown material" in capsys.readouterr().err

@@ -82,7 +82,12 @@ def _run_list(args) -> int:
     import os
 
     from ..errors import OpticalConstantsError
-    from ..optics.constants import MATERIALS_PATH_VARIABLE, bundled_materials_folder, list_materials, read_optical_constants
+    from ..optics.constants import (
+        MATERIALS_PATH_VARIABLE,
+        bundled_materials_folder,
+        list_materials,
+        read_optical_constants,
+    )
 
     entries = list_materials()
     print(f"bundled materials: {bundled_materials_folder()}")
@@ -97,7 +102,10 @@ def _run_list(args) -> int:
         try:
             m = read_optical_constants(e.path)
         except OpticalConstantsError as exc:
-            print(f"{e.name:24s} {origin:8s} INVALID: {exc.reason} ({exc.where or e.path})")
+            reason = exc.reason.split(" (and ")[0]
+            reason = reason if len(reason) <= 60 else reason[:57] + "..."
+            where = f"{exc.where}: " if exc.where else ""
+            print(f"{e.name:24s} {origin:8s} INVALID ({where}{reason}); see `motes materials check {e.path}`")
             continue
         lo, hi = m.wavelength_range
         dens = f"{m.density:.3g}" if m.density == m.density else "?"

@@ -24,6 +24,7 @@ import astropy.units as u
 from ..errors import InputError
 from ..photometry.bands import Band
 from ..photometry.spectra import blackbody_flux_lambda
+from .magnitude_cache import band_key
 from .templates import TemplateGrid
 
 __all__ = ["BlackbodySet", "DEFAULT_BLACKBODY_TEFFS", "R_JUP_PC", "blackbody_magnitudes"]
@@ -80,6 +81,9 @@ class BlackbodySet:
     """
 
     kind = "blackbody"
+    # (band hash, temperatures, radius) -> magnitudes; blackbodies are cheap
+    # but not free to synthesise, and the same bands recur between calls.
+    _memo: dict = {}
 
     def __init__(self, teffs=None, radius_rjup: float | None = None):
         teffs = DEFAULT_BLACKBODY_TEFFS if teffs is None else np.asarray(teffs, dtype=float)
@@ -98,8 +102,15 @@ class BlackbodySet:
         ``mapping`` is ignored: a blackbody is integrated over the real band.
         """
         radius = 1.0 if self.radius_rjup is None else self.radius_rjup
-        mags = np.column_stack([blackbody_magnitudes(self.teffs, b, radius) for b in bands]) \
-            if bands else np.zeros((self.teffs.size, 0))
+        columns = []
+        for band in bands:
+            key = (band_key(band), self.teffs.tobytes(), radius)
+            if key not in self._memo:
+                if len(self._memo) > 256:
+                    self._memo.clear()
+                self._memo[key] = blackbody_magnitudes(self.teffs, band, radius)
+            columns.append(self._memo[key])
+        mags = np.column_stack(columns) if bands else np.zeros((self.teffs.size, 0))
         mags[~np.isfinite(mags)] = np.nan
         n = self.teffs.size
         note = ("blackbody templates: a colour temperature, not a spectral type; cool dwarfs are far "

@@ -32,6 +32,9 @@ __all__ = [
     "build_colour_model",
     "read_fit_photometry",
     "ZERO_LIKELIHOOD",
+    "HandleLikelihood",
+    "HandlePriorTransform",
+    "reset_traces",
 ]
 
 #: ln L returned where the forward model cannot be evaluated (dynesty needs a finite number).
@@ -175,6 +178,13 @@ class FitProblem:
 # --------------------------------------------------------------- handles
 _PROBLEMS: dict[str, FitProblem] = {}
 _TRACED: set = set()
+
+
+def reset_traces(trace_dir) -> None:
+    """Forget, in this process, which handles already left a trace in ``trace_dir``."""
+    trace_dir = str(trace_dir)
+    for item in [t for t in _TRACED if t[1] == trace_dir]:
+        _TRACED.discard(item)
 
 
 class ProblemHandle:

@@ -378,10 +378,10 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         raise InputError(f"treatment must be \"marginalise\" or \"sample\", got {treatment!r}", path, "[scale]")
     try:
         scale = ScalePrior(float(scale_t.get("lower", ScalePrior.lower)), float(scale_t.get("upper", ScalePrior.upper)))
-    except (TypeError, ValueError):
-        raise InputError("lower and upper must be numbers", path, "[scale]") from None
     except FitError as exc:
         raise InputError(str(exc), path, "[scale]") from None
+    except (TypeError, ValueError):
+        raise InputError("lower and upper must be numbers", path, "[scale]") from None
 
     models_t = _table(doc, "models", path)
     _check_keys(models_t, {"set", "keep", "list"}, path, "models")

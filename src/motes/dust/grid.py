@@ -26,7 +26,7 @@ against are named in ``[data]``; the grid axes are in ``[grid]``::
     porosity = [0.0, 0.3, 0.6]              # vacuum fraction of the grain volume
     a_min = { start = 0.5, stop = 8.0, num = 5, spacing = "log" }   # [um]
     q = [3.5]                               # optional, default [3.5]
-    a_max = [1000.0]                        # [um], optional, default [1000.0]
+    a_max = [1000.0]                        # [um], optional, default [model] a_max (1000)
     chunk_size = 200                        # optional: points per store part
 
     [grid.fraction_bounds]                  # optional, per material, as fractions
@@ -72,7 +72,7 @@ DEFAULT_MAX_POINTS = 1_000_000
 #: The non-composition axes, slowest first.
 AXES = ("porosity", "a_min", "q", "a_max")
 
-_AXIS_DEFAULTS = {"q": (3.5,), "a_max": (1000.0,)}   # q = 3.5: Dohnanyi (1969) cascade
+_AXIS_DEFAULTS = {"q": (3.5,)}   # q = 3.5: Dohnanyi (1969) cascade; a_max defaults to [model] a_max
 _GRID_KEYS = {"fraction_step", "fraction_bounds", "chunk_size", *AXES}
 _MAX_CHUNK = 1000
 _MIN_CHUNK = 16
@@ -287,7 +287,19 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
         simplex = SimplexGrid.from_step(len(materials), divisions, bounds)
     except GridError as exc:
         raise InputError(str(exc), path=source, where="[grid] fraction_step") from None
-    axes = {name: _axis(grid, name, source) for name in AXES}
+    model = doc.get("model", {})
+    if isinstance(model, dict) and "a_max" in model and "a_max" in grid:
+        raise InputError("a_max is given both in [model] and in [grid]; keep one (a list in [grid] makes it an axis)",
+                         path=source, where="[grid] a_max")
+    axes = {name: _axis(grid, name, source) for name in AXES if name != "a_max"}
+    if "a_max" in grid:
+        axes["a_max"] = _axis(grid, "a_max", source)
+    else:   # the description's single value, checked by motes.dust.description
+        a_max = model.get("a_max", 1000.0) if isinstance(model, dict) else 1000.0
+        axes["a_max"] = (float(a_max),) if isinstance(a_max, (int, float)) and not isinstance(a_max, bool) else (1000.0,)
+    if max(axes["a_min"]) >= min(axes["a_max"]):
+        raise InputError(f"every a_min {list(axes['a_min'])} must be below every a_max {list(axes['a_max'])} [um]",
+                         path=source, where="[grid] a_min")
     spec_args = dict(description=doc, base_dir=base_dir, materials=materials, simplex=simplex, **axes)
     n_points = simplex.size * math.prod(len(v) for v in axes.values())
     if n_points == 0:
@@ -392,11 +404,6 @@ def _axis(grid, name, source) -> tuple[float, ...]:
         raise InputError(f"porosity is the vacuum volume fraction, in [0, 1); got {values}", path=source, where=where)
     if name in ("a_min", "a_max") and v.min() <= 0:
         raise InputError(f"grain sizes [um] must be positive, got {values}", path=source, where=where)
-    if name == "a_max" and "a_min" in grid:
-        amin = _axis(grid, "a_min", source)
-        if v.min() <= max(amin):
-            raise InputError(f"every a_max must exceed every a_min (largest a_min {max(amin)} um), got {values}",
-                             path=source, where=where)
     return tuple(values)
 
 

@@ -46,6 +46,7 @@ __all__ = [
     "check_grid_size",
     "default_store_path",
     "describe_dry_run",
+    "read_grid_observations",
 ]
 
 
@@ -159,12 +160,24 @@ def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
     -------
     motes.dust.model.DiskColourModel
         Built from the description's ``[star]``, ``[[materials]]``, ``[mixing]``,
-        ``[geometry]`` sections, with the bands of the disk photometry, in its order.
+        ``[geometry]``, ``[model]`` sections (:mod:`motes.dust.description`), for
+        the bands of the disk photometry in their order, with its lookup tables
+        loaded (fast path).
     """
-    from .description import model_from_description
+    from .description import parse_model_description
 
-    return model_from_description(spec.description, bands=observations.bands, base_dir=spec.base_dir,
-                                  source=spec.source)
+    description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
+    model = description.build_model(bands=observations.bands)
+    model.prepare()
+    return model
+
+
+def read_grid_observations(spec: GridSpec) -> DiskPhotometry:
+    """The disk photometry a grid compares to (``[data] photometry``), with the description's user bands."""
+    from .description import parse_model_description
+
+    description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
+    return read_disk_photometry(spec.photometry, custom_bands=description.custom_bands)
 
 
 class GridEvaluator:
@@ -185,7 +198,7 @@ class GridEvaluator:
 
     def __init__(self, spec: GridSpec, model_factory=None, observations: DiskPhotometry | None = None):
         self.spec = spec
-        self.observations = observations if observations is not None else read_disk_photometry(spec.photometry)
+        self.observations = observations if observations is not None else read_grid_observations(spec)
         self.model = (model_factory or build_disk_model)(spec, self.observations)
 
     def evaluate(self, keys) -> dict[str, np.ndarray]:
@@ -316,9 +329,8 @@ def describe_dry_run(spec: GridSpec, output, settings: GridRunSettings = GridRun
              f"  {spec.n_chunks:,} chunks of up to {spec.chunk_size:,} points"]
     output = Path(output)
     if GridStore.is_store(output):
-        observations = read_disk_photometry(spec.photometry)
         try:
-            store = GridStore.prepare(output, store_manifest(spec, observations))
+            store = GridStore.prepare(output, store_manifest(spec, read_grid_observations(spec)))
             lines.append(f"  store {output}: exists, {store.completed_points():,} of {n:,} points done; "
                          "a run resumes it")
         except GridError as exc:
@@ -342,8 +354,10 @@ def describe_dry_run(spec: GridSpec, output, settings: GridRunSettings = GridRun
         w = settings.resolved_workers()
         lines.append(f"  estimated run time with {w} local process{'es' if w > 1 else ''}: "
                      f"{_duration(probe.estimate_seconds(n, w))} (ideal scaling; shared cores run slower)")
-    n_cols = len(store_manifest(spec, read_disk_photometry(spec.photometry))["columns"])
-    lines.append(f"  store size: about {n * n_cols * 8 / 1e6 * 0.6:,.1f} MB (compressed Parquet, estimate)")
+    n_cols = len(store_manifest(spec, read_grid_observations(spec))["columns"])
+    size = n * n_cols * 8 * 0.6          # float64 columns, ~0.6 after zstd (measured on demo stores)
+    lines.append(f"  store size: about {size / 1e6:,.1f} MB (compressed Parquet, estimate)" if size > 1e6
+                 else f"  store size: about {size / 1e3:,.0f} kB (compressed Parquet, estimate)")
     return lines
 
 
@@ -448,7 +462,7 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
     the model on one point; only then is the store created (or overwritten).
     """
     check_grid_size(spec, settings)
-    observations = read_disk_photometry(spec.photometry)
+    observations = read_grid_observations(spec)
     manifest = store_manifest(spec, observations)
     if GridStore.is_store(output) and not settings.overwrite:
         GridStore.prepare(output, manifest)          # raises on mismatch, changes nothing
@@ -493,7 +507,7 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
 def _progress(store: GridStore, settings: GridRunSettings):
     from tqdm import tqdm
 
-    return tqdm(total=store.n_points, initial=store.completed_points(), unit="pt", unit_scale=True,
+    return tqdm(total=store.n_points, initial=store.completed_points(), unit="pt",
                 desc="grid", file=sys.stderr, smoothing=0.05, mininterval=0.5,
                 disable=not settings.progress, dynamic_ncols=True)
 

@@ -120,11 +120,11 @@ class GridSummary:
             best = f[np.argmin(d)]
             text = f"{name}: best fraction {best:.3g}"
             if ok.size:
-                text += f" (Delta chi2 <= 1 for {ok.min():.3g}-{ok.max():.3g})"
+                text += f" (Δχ² ≤ 1 for {ok.min():.3g}–{ok.max():.3g})"
             if f[0] == 0.0:
                 absent = d[0]
-                word = "disfavoured" if absent > ABSENCE_DELTA_CHI2 else "allowed"
-                text += f"; leaving it out costs Delta chi2 = {absent:.2f} ({word})"
+                word = f"disfavoured: > {ABSENCE_DELTA_CHI2:g}" if absent > ABSENCE_DELTA_CHI2 else "allowed"
+                text += f"; leaving it out costs Δχ² = {absent:.2f} ({word})"
             else:
                 text += "; the grid does not include 0 for this material"
             lines.append(text)

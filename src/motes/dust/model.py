@@ -479,8 +479,8 @@ class DiskColourModel:
         for i in range(n_pts):
             ts, ws, mm, owner = [], [], [], []
             for j in range(n_lam):
-                k = 2 * np.pi / wavelength[j]
-                t, w = size_parameter_rule(k * a_min[i], k * a_max[i], sampling)
+                wn = 2 * np.pi / wavelength[j]
+                t, w = size_parameter_rule(wn * a_min[i], wn * a_max[i], sampling, m[i, j].imag)
                 ts.append(t)
                 ws.append(w)
                 mm.append(np.full(t.size, m[i, j]))

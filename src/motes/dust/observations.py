@@ -203,16 +203,14 @@ def _read_table(path: Path):
     from astropy.table import Table
 
     suffix = path.suffix.lower()
+    if suffix not in (".csv", ".ecsv"):
+        raise InputError(f"unknown table format '{suffix}': use a .csv or .ecsv file", path)
+    if not path.is_file():
+        raise InputError("file not found", path)
     try:
         if suffix == ".ecsv":
-            return Table.read(path, format="ascii.ecsv")
-        if suffix == ".csv":
-            return astropy_ascii.read(path, format="csv", comment="#", fill_values=[("", "nan")])
-        raise InputError(f"unknown table format '{suffix}': use a .csv or .ecsv file", path)
-    except InputError:
-        raise
-    except FileNotFoundError:
-        raise InputError("file not found", path) from None
+            return Table.read(str(path), format="ascii.ecsv")
+        return astropy_ascii.read(str(path), format="csv", comment="#", fill_values=[("", "nan")])
     except Exception as exc:  # astropy raises many types for malformed tables
         raise InputError(f"cannot read the table ({type(exc).__name__}: {exc})", path) from None
 

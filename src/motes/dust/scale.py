@@ -206,8 +206,9 @@ def draw_scale(model, obs: DiskPhotometry, prior: ScalePrior, systematic=0.0, *,
     -------
     ndarray[N]
         One draw per row, by inverting the cumulative distribution built on the
-        quadrature nodes of :func:`ln_marginal_likelihood` (general path),
-        with linear interpolation between nodes.
+        quadrature nodes of :func:`ln_marginal_likelihood` (general path): each
+        node's mass is spread uniformly over the cell between the midpoints to
+        its neighbours.
     """
     model = np.atleast_2d(np.asarray(model, dtype=float))
     n = model.shape[0]
@@ -222,7 +223,9 @@ def draw_scale(model, obs: DiskPhotometry, prior: ScalePrior, systematic=0.0, *,
         order = np.argsort(s)
         s, lw = s[order], lw[order]
         p = np.exp(lw - lw.max())
-        cdf = np.cumsum(p)
+        # node i carries the mass of the cell between the midpoints to its neighbours
+        edges = np.concatenate([[s[0]], 0.5 * (s[1:] + s[:-1]), [s[-1]]])
+        cdf = np.concatenate([[0.0], np.cumsum(p)])
         cdf /= cdf[-1]
-        out[i] = np.interp(u[i], cdf, s)
+        out[i] = np.interp(u[i], cdf, edges)
     return out

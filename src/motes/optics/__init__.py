@@ -1,6 +1,6 @@
 """Dust optics: optical constants, effective-medium mixing, Mie scattering, size distributions.
 
-Optical constants and mixing (``constants``, ``mixing``) are re-exported
+Optical constants and mixing (``material``, ``constants``, ``mixing``) are re-exported
 here; see ``docs/materials.md`` for the file format, the bundled materials
 and the fraction/porosity definitions.
 """

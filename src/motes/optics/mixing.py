@@ -8,6 +8,14 @@ Definitions used throughout motes
   (``0 <= P < 1``). Component ``i`` therefore fills ``(1 - P) f_i`` of the
   grain and vacuum (``eps = 1``) fills ``P``.
 
+Shapes
+------
+Per-component arrays (indices, permittivities, fractions, densities) have
+the component axis first; their trailing axes broadcast numpy-style among
+themselves and with ``porosity`` (right-aligned: a ``[n_comp]`` index array
+with ``[n_comp, M]`` fractions acts as ``[n_comp, 1]``). Results have the
+broadcast trailing shape.
+
 Mixing rules
 ------------
 Bruggeman (symmetric; all components including vacuum on an equal footing),
@@ -84,6 +92,17 @@ MIXING_RULES = ("bruggeman", "maxwell_garnett")
 _FRACTION_SUM_TOLERANCE = 1e-6
 _MAX_NEWTON = 50
 _SECTOR_SLACK = 1e-9  # rad, rounding allowance in the sector test
+
+
+def _align_components(*arrays):
+    """Give arrays with a leading component axis the same number of dimensions.
+
+    Their trailing shapes broadcast numpy-style among themselves (right
+    aligned), so singleton axes are inserted just after axis 0:
+    ``(n,)`` with ``(n, M)`` becomes ``(n, 1)``.
+    """
+    ndim = max(a.ndim for a in arrays)
+    return [a.reshape(a.shape[:1] + (1,) * (ndim - a.ndim) + a.shape[1:]) for a in arrays]
 
 
 def _check_fractions(fractions: np.ndarray, name: str) -> None:
@@ -246,6 +265,7 @@ def bruggeman_epsilon(epsilons, fractions) -> np.ndarray:
     frac = np.asarray(fractions, dtype=float)
     if eps.ndim == 0 or frac.ndim == 0:
         raise InputError("epsilons and fractions need a leading component axis", where="epsilons")
+    eps, frac = _align_components(eps, frac)
     try:
         full = np.broadcast_shapes(eps.shape, frac.shape)
     except ValueError as exc:
@@ -266,6 +286,11 @@ def bruggeman_epsilon(epsilons, fractions) -> np.ndarray:
 
     # ln(eps) on the un-broadcast input (often [n_comp, n_wavelength] only).
     start = np.broadcast_to(_lichtenecker_start(np.log(eps), frac), shape).reshape(-1)
+    return _solve_bruggeman(eps2, frac2, start).reshape(shape)
+
+
+def _solve_bruggeman(eps2, frac2, start):
+    """Physical Bruggeman root for validated eps2, frac2 [n_comp, M] from start [M]."""
     e, conv = _newton(eps2, frac2, start, _MAX_NEWTON)
     good = conv & _in_sector(e, eps2, frac2)
     for fallback in (lambda ee, ff: _continuation(ee, ff, 32),
@@ -282,7 +307,7 @@ def bruggeman_epsilon(epsilons, fractions) -> np.ndarray:
         raise ModelError(
             f"Bruggeman root not found for {int((~good).sum())} element(s); first: eps = "
             f"{eps2[:, i].tolist()}, fractions = {frac2[:, i].tolist()}")
-    return e.reshape(shape)
+    return e
 
 
 def maxwell_garnett_epsilon(eps_matrix, eps_inclusions, fractions_inclusions) -> np.ndarray:
@@ -322,9 +347,10 @@ def maxwell_garnett_epsilon(eps_matrix, eps_inclusions, fractions_inclusions) ->
     if not np.isfinite(f).all() or (f < 0).any() or (f.sum(axis=0) > 1 + _FRACTION_SUM_TOLERANCE).any():
         raise InputError("inclusion fractions must be finite, >= 0 and sum to <= 1",
                          where="fractions_inclusions")
+    eps_i, f, eps_m = _align_components(eps_i, f, eps_m[None])
     beta = (eps_i - eps_m) / (eps_i + 2.0 * eps_m)
     s = (f * beta).sum(axis=0)
-    return eps_m * (1.0 + 2.0 * s) / (1.0 - s)
+    return eps_m[0] * (1.0 + 2.0 * s) / (1.0 - s)
 
 
 def whole_grain_fractions(fractions, porosity) -> np.ndarray:
@@ -350,7 +376,8 @@ def whole_grain_fractions(fractions, porosity) -> np.ndarray:
     if not np.isfinite(p).all() or (p < 0).any() or (p >= 1).any():
         raise InputError("porosity must be in [0, 1) (vacuum fraction of the whole grain)",
                          where="porosity")
-    f, p = np.broadcast_arrays(f, p[None] if p.ndim else p)
+    f, p = _align_components(f, p[None])
+    f, p = np.broadcast_arrays(f, p)
     return np.concatenate([(1.0 - p) * f, p[:1]], axis=0)
 
 
@@ -391,14 +418,28 @@ def mix_refractive_index(indices, fractions, porosity=0.0, rule="bruggeman", mat
     if not np.isfinite(m).all() or (m.real <= 0).any() or (m.imag < 0).any():
         raise InputError("indices must be finite with n > 0 and k >= 0 (m = n + ik)", where="indices")
     phi = whole_grain_fractions(fractions, porosity)
-    eps = m**2
-    eps, phi_solid = np.broadcast_arrays(eps, phi[:-1])
+    m, phi = _align_components(m, phi)
+    n_solid = m.shape[0]
+    try:
+        trailing = np.broadcast_shapes(m.shape[1:], phi.shape[1:])
+    except ValueError as exc:
+        raise InputError(f"indices {m.shape} and fractions {phi[:-1].shape} do not broadcast",
+                         where="fractions") from exc
+    if rule == "bruggeman":
+        # Build [n_solid + 1, M] once (vacuum last) and start from the geometric
+        # mean, computed on the un-broadcast indices: ln eps_i = 2 ln m_i, ln 1 = 0.
+        size = int(np.prod(trailing))
+        eps2 = np.empty((n_solid + 1, size), dtype=complex)
+        eps2[:n_solid] = np.broadcast_to(m**2, (n_solid,) + trailing).reshape(n_solid, size)
+        eps2[n_solid] = 1.0
+        frac2 = np.broadcast_to(phi, (n_solid + 1,) + trailing).reshape(n_solid + 1, size)
+        start = np.exp(2.0 * (phi[:-1] * np.log(m)).sum(axis=0))
+        start = np.broadcast_to(start, trailing).reshape(size)
+        return np.sqrt(_solve_bruggeman(eps2, frac2, start)).reshape(trailing)
+    eps, phi_solid = np.broadcast_arrays(m**2, phi[:-1])
     eps_all = np.concatenate([eps, np.ones((1,) + eps.shape[1:], dtype=complex)], axis=0)
     phi_all = np.concatenate([phi_solid, np.broadcast_to(phi[-1:], (1,) + eps.shape[1:])], axis=0)
-    if rule == "bruggeman":
-        eps_eff = bruggeman_epsilon(eps_all, phi_all)
-    elif rule == "maxwell_garnett":
-        n_solid = eps.shape[0]
+    if rule == "maxwell_garnett":
         if isinstance(matrix, str) and matrix == "vacuum":
             j = n_solid
         elif isinstance(matrix, (int, np.integer)) and 0 <= matrix < n_solid:
@@ -439,7 +480,7 @@ def mixture_density(densities, fractions, porosity=0.0) -> np.ndarray:
     """
     rho = np.asarray(densities, dtype=float)
     phi = whole_grain_fractions(fractions, porosity)[:-1]
-    rho = rho.reshape(rho.shape + (1,) * (phi.ndim - rho.ndim))
+    rho, phi = _align_components(rho, phi)
     if ((rho < 0) & np.isfinite(rho)).any():
         raise InputError("densities must be >= 0", where="densities")
     terms = np.where(phi > 0, phi * rho, 0.0)

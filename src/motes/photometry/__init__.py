@@ -35,24 +35,22 @@ from .conversions import (
     ratio_to_delta_mag,
     zero_point_error,
 )
+from .measurement_table import INPUT_KINDS, Measurement, parse_flux_unit, read_photometry_table
 from .measurements import BandPhotometry, CalibratedPhotometry, calibrate
 from .output import format_photometry, write_photometry
 from .spectra import blackbody_flux_lambda
 from .synthesis import SynthesisedMagnitude, nearest_reference_band, spectrum_colour, synthesise_host_magnitude
 from .targets import (
     DEFAULT_SYNTHESIS_SYSTEMATIC_MAG,
-    INPUT_KINDS,
     CalibrationSettings,
     HostMagnitude,
     HostSpectrum,
     HostStar,
-    Measurement,
     Target,
-    parse_flux_unit,
     read_host_spectrum,
-    read_photometry_table,
     read_target,
     read_user_bands,
+    user_bands_from_document,
 )
 
 __all__ = [
@@ -96,6 +94,7 @@ __all__ = [
     "read_photometry_table",
     "read_target",
     "read_user_bands",
+    "user_bands_from_document",
     "BandPhotometry",
     "CalibratedPhotometry",
     "calibrate",

@@ -29,7 +29,7 @@ Errors are propagated linearly (first order in σ/value).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -47,7 +47,8 @@ from .conversions import (
     zero_point_error,
 )
 from .synthesis import synthesise_host_magnitude
-from .targets import HostStar, Measurement, Target, parse_flux_unit, read_target
+from .measurement_table import Measurement, parse_flux_unit
+from .targets import HostStar, Target, read_target
 
 __all__ = [
     "BandPhotometry",
@@ -281,7 +282,10 @@ def _host_magnitude(target: Target, m: Measurement, reference: Band | None, note
 def _flux_in_jy(m: Measurement) -> tuple[float, float]:
     import astropy.units as u
 
-    unit = parse_flux_unit(m.unit)
+    try:
+        unit = parse_flux_unit(m.unit)
+    except ValueError as exc:
+        raise InputError(str(exc), where=f"row {m.row} (band {m.band.name!r})") from None
     scale = (1 * unit).to_value(u.Jy) if unit.is_equivalent(u.Jy) else None
     if scale is None:
         flam = (1 * unit).to_value(u.W / u.m**2 / u.um)

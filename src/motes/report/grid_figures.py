@@ -14,6 +14,7 @@ import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
+from matplotlib.ticker import NullFormatter, ScalarFormatter  # noqa: E402
 import numpy as np  # noqa: E402
 
 __all__ = ["plot_fraction_profiles", "plot_axis_profiles", "plot_best_models", "write_grid_figures"]
@@ -47,17 +48,25 @@ def _profile_panels(columns, title, summary):
         top.set_title(label, fontsize=10)
         width = np.diff(x).min() * 0.8 if len(x) > 1 else 0.1
         if log_x:
-            top.set_xscale("log")
-            bottom.set_xscale("log")
+            for ax in (top, bottom):
+                ax.set_xscale("log")
+                ax.xaxis.set_major_formatter(ScalarFormatter())
+                ax.xaxis.set_minor_formatter(NullFormatter())
+                ax.set_xticks(x)
             bottom.plot(x, share, "s-", color=_SHARE_COLOUR, ms=4)
         else:
             bottom.bar(x, share, width=width, color=_SHARE_COLOUR, alpha=0.85)
-        bottom.set_xlabel(label if log_x else label, fontsize=9)
+        bottom.set_xlabel(label, fontsize=9)
         top.tick_params(labelsize=8)
         bottom.tick_params(labelsize=8)
-    axes[0, 0].set_ylabel("best Δχ² (profile)")
+    axes[0, 0].set_ylabel("best Δχ² (profile; linear below 10)")
     axes[1, 0].set_ylabel("share of exp(−Δχ²/2)")
-    axes[0, 0].set_ylim(bottom=-0.5)
+    # linear where the fit is decided (Delta chi2 < 10), logarithmic above so large values stay visible
+    axes[0, 0].set_yscale("symlog", linthresh=10.0, linscale=1.5)
+    top_value = max(float(np.nanmax(c[2])) for c in columns)
+    ticks = [t for t in (0, 1, 4, 10, 30, 100, 300, 1e3, 3e3, 1e4, 1e5, 1e6) if t <= max(top_value, 10)]
+    axes[0, 0].set_yticks(ticks, [f"{t:g}" for t in ticks])
+    axes[0, 0].set_ylim(-0.3, max(top_value, 10) * 1.3)
     fig.suptitle(f"{title} — χ²_min = {summary.chi2_min:.2f} for {summary.dof} dof "
                  f"(dotted Δχ² = 1, dashed Δχ² = 4)", fontsize=10)
     fig.tight_layout()

@@ -15,6 +15,7 @@ import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
+import matplotlib.ticker as ticker  # noqa: E402
 import numpy as np  # noqa: E402
 
 __all__ = ["plot_optical_constants"]
@@ -67,6 +68,12 @@ def plot_optical_constants(materials, path, *, wavelength_range=None, title=None
     ax_k.set_xlabel("wavelength [µm]")
     if wavelength_range is not None:
         ax_k.set_xlim(*wavelength_range)
+    lo, hi = ax_k.get_xlim()
+    plain = ticker.FuncFormatter(lambda v, _: f"{v:g}")
+    ax_k.xaxis.set_major_formatter(plain)
+    # label minor ticks only on narrow ranges, where few major ticks exist
+    ax_k.xaxis.set_minor_formatter(plain if hi / lo < 30 else ticker.NullFormatter())
+    ax_k.tick_params(axis="x", which="minor", labelsize=7)
     for ax in (ax_n, ax_k):
         ax.grid(True, which="major", alpha=0.3)
     ax_n.legend(fontsize=8, frameon=False)

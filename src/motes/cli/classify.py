@@ -1,0 +1,143 @@
+"""``motes classify``: rank spectral types of a companion from its photometry."""
+
+from __future__ import annotations
+
+import argparse
+
+__all__ = ["register"]
+
+_EPILOG = """\
+examples:
+  motes classify companion_target.toml
+        distance-known and colours-only rankings against the built-in dwarf sequence
+  motes classify companion_target.toml --fit colours --output run1/
+        colours only (ignore the parallax), results into run1/
+  motes classify target.toml --treat-as NIRC2.Kp=2MASS.Ks --treat-as NIRC2.J=2MASS.J
+        compare instrument bands with the sequence's standard bands (said in the output)
+  motes classify target.toml --library my_spectra/ --fit-extinction
+        also rank a folder of labelled spectra; marginalise A_V (uniform 0-5 mag)
+  motes classify target.toml --settings classify.toml
+        settings from the [classify] table of a TOML file (flags override it)
+
+outputs (in --output, default the current folder): <target>_classification.ecsv (all
+ranked rows, summary in the header), <target>_classification_sed.png (measured SED with
+the three best templates), <target>_classification_types.png (probability vs type).
+The target file format is described in docs/photometry.md; the method, the modes and the
+spectral-library folder convention in docs/companion.md.
+"""
+
+
+def _pair(text: str) -> tuple[str, str]:
+    observed, sep, standard = text.partition("=")
+    if not sep or not observed.strip() or not standard.strip():
+        raise argparse.ArgumentTypeError(f"expected OBSERVED=STANDARD, e.g. NIRC2.Kp=2MASS.Ks, got {text!r}")
+    return observed.strip(), standard.strip()
+
+
+def _range(text: str) -> tuple[str, str]:
+    lo, sep, hi = text.partition("-")
+    if not sep:
+        lo, sep, hi = text.partition(":")
+    if not sep or not lo.strip() or not hi.strip():
+        raise argparse.ArgumentTypeError(f"expected FIRST-LAST, e.g. M0-T9, got {text!r}")
+    return lo.strip(), hi.strip()
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        "classify",
+        help="rank spectral types (and Teff) of a companion from its photometry",
+        description=(
+            "Calibrate a target's photometry (as `motes photometry` does) and rank spectral types "
+            "against the built-in mean dwarf sequence (G0-T9), optionally a folder of labelled spectra, "
+            "and blackbodies as a fallback for bands nothing else covers. Each template is fitted with "
+            "one magnitude offset shared by all bands: with the host's distance known the offset has a "
+            "Gaussian prior of the distance-modulus error (plus the templates' luminosity scatter); in "
+            "the colours-only mode it is free. Upper limits enter through the probability of a "
+            "non-detection, never as detections. Prints the ranked tables, a continuous type estimate "
+            "with its 68%% interval, Teff and mass, a check of the colours-only distance against the "
+            "host's, flags and caveats; writes an ECSV table and two figures."
+        ),
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    p.add_argument("target", metavar="TARGET", help="target description (TOML) with its photometry table")
+    p.add_argument("--fit", choices=("auto", "distance", "colours", "both"), default=None,
+                   help="distance: use the host distance; colours: offset free; both; auto (default) = both "
+                        "when a distance is known, else colours")
+    p.add_argument("--library", metavar="DIR", help="folder of labelled spectra to rank as well")
+    p.add_argument("--treat-as", metavar="OBS=STD", action="append", type=_pair, default=None,
+                   help="compare observed band OBS with the sequence's standard band STD (repeatable); "
+                        "never done implicitly")
+    p.add_argument("--fit-extinction", metavar="AV_MAX", nargs="?", type=float, const=5.0, default=None,
+                   help="marginalise A_V with a uniform prior on [0, AV_MAX] mag (default 5)")
+    p.add_argument("--extinction-law", metavar="LAW", default=None,
+                   help="dust_extinction law for --fit-extinction (default G23)")
+    p.add_argument("--template-scatter", metavar="MAG", type=float, default=None,
+                   help="per-band intrinsic scatter of the templates (default 0.10 mag)")
+    p.add_argument("--luminosity-scatter", metavar="MAG", type=float, default=None,
+                   help="shared absolute-magnitude scatter at fixed type (default 0.30 mag)")
+    p.add_argument("--types", metavar="FIRST-LAST", type=_range, default=None,
+                   help="restrict the dwarf sequence, e.g. M0-T9 (default: all of G0-T9)")
+    p.add_argument("--blackbody", choices=("auto", "always", "never"), default=None,
+                   help="blackbody templates: auto (default) when some band is used by nothing else")
+    p.add_argument("--bb-radius", metavar="RJUP", type=float, default=None,
+                   help="radius for blackbodies [R_Jup]: gives them an absolute scale")
+    p.add_argument("--settings", metavar="FILE", help="TOML file with a [classify] table of settings")
+    p.add_argument("--output", metavar="DIR", default=".", help="folder for the table and figures (default: .)")
+    p.add_argument("--csv", action="store_true", help="also write the ranking as CSV")
+    p.add_argument("--no-figures", action="store_true", help="do not draw the figures")
+    p.add_argument("--top", metavar="N", type=int, default=8, help="rows printed per ranking (default 8)")
+    p.add_argument("--cache", metavar="DIR", default=None,
+                   help="cache folder for synthetic library magnitudes (default: $MOTES_CACHE_DIR or "
+                        "~/.cache/motes); 'none' keeps it in memory")
+    p.set_defaults(func=_run)
+
+
+def _settings(args):
+    from ..companion import ClassifySettings
+
+    base = {}
+    if args.settings:
+        base = {f: getattr(ClassifySettings.from_toml(args.settings), f)
+                for f in ClassifySettings.__dataclass_fields__}
+    overrides = {
+        "mode": args.fit,
+        "band_map": tuple(args.treat_as) if args.treat_as else None,
+        "template_scatter": args.template_scatter,
+        "luminosity_scatter": args.luminosity_scatter,
+        "type_range": args.types,
+        "blackbody": args.blackbody,
+        "blackbody_radius_rjup": args.bb_radius,
+        "extinction_law": args.extinction_law,
+    }
+    if args.fit_extinction is not None:
+        overrides.update(extinction=True, av_max=args.fit_extinction)
+    merged = {**base, **{k: v for k, v in overrides.items() if v is not None}}
+    return ClassifySettings(**merged)
+
+
+def _run(args) -> int:
+    from ..companion import classify, format_classification, read_library, write_classification
+    from ..errors import InputError
+    from ..photometry import calibrate, read_target
+
+    if args.top < 1:
+        raise InputError(f"--top must be at least 1, got {args.top}")
+    settings = _settings(args)
+    photometry = calibrate(read_target(args.target))
+    library = None
+    if args.library:
+        cache = "default" if args.cache is None else (None if args.cache.lower() == "none" else args.cache)
+        library = read_library(args.library, cache_dir=cache)
+    result = classify(photometry, settings, library=library)
+    print(format_classification(result, top=args.top))
+    print()
+    paths = write_classification(result, args.output, csv=args.csv)
+    if not args.no_figures:
+        from ..report.companion_figures import write_companion_figures
+
+        paths += write_companion_figures(result, args.output)
+    for path in paths:
+        print(f"wrote {path}")
+    return 0

@@ -1,0 +1,62 @@
+"""``motes fit``: rank dust compositions of a debris disk by Bayesian evidence."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+__all__ = ["register"]
+
+_EPILOG = """\
+examples:
+  motes fit disk_fit.toml                       run every model, results in ./disk_fit_fit/
+  motes fit disk_fit.toml --output run1 --workers 2
+  motes fit disk_fit.toml --output run1         after an interruption: finished models are kept,
+                                                the interrupted one continues from its checkpoint
+  motes fit disk_fit.toml --output run1 --fresh delete run1's previous fit and start over
+
+The description (TOML) names the disk photometry, the star, the candidate materials,
+the priors and the model set ("each-removed", "all-subsets" or an explicit list);
+see docs/fit.md. Output: ranking.ecsv, verdicts.ecsv, summary.txt, figures, and per
+model the posterior samples, summaries and best fit.
+"""
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "fit",
+        help="fit disk colours with dust mixtures and rank compositions by evidence",
+        description=(
+            "Fit a debris disk's scattered-light colours with Mie-scattering dust mixtures by nested "
+            "sampling (dynesty), one run per model of the comparison; rank the models by Bayesian "
+            "evidence and say, per material, whether the data need it."
+        ),
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("description", type=Path, help="fit description (TOML)")
+    parser.add_argument("--output", "-o", type=Path, default=None,
+                        help="run folder (default: <description name>_fit beside the description)")
+    parser.add_argument("--workers", "-w", type=int, default=1,
+                        help="processes evaluating the likelihood (default 1)")
+    mode = parser.add_mutually_exclusive_group()
+    mode.add_argument("--resume", dest="mode", action="store_const", const="resume",
+                      help="continue the fit found in the run folder (the default)")
+    mode.add_argument("--fresh", dest="mode", action="store_const", const="fresh",
+                      help="delete the run folder's previous fit and start over")
+    parser.add_argument("--no-figures", action="store_true", help="skip the figures")
+    parser.add_argument("--quiet", "-q", action="store_true", help="no progress lines")
+    parser.set_defaults(func=_run, mode="resume")
+
+
+def _run(args) -> int:
+    from ..dust.fit import FitRunSettings, run_fit
+    from ..dust.fitresults import format_fit_report
+
+    settings = FitRunSettings(output=args.output, workers=args.workers, resume=True,
+                              fresh=(args.mode == "fresh"), progress=not args.quiet,
+                              figures=not args.no_figures)
+    echo = (lambda *a, **k: None) if args.quiet else print
+    result = run_fit(args.description, settings, echo=echo)
+    print(format_fit_report(result))
+    return 0

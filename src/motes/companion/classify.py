@@ -1,0 +1,533 @@
+"""Rank spectral types of a companion from its calibrated photometry.
+
+:func:`classify` takes :class:`~motes.photometry.CalibratedPhotometry` and
+ranks, separately for every template source (the built-in dwarf sequence, a
+user library, blackbodies) and every mode:
+
+``distance`` (distance known)
+    template absolute magnitudes + the host's distance modulus mu, with the
+    shared offset delta ~ N(0, sigma_mu^2 + sigma_lum^2): sigma_mu is the
+    distance-modulus error (one term for all bands), sigma_lum the intrinsic
+    luminosity scatter of the templates at fixed type;
+``colours`` (colours only)
+    delta free, with a flat prior of fixed width (:data:`OFFSET_PRIOR_WIDTH`
+    = 40 mag; for templates with an absolute scale delta is the distance
+    modulus and the range is -5 to 35 mag, i.e. 0.1 pc to 100 Mpc).
+
+Per-band template scatter sigma_tpl adds to the observed errors. The
+likelihood, the limits and the marginalisation are in
+:mod:`motes.companion.likelihood`.
+
+Band sets
+---------
+Templates are compared only over the same bands. Within one source, a
+ranking uses every observed band that some template covers, and drops the
+templates that miss one of them - unless those templates carried more than
+:data:`EXCLUSION_TOLERANCE` of the probability in a first ranking over the
+bands that *all* templates cover, in which case the extra bands are dropped
+instead. Either way the output says which bands and templates were left out.
+Blackbodies rank over every band and are run when some observed band is used
+by no other source (or when asked): the output says so.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, field, fields
+from pathlib import Path
+
+import numpy as np
+from scipy.special import logsumexp
+
+from ..errors import FitError, InputError
+from .blackbody import BlackbodySet
+from .extinction import EXTINCTION_LAWS, av_prior_grid, extinction_coefficients
+from .likelihood import FlatOffset, GaussianOffset, offset_marginal
+from .results import Classification, Ranking
+from .sequence import load_dwarf_sequence
+from .spectral_types import type_code, type_label
+from .summary_stats import build_rows, distance_check, type_estimate
+from .templates import TemplateGrid
+
+__all__ = [
+    "ClassifySettings",
+    "classify",
+    "MODES",
+    "OFFSET_PRIOR_WIDTH",
+    "OFFSET_PRIOR_LOWER",
+    "EXCLUSION_TOLERANCE",
+    "CAVEATS",
+]
+
+MODES = ("auto", "distance", "colours", "both")
+
+#: Width [mag] of the flat prior on the offset in the colours-only mode.
+OFFSET_PRIOR_WIDTH = 40.0
+#: Lower end [mag] of that prior for templates with an absolute scale (0.1 pc).
+OFFSET_PRIOR_LOWER = -5.0
+#: Probability (from the bands all templates share) that templates may carry
+#: before motes refuses to drop them for the sake of an extra band.
+EXCLUSION_TOLERANCE = 0.01
+
+CAVEATS = (
+    "Young, low-gravity objects are redder in the near-infrared (and brighter) than field dwarfs of "
+    "the same type: against a field sequence their colours suggest too late a type and their "
+    "absolute magnitudes too early a type.",
+    "Extinction reddens and dims; it is negligible for most companions within ~100 pc but not for "
+    "background stars.",
+    "An unresolved equal-mass binary is 0.75 mag brighter than a single object: the distance-known "
+    "mode then prefers an earlier type and the colours-only distance comes out too small.",
+    "Masses come from the mean sequence; below the hydrogen-burning limit (L and T types) they are "
+    "evolutionary-model masses at an assumed field age of ~5 Gyr, and a younger object of the same "
+    "type is much less massive.",
+    "A spectral type from photometry is indicative only; a spectrum confirms it.",
+)
+
+
+@dataclass(frozen=True)
+class ClassifySettings:
+    """Choices of a classification (loadable from TOML, see :meth:`from_toml`).
+
+    Parameters
+    ----------
+    mode : {"auto", "distance", "colours", "both"}
+        ``auto`` = both when the host distance is known, else colours only.
+    band_map : tuple of (str, str)
+        Explicit mappings (observed band, standard sequence band), e.g.
+        ``(("NIRC2.Kp", "2MASS.Ks"),)``. Nothing is mapped otherwise.
+    template_scatter : float [mag]
+        Intrinsic scatter of template colours, per band (default 0.10:
+        common practice, no source - 0.1-0.3 mag is usual).
+    luminosity_scatter : float [mag]
+        Intrinsic scatter of absolute magnitude at fixed type, shared by all
+        bands (default 0.30: the rms of absolute magnitudes about
+        spectral-type relations is ~0.3-0.4 mag, Dupuy & Liu 2012, from memory).
+    use_sequence : bool
+        Rank the built-in dwarf sequence.
+    type_range : (str, str) or None
+        Restrict the sequence, e.g. ``("M0", "T9")``.
+    type_step : float
+        Sequence grid step in subtypes.
+    blackbody : {"auto", "always", "never"}
+        ``auto``: only when some band is used by no other source.
+    blackbody_radius_rjup : float or None [R_Jup]
+        Gives blackbodies an absolute scale (then they also take part in the
+        distance-known mode).
+    extinction : bool
+        Marginalise A_V with a uniform prior on [0, av_max].
+    extinction_law : str
+    rv : float
+    av_max : float [mag]
+    av_steps : int
+    tension_sigma : float
+        Tension between the colours-only and the host distance moduli above
+        which the result is flagged.
+    """
+
+    mode: str = "auto"
+    band_map: tuple = ()
+    template_scatter: float = 0.10
+    luminosity_scatter: float = 0.30
+    use_sequence: bool = True
+    type_range: tuple | None = None
+    type_step: float = 0.1
+    blackbody: str = "auto"
+    blackbody_radius_rjup: float | None = None
+    extinction: bool = False
+    extinction_law: str = "G23"
+    rv: float = 3.1
+    av_max: float = 5.0
+    av_steps: int = 41
+    tension_sigma: float = 3.0
+
+    def __post_init__(self):
+        if self.mode not in MODES:
+            raise InputError(f"mode must be one of {', '.join(MODES)}, got {self.mode!r}")
+        if self.blackbody not in ("auto", "always", "never"):
+            raise InputError(f"blackbody must be 'auto', 'always' or 'never', got {self.blackbody!r}")
+        for name in ("template_scatter", "luminosity_scatter"):
+            value = getattr(self, name)
+            if not (isinstance(value, (int, float)) and math.isfinite(value) and value >= 0):
+                raise InputError(f"{name} must be a number >= 0 [mag], got {value!r}")
+        if not (self.type_step > 0):
+            raise InputError(f"type_step must be positive, got {self.type_step!r}")
+        if self.extinction_law not in EXTINCTION_LAWS:
+            raise InputError(f"extinction_law must be one of {', '.join(EXTINCTION_LAWS)}")
+        pairs = []
+        for pair in self.band_map:
+            if not (isinstance(pair, (tuple, list)) and len(pair) == 2 and all(isinstance(p, str) for p in pair)):
+                raise InputError(f"band_map entries must be (observed, standard) name pairs, got {pair!r}")
+            pairs.append((pair[0], pair[1]))
+        object.__setattr__(self, "band_map", tuple(pairs))
+        if self.type_range is not None:
+            if len(self.type_range) != 2:
+                raise InputError(f"type_range must be two types, e.g. ('M0', 'T9'), got {self.type_range!r}")
+            lo, hi = (type_code(t) for t in self.type_range)
+            if not hi > lo:
+                raise InputError(f"type_range must be increasing, got {self.type_range!r}")
+            object.__setattr__(self, "type_range", (lo, hi))
+
+    @classmethod
+    def from_mapping(cls, doc: dict, path=None) -> "ClassifySettings":
+        """Settings from a dict (e.g. a TOML ``[classify]`` table)."""
+        known = {f.name for f in fields(cls)}
+        unknown = set(doc) - known
+        if unknown:
+            raise InputError(f"unknown setting(s) {', '.join(sorted(unknown))}; known: {', '.join(sorted(known))}",
+                             path, "[classify]")
+        doc = dict(doc)
+        if isinstance(doc.get("band_map"), dict):
+            doc["band_map"] = tuple(doc["band_map"].items())
+        if "type_range" in doc and doc["type_range"] is not None:
+            doc["type_range"] = tuple(doc["type_range"])
+        try:
+            return cls(**doc)
+        except InputError as exc:
+            raise InputError(exc.reason, path, "[classify]") from None
+        except TypeError as exc:
+            raise InputError(f"bad setting: {exc}", path, "[classify]") from None
+
+    @classmethod
+    def from_toml(cls, path) -> "ClassifySettings":
+        """Read a ``[classify]`` table from a TOML file (the whole file if it has none)."""
+        path = Path(path)
+        try:
+            doc = tomllib.loads(path.read_text(encoding="utf-8"))
+        except tomllib.TOMLDecodeError as exc:
+            raise InputError(f"malformed TOML: {exc}", path) from None
+        except (OSError, UnicodeDecodeError) as exc:
+            raise InputError(f"cannot read settings: {exc}", path) from None
+        return cls.from_mapping(doc.get("classify", doc), path)
+
+
+@dataclass(frozen=True, eq=False)
+class _Observations:
+    """The photometry as arrays, in row order."""
+
+    bands: tuple
+    names: tuple[str, ...]
+    mag: np.ndarray          # apparent Vega magnitude (limiting magnitude for limits)
+    sigma: np.ndarray        # 1-sigma [mag] (nan for limits)
+    detected: np.ndarray
+    limit_flux: np.ndarray   # N-sigma limiting flux [Jy] (nan for detections)
+    limit_noise: np.ndarray  # [Jy]
+    zero_point: np.ndarray   # flux of magnitude 0 [Jy]
+    mu: float
+    mu_error: float
+    distance_pc: float
+
+
+def _observations(photometry) -> _Observations:
+    rows = getattr(photometry, "rows", None)
+    if not rows:
+        raise InputError("the photometry has no rows: nothing to classify")
+    names = [r.band.name for r in rows]
+    if len(set(names)) != len(names):
+        raise InputError(f"duplicated band in the photometry: {', '.join(sorted({n for n in names if names.count(n) > 1}))}")
+    mag, sigma, det, lf, ln, zp = [], [], [], [], [], []
+    for r in rows:
+        where = f"band {r.band.name!r}"
+        if r.is_limit:
+            if not (math.isfinite(r.flux_jy) and r.flux_jy > 0 and math.isfinite(r.flux_jy_error)
+                    and r.flux_jy_error > 0):
+                raise InputError("an upper limit needs a positive limiting flux and noise", where=where)
+            mag.append(r.apparent_mag)
+            sigma.append(math.nan)
+            det.append(False)
+            lf.append(r.flux_jy)
+            ln.append(r.flux_jy_error)
+        else:
+            if not (math.isfinite(r.apparent_mag) and math.isfinite(r.apparent_mag_error)
+                    and r.apparent_mag_error > 0):
+                raise InputError("a detection needs a finite magnitude and a positive uncertainty",
+                                 where=where)
+            mag.append(r.apparent_mag)
+            sigma.append(r.apparent_mag_error)
+            det.append(True)
+            lf.append(math.nan)
+            ln.append(math.nan)
+        z = r.flux_jy * 10 ** (0.4 * r.apparent_mag) if (math.isfinite(r.flux_jy) and r.flux_jy > 0
+                                                         and math.isfinite(r.apparent_mag)) else math.nan
+        zp.append(z if math.isfinite(z) else r.band.vega_zero_point_jy)
+    det = np.array(det)
+    if not det.any():
+        raise FitError(f"all {len(rows)} bands are upper limits: at least one detection is needed to "
+                       "classify (limits only bound the templates from one side)")
+    return _Observations(
+        tuple(r.band for r in rows), tuple(names), np.array(mag, float), np.array(sigma, float), det,
+        np.array(lf, float), np.array(ln, float), np.array(zp, float),
+        float(photometry.distance_modulus), float(photometry.distance_modulus_error),
+        float(photometry.distance_pc),
+    )
+
+
+def _modes(settings: ClassifySettings, obs: _Observations) -> tuple[str, ...]:
+    has_distance = math.isfinite(obs.mu)
+    if settings.mode == "auto":
+        return ("distance", "colours") if has_distance else ("colours",)
+    if settings.mode in ("distance", "both") and not has_distance:
+        raise FitError(f"mode {settings.mode!r} needs the host's distance (parallax or distance in the "
+                       "target file); use the colours-only mode")
+    return ("distance", "colours") if settings.mode == "both" else (settings.mode,)
+
+
+def _needed(mode: str, settings: ClassifySettings) -> int:
+    """Detections needed: more than the free parameters (offset free in colours mode, A_V)."""
+    return (2 if mode == "colours" else 1) + int(settings.extinction)
+
+
+@dataclass
+class _Fit:
+    """What _rank_over computes for one band set."""
+
+    columns: np.ndarray
+    templates: np.ndarray
+    marginal: object
+    probability: np.ndarray
+    model: np.ndarray
+
+
+def _fit(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySettings, columns, templates,
+         ext):
+    model = grid.magnitudes[np.ix_(templates, columns)]
+    if mode == "distance":
+        model = model + obs.mu
+        prior = GaussianOffset(math.hypot(obs.mu_error if math.isfinite(obs.mu_error) else 0.0,
+                                          settings.luminosity_scatter))
+    else:
+        absolute = grid.absolute[templates]
+        lower = np.where(absolute, OFFSET_PRIOR_LOWER, np.nan)
+        # no absolute scale: the same width, centred on the template's own median offset
+        det = obs.detected[columns]
+        free_centre = np.median(obs.mag[columns][det][None, :] - model[:, det], axis=1)
+        lower = np.where(absolute, lower, free_centre - OFFSET_PRIOR_WIDTH / 2)
+        prior = FlatOffset(lower, lower + OFFSET_PRIOR_WIDTH)
+    kwargs = {}
+    if not obs.detected[columns].all():
+        kwargs.update(limit_flux=obs.limit_flux[columns], limit_noise=obs.limit_noise[columns],
+                      zero_point=obs.zero_point[columns])
+    if ext is not None:
+        nodes, weights = av_prior_grid(settings.av_max, settings.av_steps)
+        kwargs.update(extinction_coeff=ext[columns], av_nodes=nodes, av_weights=weights)
+    sigma = np.where(obs.detected[columns], obs.sigma[columns], 1.0)
+    marginal = offset_marginal(model, obs.mag[columns], sigma, obs.detected[columns],
+                               settings.template_scatter, prior, **kwargs)
+    ln_z = marginal.ln_evidence
+    if not np.any(np.isfinite(ln_z)):
+        return None
+    probability = np.exp(ln_z - logsumexp(ln_z))
+    fitted = model + marginal.offset[:, None]
+    if ext is not None:
+        fitted = fitted + marginal.av[:, None] * ext[columns][None, :]
+    return _Fit(np.asarray(columns), np.asarray(templates), marginal, probability, fitted)
+
+
+def _rank(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySettings, ext,
+          notes: list) -> Ranking | None:
+    """One ranking of one source in one mode, or None (with a note) when impossible."""
+    eligible = np.flatnonzero(grid.absolute) if mode == "distance" else np.arange(grid.n_templates)
+    if eligible.size == 0:
+        return None
+    covered = grid.covered[eligible]
+    any_cov = covered.any(axis=0)
+    if not any_cov.any():
+        notes.append(f"{grid.source}: covers none of the observed bands")
+        return None
+    full = np.flatnonzero(any_cov)
+    shared = np.flatnonzero(covered.all(axis=0))
+    need = _needed(mode, settings)
+    names = np.array(obs.names)
+    own_notes = []
+    covers_full = covered[:, full].all(axis=1)
+    columns, templates = full, eligible[covers_full]
+    if not covers_full.all():
+        extra = [n for n in names[full] if n not in names[shared]]
+        first = (_fit(grid, obs, mode, settings, shared, eligible, ext)
+                 if obs.detected[shared].sum() >= need else None)
+        if first is not None:
+            lost = float(first.probability[~covers_full].sum())
+            if lost > EXCLUSION_TOLERANCE:
+                columns, templates = shared, eligible
+                own_notes.append(
+                    f"band(s) {', '.join(extra)} not used: templates that do not cover them carry "
+                    f"{lost:.0%} of the probability from the bands all templates share")
+            else:
+                own_notes.append(
+                    f"{(~covers_full).sum()} templates ({_span(grid, eligible[~covers_full])}) left out: no "
+                    f"value in {', '.join(extra)}; from the shared bands they had {lost:.1%} of the probability")
+        else:
+            own_notes.append(
+                f"{(~covers_full).sum()} templates ({_span(grid, eligible[~covers_full])}) left out: no value "
+                f"in {', '.join(extra)}")
+    n_det = int(obs.detected[columns].sum())
+    if templates.size == 0 or n_det < need:
+        notes.append(f"{grid.source}, {mode} mode: not ranked ({n_det} detection(s) in the covered bands "
+                     f"{', '.join(names[columns])}; {need} needed)")
+        return None
+    fit = _fit(grid, obs, mode, settings, columns, templates, ext)
+    if fit is None:
+        notes.append(f"{grid.source}, {mode} mode: no template has a finite likelihood")
+        return None
+    dof = n_det - (1 if mode == "colours" else 0) - int(ext is not None)
+    rows, arrays = build_rows(grid, fit, obs, mode, dof)
+    unused = tuple(n for i, n in enumerate(obs.names) if i not in set(columns.tolist()))
+    return Ranking(
+        source=grid.source, kind=grid.kind, mode=mode, bands=tuple(names[columns]),
+        template_bands=tuple(np.array(grid.template_bands)[columns]), unused_bands=unused,
+        rows=rows, grid=arrays, labels=tuple(grid.labels[i] for i in templates), dof=dof,
+        notes=tuple(own_notes), extra={k: v[templates] if isinstance(v, np.ndarray) and v.ndim else v
+                                       for k, v in grid.extra.items()},
+    )
+
+
+def _span(grid: TemplateGrid, idx) -> str:
+    codes = grid.type_code[idx]
+    if np.all(np.isfinite(codes)) and codes.size:
+        return f"{type_label(codes.min())}-{type_label(codes.max())}" if codes.size > 1 else type_label(codes[0])
+    return ", ".join(grid.labels[i] for i in idx[:3]) + (" ..." if len(idx) > 3 else "")
+
+
+def classify(photometry, settings: ClassifySettings | None = None, library=None) -> Classification:
+    """Rank spectral types (and Teff) of a companion from its photometry.
+
+    Parameters
+    ----------
+    photometry : CalibratedPhotometry
+        From :func:`motes.photometry.calibrate`.
+    settings : ClassifySettings, optional
+    library : SpectralLibrary, optional
+        A user library (:func:`motes.companion.read_library`).
+
+    Returns
+    -------
+    Classification
+
+    Raises
+    ------
+    FitError
+        All bands are upper limits; too few detections for any ranking; no
+        template covers any band; a distance-known mode without a distance.
+    InputError
+        Malformed photometry or a mapping naming an unknown band.
+
+    Notes
+    -----
+    See the module notes and :mod:`motes.companion.likelihood` for the
+    likelihood, priors and band-set rules.
+    """
+    settings = settings or ClassifySettings()
+    obs = _observations(photometry)
+    modes = _modes(settings, obs)
+    mapping = dict(settings.band_map)
+    for observed in mapping:
+        if observed not in obs.names:
+            raise InputError(f"band mapping names {observed!r}, which is not in the photometry "
+                             f"({', '.join(obs.names)})")
+    notes: list[str] = []
+    flags: list[str] = []
+    ext = None
+    if settings.extinction:
+        ext = extinction_coefficients(obs.bands, settings.extinction_law, settings.rv)
+        notes.append(f"extinction fitted: {settings.extinction_law} law, R_V = {settings.rv:g}, A_V uniform "
+                     f"on [0, {settings.av_max:g}] mag ({settings.av_steps} nodes)")
+    grids = []
+    if settings.use_sequence:
+        grids.append(load_dwarf_sequence().grid(obs.bands, mapping, step=settings.type_step,
+                                                code_range=settings.type_range))
+    if library is not None:
+        grids.append(library.grid(obs.bands, mapping))
+    rankings = []
+    for grid in grids:
+        notes.extend(grid.notes)
+        for mode in modes:
+            ranking = _rank(grid, obs, mode, settings, ext, notes)
+            if ranking is not None:
+                rankings.append(ranking)
+    used = {b for r in rankings for b in r.bands}
+    uncovered = [n for n in obs.names if n not in used]
+    blackbody_used = False
+    if settings.blackbody == "always" or (settings.blackbody == "auto" and (uncovered or not rankings)):
+        bb = BlackbodySet(radius_rjup=settings.blackbody_radius_rjup).grid(obs.bands)
+        bb_modes = modes if settings.blackbody_radius_rjup is not None else ("colours",)
+        for mode in bb_modes:
+            ranking = _rank(bb, obs, mode, settings, ext, notes)
+            if ranking is not None:
+                rankings.append(ranking)
+                blackbody_used = True
+        if blackbody_used:
+            why = (f"band(s) {', '.join(uncovered)} are used by no other template" if uncovered
+                   else "requested" if settings.blackbody == "always" else "no other template could be ranked")
+            notes.append(f"blackbody fallback used ({why}); blackbodies give a colour temperature, not a type"
+                         + ("" if settings.blackbody_radius_rjup is not None
+                            else ", and with no radius given they are colours-only"))
+    if uncovered and not blackbody_used:
+        notes.append(f"band(s) {', '.join(uncovered)} used by no ranking")
+    if not rankings:
+        raise FitError(
+            "no ranking possible: " + ("; ".join(notes) if notes else "no template covers the observed bands")
+            + ". Map instrument bands to standard ones (band_map / --treat-as), add a spectral library, "
+            "or allow blackbodies"
+        )
+    estimates = tuple(e for e in (type_estimate(r) for r in rankings) if e is not None)
+    headline = _headline(rankings, estimates)
+    check = None
+    colour_rank = next((r for r in rankings if r.mode == "colours" and r.kind == "sequence"), None) \
+        or next((r for r in rankings if r.mode == "colours" and r.kind == "library"
+                 and np.all(np.isfinite(r.grid["distance_pc"]))), None)
+    if colour_rank is not None and math.isfinite(obs.mu):
+        check = distance_check(colour_rank, obs.mu, obs.mu_error, obs.distance_pc, settings)
+        if not check.consistent:
+            flags.append(check.message)
+    for r in rankings:
+        if r.kind == "blackbody":
+            continue
+        p = _chi2_p(r.best.chi2, r.dof)
+        if p < 1e-3:
+            flags.append(f"{r.source}, {r.mode} mode: the best template fits poorly (chi2 = {r.best.chi2:.1f} "
+                         f"for {r.dof} dof, p = {p:.1e}): not a normal field dwarf? (youth, binarity, "
+                         "extinction, a background star, or a photometry problem)")
+    if headline is not None and headline.at_range_edge:
+        flags.append(f"the type estimate reaches the end of the template range ({headline.source}): it may "
+                     "be truncated")
+    _mode_notes(notes, modes, obs, settings)
+    approx = [r.band.name for r in photometry.rows if r.band.approximate]
+    if approx:
+        notes.append(f"approximate band(s) (top-hat/Gaussian): {', '.join(approx)}")
+    return Classification(
+        target=getattr(photometry, "target", ""), modes=modes, rankings=tuple(rankings), estimate=headline,
+        estimates=estimates, distance_check=check, blackbody_used=blackbody_used, flags=tuple(flags),
+        notes=tuple(dict.fromkeys(notes)), caveats=CAVEATS, photometry=photometry, settings=settings,
+    )
+
+
+def _headline(rankings, estimates):
+    order = [("sequence", "distance"), ("sequence", "colours"), ("library", "distance"), ("library", "colours")]
+    for kind, mode in order:
+        for e in estimates:
+            r = next((r for r in rankings if r.source == e.source and r.mode == e.mode), None)
+            if r is not None and r.kind == kind and r.mode == mode:
+                return e
+    return None
+
+
+def _chi2_p(chi2: float, dof: int) -> float:
+    from scipy.stats import chi2 as chi2_dist
+
+    if dof <= 0 or not math.isfinite(chi2):
+        return 1.0
+    return float(chi2_dist.sf(chi2, dof))
+
+
+def _mode_notes(notes, modes, obs, settings):
+    if "distance" in modes:
+        notes.append(
+            f"distance-known mode: host distance modulus {obs.mu:.3f} ± {obs.mu_error:.3f} mag; offset prior "
+            f"N(0, {math.hypot(obs.mu_error, settings.luminosity_scatter):.3f} mag) = distance error and "
+            f"{settings.luminosity_scatter:g} mag luminosity scatter in quadrature")
+    if "colours" in modes:
+        notes.append(
+            f"colours-only mode: offset flat over {OFFSET_PRIOR_WIDTH:g} mag (distance modulus "
+            f"{OFFSET_PRIOR_LOWER:g} to {OFFSET_PRIOR_LOWER + OFFSET_PRIOR_WIDTH:g} mag for absolutely "
+            "calibrated templates)")
+    notes.append(f"template scatter {settings.template_scatter:g} mag per band added to the observed errors")

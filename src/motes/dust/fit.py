@@ -1,0 +1,338 @@
+"""``motes fit``: nested-sampling fits of disk colours and evidence ranking of compositions.
+
+:func:`run_fit` takes a fit description (:mod:`motes.dust.fitspec`), runs one
+nested-sampling fit per model of the comparison (:mod:`motes.dust.nested`),
+and writes per-model results, a ranking by evidence and per-material verdicts
+(:mod:`motes.dust.evidence`) into a run folder (:mod:`motes.dust.fitresults`).
+
+Resume: the run folder records the description's digest. Run again on the
+same folder, a fit skips finished models (``result.json`` present), resumes the
+interrupted one from its sampler checkpoint, and runs the rest. A folder from
+another description is refused (``fresh=True`` starts over).
+
+Likelihood (per model): Gaussian detections and normal-CDF upper limits
+(:mod:`motes.dust.observations`), the flux scale integrated out under a
+log-uniform prior that is the same in every model (:mod:`motes.dust.scale`),
+priors as in :mod:`motes.dust.priors`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import math
+import shutil
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from .. import __version__
+from ..errors import FitError, MotesError
+from .evidence import ModelEvidence, material_verdicts, rank_models, summarise_posterior
+from .fitmodel import ProblemHandle, HandleLikelihood, HandlePriorTransform, read_fit_photometry, reset_traces
+from .fitresults import (FIT_CAVEATS, FIT_FORMAT_VERSION, FitResult, ModelResult, format_fit_report,
+                         read_model_result, write_json_atomic, write_table_atomic)
+from .fitspec import FitSpec, ModelSpec, read_fit_description
+from .nested import open_pool, run_nested_model
+
+__all__ = ["FitRunSettings", "run_fit", "prepare_fit", "FitResult", "ModelResult"]
+
+_STATE = "fit_state.json"
+_RUN_FILES = ("ranking.ecsv", "verdicts.ecsv", "summary.txt", "description.toml")
+_N_PREDICTIVE = 300
+_N_BEST_CANDIDATES = 300
+
+
+@dataclass(frozen=True)
+class FitRunSettings:
+    """How to run a fit (the description says *what* to fit).
+
+    Parameters
+    ----------
+    output : pathlib.Path or None
+        Run folder; default ``<description stem>_fit`` beside the description.
+    workers : int
+        Processes evaluating the likelihood (1 = in this process).
+    resume : bool
+        Continue a run found in ``output`` (True) or refuse to touch it.
+    fresh : bool
+        Delete a previous run's files in ``output`` and start over.
+    progress : bool
+        Progress line per model on stderr.
+    figures : bool
+        Write the figures.
+    """
+
+    output: Path | None = None
+    workers: int = 1
+    resume: bool = True
+    fresh: bool = False
+    progress: bool = True
+    figures: bool = True
+
+    def __post_init__(self):
+        if int(self.workers) < 1:
+            raise FitError(f"workers must be >= 1, got {self.workers}")
+
+
+# ------------------------------------------------------------ validation
+def prepare_fit(spec: FitSpec, model_factory=None):
+    """Check a fit before running it; return the data and one handle per model.
+
+    Raises
+    ------
+    motes.errors.FitError
+        Fewer detections than free parameters, materials that do not cover
+        the bands, a_min bounds reaching a_max, and similar problems, each
+        naming the model.
+    """
+    obs = read_fit_photometry(spec)
+    a_min, a_max = spec.parameters.get("a_min"), spec.parameters.get("a_max")
+    if a_min is not None and a_min.relative_to is None:
+        hi_min = a_min.value if a_min.kind == "fixed" else a_min.upper
+        lo_max = (a_max.value if a_max.kind == "fixed" else a_max.lower) if a_max is not None else None
+        if lo_max is not None and hi_min >= lo_max:
+            raise FitError(f"{spec.source}: the a_min prior reaches {hi_min:g} um, not below a_max "
+                           f"({lo_max:g} um); lower a_min's upper bound")
+    handles = []
+    for i, model in enumerate(spec.models):
+        handle = ProblemHandle(spec, model, model_factory=model_factory)
+        try:
+            problem = handle.build()
+        except MotesError as exc:
+            raise FitError(f"{spec.source}: model '{model.name}': {exc}") from None
+        need = problem.space.n_effective
+        if obs.n_detections < need:
+            raise FitError(
+                f"{spec.source}: model '{model.name}' has {need} free parameters (fractions "
+                f"{max(len(model.materials) - 1, 0)}, others {need - 1 - max(len(model.materials) - 1, 0)}, "
+                f"flux scale 1) but the data have only {obs.n_detections} detected bands; "
+                "fix some parameters or add bands")
+        handles.append(handle)
+    return obs, tuple(handles)
+
+
+# ---------------------------------------------------------- run folder
+def _default_output(spec: FitSpec) -> Path:
+    stem = Path(spec.source).stem if spec.source != "<string>" else "fit"
+    return spec.base_dir / f"{stem}_fit"
+
+
+def _prepare_run_dir(run_dir: Path, spec: FitSpec, settings: FitRunSettings, echo) -> None:
+    state_path = run_dir / _STATE
+    if run_dir.exists() and not run_dir.is_dir():
+        raise FitError(f"output {run_dir} exists and is not a folder")
+    if state_path.exists():
+        try:
+            state = json.loads(state_path.read_text())
+        except (OSError, ValueError):
+            state = {}
+        same = (state.get("digest") == spec.digest and state.get("format_version") == FIT_FORMAT_VERSION)
+        if settings.fresh:
+            _clear_run(run_dir)
+        elif not same:
+            raise FitError(
+                f"{run_dir} holds a fit of another description (or another format); "
+                "use --fresh to delete it and start over, or choose another --output")
+        elif not settings.resume:
+            raise FitError(f"{run_dir} already holds this fit; use --resume to continue it or --fresh to restart")
+        else:
+            echo(f"resuming the fit in {run_dir}")
+    elif run_dir.exists() and any(run_dir.iterdir()):
+        raise FitError(f"{run_dir} is not empty and holds no motes fit; choose another --output")
+    run_dir.mkdir(parents=True, exist_ok=True)
+    (run_dir / "models").mkdir(exist_ok=True)
+    if not state_path.exists():
+        (run_dir / "description.toml").write_text(spec.text)
+        write_json_atomic(state_path, {
+            "format_version": FIT_FORMAT_VERSION, "motes_version": __version__,
+            "dynesty_version": _dynesty_version(), "digest": spec.digest, "source": spec.source,
+            "models": [m.name for m in spec.models],
+        })
+
+
+def _clear_run(run_dir: Path) -> None:
+    shutil.rmtree(run_dir / "models", ignore_errors=True)
+    for name in (_STATE,) + _RUN_FILES:
+        (run_dir / name).unlink(missing_ok=True)
+    for png in run_dir.glob("*.png"):
+        png.unlink()
+
+
+def _dynesty_version() -> str:
+    import dynesty
+
+    return dynesty.__version__
+
+
+# -------------------------------------------------------- one model
+def _postprocess(handle: ProblemHandle, run, spec: FitSpec, obs, folder: Path, sessions) -> ModelResult:
+    from astropy.table import Table
+
+    problem = handle.build()
+    space = problem.space
+    rng = np.random.default_rng([int(spec.sampler.seed), 7, len(handle.model.materials)])
+    eq = run.equal_weight_samples(spec.sampler.n_posterior, rng)
+    scale = problem.posterior_scale(eq, rng) if not space.sample_scale else space.unpack(eq)["scale"]
+    names = space.names
+    sample_names = names + (() if space.sample_scale else ("scale",))
+    samples = eq if space.sample_scale else np.column_stack([eq, scale])
+
+    # maximum likelihood over (parameters, scale): profile the best dead points over the scale
+    top = np.argsort(run.ln_l)[-_N_BEST_CANDIDATES:]
+    s_best, chi2, ln_l = problem.best_scale_fit(run.samples[top])
+    i = int(np.argmax(ln_l))
+    best = {n: float(v) for n, v in zip(names, run.samples[top][i]) if n != "scale"}
+    best["scale"] = float(s_best[i])
+    dof = obs.n_detections - space.n_effective
+
+    summary = summarise_posterior(samples, sample_names)
+    pick = rng.choice(samples.shape[0], size=min(_N_PREDICTIVE, samples.shape[0]), replace=False)
+    pred = problem.model_ratios(eq[pick]) * scale[pick][:, None]
+    best_theta = run.samples[top][i][None, :]
+    best_model = problem.model_ratios(best_theta)[0] * s_best[i]
+    colours = obs.to_table()
+    q = np.percentile(pred, [50, 16, 84, 2.5, 97.5], axis=0)
+    for name, row in zip(("model_median", "model_lo68", "model_hi68", "model_lo95", "model_hi95"), q):
+        colours[name] = row
+    colours["model_best"] = best_model
+    colours.meta["model"] = handle.model.name
+
+    result = ModelResult(
+        name=handle.model.name, materials=handle.model.materials, ln_z=run.ln_z, ln_z_err=run.ln_z_err,
+        n_calls=run.n_calls, n_iterations=run.n_iterations, information=run.information,
+        parameter_names=names, sample_names=sample_names, samples=samples, best=best,
+        best_chi2=float(chi2[i]), dof=int(dof), best_ln_l=float(ln_l[i]), summary=summary,
+        colours=colours, sessions=tuple(sessions), folder=folder,
+    )
+    table = Table(samples, names=sample_names)
+    table.meta["model"] = handle.model.name
+    table.meta["note"] = "equally weighted posterior samples; scale drawn from p(scale | parameters, data)"
+    write_table_atomic(table, folder / "samples.ecsv")
+    write_table_atomic(summary, folder / "parameters.ecsv")
+    write_table_atomic(colours, folder / "colours.ecsv")
+    write_json_atomic(folder / "result.json", result.to_json())   # last: marks the model finished
+    return result
+
+
+def _run_model(index, handle, spec, obs, run_dir, settings, echo) -> ModelResult:
+    model = handle.model
+    folder = run_dir / "models" / model.folder_name
+    if (folder / "result.json").exists():
+        echo(f"[{index + 1}/{len(spec.models)}] {model.name}: finished earlier, read from {folder}")
+        return read_model_result(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    trace = folder / "processes"
+    shutil.rmtree(trace, ignore_errors=True)
+    reset_traces(trace)
+    traced = ProblemHandle(spec, model, model_factory=handle.model_factory, trace_dir=trace)
+    checkpoint = folder / "sampler_state.dynesty"
+    previous = []
+    if (folder / "sessions.json").exists():
+        try:
+            previous = json.loads((folder / "sessions.json").read_text())
+        except (OSError, ValueError):
+            previous = []
+    verb = "resuming" if checkpoint.exists() else "running"
+    echo(f"[{index + 1}/{len(spec.models)}] {model.name}: {verb} nested sampling "
+         f"({handle.space.ndim} dimensions, {settings.workers} worker{'s' if settings.workers > 1 else ''})")
+    with open_pool(settings.workers, HandleLikelihood(traced), HandlePriorTransform(traced)) as pool:
+        run = run_nested_model(handle.space.ndim, spec.sampler, checkpoint, pool=pool,
+                               workers=settings.workers, seed_key=index, resume=True,
+                               progress=settings.progress, label=model.name)
+    n_proc = len(list(trace.glob("*"))) if trace.exists() else 0
+    sessions = previous + [{"resumed": run.resumed, "wall_time": round(run.wall_time, 2), "processes": n_proc}]
+    write_json_atomic(folder / "sessions.json", sessions)
+    return _postprocess(handle, run, spec, obs, folder, sessions)
+
+
+# --------------------------------------------------------------- run
+def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=None, echo=print) -> FitResult:
+    """Run (or resume) a fit: every model of the comparison, then ranking and verdicts.
+
+    Parameters
+    ----------
+    spec : FitSpec, str or os.PathLike
+        A parsed description or the path of a fit description file.
+    settings : FitRunSettings
+    model_factory : callable, optional
+        ``model_factory(spec, materials, bands) -> colour model`` (picklable);
+        default: the description's :class:`~motes.dust.model.DiskColourModel`.
+    echo : callable
+        Where progress lines go.
+
+    Returns
+    -------
+    FitResult
+    """
+    if not isinstance(spec, FitSpec):
+        spec = read_fit_description(spec)
+    obs, handles = prepare_fit(spec, model_factory)
+    run_dir = Path(settings.output) if settings.output is not None else _default_output(spec)
+    _prepare_run_dir(run_dir, spec, settings, echo)
+
+    results = [_run_model(i, h, spec, obs, run_dir, settings, echo) for i, h in enumerate(handles)]
+    full = spec.full_model.name if spec.full_model is not None else None
+    evid = [ModelEvidence(r.name, r.materials, r.ln_z, r.ln_z_err) for r in results]
+    ranking = rank_models(evid, full)
+    verdicts = material_verdicts(evid, spec.materials, full)
+    by_name = {r.name: r for r in results}
+    verdict_table = _verdict_table(verdicts, by_name)
+    ordered = tuple(by_name[n] for n in ranking["model"])
+    notes = list(obs.notes) + _model_notes(handles) + _bound_notes(ordered, spec)
+
+    files = [run_dir / "ranking.ecsv", run_dir / "verdicts.ecsv", run_dir / "summary.txt"]
+    write_table_atomic(ranking, files[0])
+    write_table_atomic(verdict_table, files[1])
+    result = FitResult(source=spec.source, run_dir=run_dir, observations=obs, models=ordered,
+                       ranking=ranking, verdicts=verdicts, verdict_table=verdict_table, full_model=full,
+                       priors=tuple(handles[0].space.describe()) if handles else (),
+                       notes=tuple(dict.fromkeys(notes)), caveats=FIT_CAVEATS, files=())
+    if settings.figures:
+        from ..report.fit_figures import write_fit_figures
+
+        files += list(write_fit_figures(result, run_dir))
+    files += [m.folder for m in ordered]
+    result = dataclasses.replace(result, files=tuple(files))
+    tmp = files[2].with_name("summary.txt.tmp")
+    tmp.write_text(format_fit_report(result) + "\n")
+    tmp.replace(files[2])
+    return result
+
+
+def _verdict_table(verdicts, by_name):
+    from astropy.table import Table
+
+    rows = []
+    for v in verdicts:
+        upper = median = math.nan
+        if v.with_model:
+            frac = by_name[v.with_model].fraction_samples(v.material)
+            upper, median = float(np.percentile(frac, 95)), float(np.median(frac))
+        rows.append((v.material, v.verdict, v.ln_b, v.ln_b_err, v.strength, v.with_model, v.without_model,
+                     v.pairing, median, upper))
+    table = Table(rows=rows, names=("material", "verdict", "ln_b", "ln_b_err", "strength", "with_model",
+                                    "without_model", "pairing", "fraction_median", "fraction_upper95"))
+    from .evidence import VERDICT_RULE
+
+    table.meta["rule"] = VERDICT_RULE
+    table.meta["note"] = "fraction_median / fraction_upper95: that material's volume fraction in with_model"
+    return table
+
+
+def _model_notes(handles) -> list[str]:
+    notes = []
+    for h in handles:
+        notes.extend(getattr(h.build().colour_model, "notes", ()))
+    return notes
+
+
+def _bound_notes(models, spec: FitSpec) -> list[str]:
+    out = []
+    for m in models:
+        s = m.best.get("scale", math.nan)
+        if np.isfinite(s) and (s < spec.scale.lower * 1e3 or s > spec.scale.upper / 1e3):
+            out.append(f"model {m.name}: best flux scale {s:.3g} lies within a factor 1000 of the scale "
+                       f"prior's bounds [{spec.scale.lower:g}, {spec.scale.upper:g}]; widen [scale]")
+    return out
