@@ -59,16 +59,20 @@ HOST = {
 #: Host catalogue bands and their quoted 1-sigma errors [mag].
 HOST_CATALOGUE = {"Gaia.G": 0.003, "2MASS.J": 0.024, "2MASS.H": 0.032, "2MASS.Ks": 0.021}
 
-#: TRUTH: absolute Vega magnitudes of the invented companion "Velmora b", a
-#: late-M/early-L dwarf. Invented numbers, roughly typical of such objects;
-#: replace this dict (and only this dict) to change the companion.
+#: TRUTH: absolute Vega magnitudes of the invented companion "Velmora b", an
+#: invented L0.5 dwarf. J, H and Ks are motes' own mean dwarf sequence
+#: (src/motes/data/dwarf_sequence.txt) interpolated at L0.5, so `motes classify`
+#: should recover about L0.5; I, NB3p1 and Lp (which the sequence does not
+#: tabulate at L0.5) are invented colours typical of early-L dwarfs relative to
+#: Ks: I - Ks = 4.50, Ks - NB3p1 = 0.35, Ks - Lp = 0.55 (from memory, approximate).
+#: Replace this dict (and only this dict) to change the companion.
 TRUTH = {
-    "Cousins.I": 14.70,
-    "2MASS.J": 11.40,
-    "2MASS.H": 10.72,
-    "2MASS.Ks": 10.25,
-    "NB3p1": 9.78,
-    "Lp": 9.47,
+    "Cousins.I": 10.705 + 4.50,
+    "2MASS.J": 11.959,
+    "2MASS.H": 11.220,
+    "2MASS.Ks": 10.705,
+    "NB3p1": 10.705 - 0.35,
+    "Lp": 10.705 - 0.55,
 }
 
 #: How each companion band is measured: (kind, 1-sigma error). The contrast

@@ -57,6 +57,13 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print(f"motes {args.command}: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # Output piped into e.g. `head`, which closed early: not an error.
+        import os
+
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
 
 
 if __name__ == "__main__":  # pragma: no cover

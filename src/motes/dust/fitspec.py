@@ -363,6 +363,11 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     for name in _PARAMETERS:
         if name in params:
             parameters[name] = parse_prior(params[name], name, path, allow_relative=(name == "a_min"))
+    if "a_max" not in parameters:
+        model_t = doc.get("model", {}) if isinstance(doc.get("model"), dict) else {}
+        a_max = model_t.get("a_max", 1000.0)
+        if isinstance(a_max, (int, float)) and not isinstance(a_max, bool):
+            parameters["a_max"] = Prior("fixed", value=float(a_max))
     for name in ("a_min", "a_max"):
         p = parameters.get(name)
         if p is not None and p.relative_to is None:

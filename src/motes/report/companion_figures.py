@@ -18,7 +18,7 @@ import numpy as np
 
 from ..companion.results import Classification
 from ..companion.spectral_types import type_label
-from ..errors import InputError
+from ..errors import BandError, InputError
 
 __all__ = ["plot_companion_sed", "plot_type_probability", "write_companion_figures"]
 
@@ -98,12 +98,20 @@ def plot_companion_sed(result: Classification, path, n_best: int = 3) -> Path:
         ax.annotate(r.band.name, (pivots[r.band.name], 1e3 * r.flux_jy), textcoords="offset points",
                     xytext=(4, 6), fontsize=7, color="0.35")
     ranking = _headline_ranking(result)
-    for k, i in enumerate(ranking.top_templates(n_best)):
+    if ranking.kind == "sequence":
+        # the best display rows (whole subtypes), each drawn with its grid template
+        codes = ranking.grid["type_code"]
+        picks = [(int(np.argmin(np.abs(codes - row.type_code))), row.label, row.probability)
+                 for row in ranking.rows[:n_best]]
+    else:
+        picks = [(int(i), ranking.labels[i], ranking.grid["probability"][i])
+                 for i in ranking.top_templates(n_best)]
+    for k, (i, name, prob) in enumerate(picks):
         model = ranking.grid["model"][i]
         x = np.array([pivots[b] for b in ranking.bands])
         y = np.array([1e3 * zero_points[b] * 10 ** (-0.4 * m) for b, m in zip(ranking.bands, model)])
         order = np.argsort(x)
-        label = f"{ranking.labels[i]}  p={ranking.grid['probability'][i]:.2f}"
+        label = f"{name}  p={prob:.2f}"
         colour = _COLOURS[k % len(_COLOURS)]
         spectra = ranking.extra.get("spectra")
         if spectra is not None:
@@ -117,8 +125,8 @@ def plot_companion_sed(result: Classification, path, n_best: int = 3) -> Path:
                 mean = band.average_flux_lambda(wl, spec.flux_lambda)
                 scale = (1e3 * zero_points[first] * 10 ** (-0.4 * model[0])) / (1e3 * float(band.flux_lambda_to_fnu(mean)))
                 ax.plot(wl, flux * scale, color=colour, lw=0.8, alpha=0.7)
-            except Exception:  # noqa: BLE001 - a curve that cannot be scaled is simply not drawn
-                pass
+            except (BandError, ValueError, ZeroDivisionError):
+                pass  # a curve that cannot be scaled is simply not drawn
         ax.plot(x[order], y[order], "s-", color=colour, ms=5, lw=1.2, alpha=0.85, label=label, zorder=4)
     bb = next((r for r in result.rankings if r.kind == "blackbody"), None)
     if bb is not None and bb is not ranking:
@@ -134,8 +142,14 @@ def plot_companion_sed(result: Classification, path, n_best: int = 3) -> Path:
         scale = target / float(band.flux_lambda_to_fnu(mean))
         curve = 1e3 * scale * flam_to_fnu(scale_geo * blackbody_flux_lambda(wl, teff), wl)
         ax.plot(wl, curve, "--", color="0.45", lw=1.0, label=f"best blackbody {teff:.0f} K ({_MODE_NAMES[bb.mode]})")
+    from matplotlib.ticker import FuncFormatter
+
     ax.set_xscale("log")
     ax.set_yscale("log")
+    plain = FuncFormatter(lambda v, _pos: f"{v:g}")
+    for axis in (ax.xaxis, ax.yaxis):
+        axis.set_major_formatter(plain)
+        axis.set_minor_formatter(FuncFormatter(lambda v, _pos: f"{v:g}" if f"{v:.0e}"[0] in "2356" else ""))
     ax.set_xlabel("wavelength [µm]")
     ax.set_ylabel("flux density f_ν [mJy]")
     title = f"{result.target}: best templates, {ranking.source} ({_MODE_NAMES[ranking.mode]})"
@@ -181,6 +195,12 @@ def plot_type_probability(result: Classification, path) -> Path:
         else:
             ax.plot(codes, r.grid["probability"], "D", color=colour, ms=6, label=label)
         plotted = True
+    visible = [r.grid["type_code"][r.grid["probability"] > 1e-3 * r.grid["probability"].max()]
+               for r in result.rankings if np.any(np.isfinite(r.grid["type_code"]))]
+    if visible:
+        lo = min(np.nanmin(v) for v in visible if v.size)
+        hi = max(np.nanmax(v) for v in visible if v.size)
+        ax.set_xlim(lo - 1.5, hi + 1.5)
     if not plotted:
         ax.text(0.5, 0.5, "no template with a spectral type was ranked", ha="center", va="center",
                 transform=ax.transAxes)
