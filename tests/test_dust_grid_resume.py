@@ -60,10 +60,13 @@ def run_and_kill(cmd, store: Path, kill_after_parts: int, extra_delay: float, dr
                 if driver_only:
                     proc.kill()
                     proc.wait()
-                    limit = time.monotonic() + 10.0
+                    limit = time.monotonic() + 20.0      # workers poll their parent every 0.5 s; slack for load
                     while group_alive(proc.pid) and time.monotonic() < limit:
                         time.sleep(0.05)
-                    assert not group_alive(proc.pid), "worker processes outlived their killed driver"
+                    if group_alive(proc.pid):
+                        ps = subprocess.run(["ps", "-o", "pid,ppid,stat,etime,args", "-g", str(proc.pid)],
+                                            capture_output=True, text=True).stdout
+                        raise AssertionError(f"processes outlived their killed driver:\n{ps}")
                 else:
                     os.killpg(proc.pid, signal.SIGKILL)
                     proc.wait()
@@ -114,5 +117,6 @@ def test_sigkilled_cli_runs_resume_to_the_uninterrupted_store(tmp_path, rng):
     final, reference = read_sorted(store), read_sorted(tmp_path / "reference")
     assert final["key"].is_unique
     np.testing.assert_array_equal(final["key"], np.arange(spec.n_points))
-    assert final.equals(reference)           # same keys, bit-identical values
+    for column in reference.columns:         # same keys, bit-identical values
+        np.testing.assert_array_equal(final[column].to_numpy(), reference[column].to_numpy(), err_msg=column)
     assert not list((store / "parts").glob(".*"))

@@ -53,16 +53,22 @@ __all__ = [
     "OffsetMarginal",
     "offset_marginal",
     "MAG_PER_LN",
-    "U_NODES",
+    "U_COARSE",
+    "U_FINE",
 ]
 
 #: 2.5 / ln 10: magnitudes per natural-log unit of flux.
 MAG_PER_LN = 2.5 / math.log(10.0)
 
-#: Nodes of the numerical offset integral, in units of the detections' own
-#: posterior width around its centre. Upper limits only ever push the offset
-#: towards fainter (positive) values, hence the asymmetric range.
-U_NODES = np.linspace(-9.0, 31.0, 321)
+#: Numerical offset integral, in units u of the detections' own posterior
+#: width s around its centre m (delta = m + s u). Stage 1, (first, last,
+#: nodes): a coarse grid from u = -9 to max(31, u_lim + 12), where u_lim is
+#: where the template's flux reaches its upper limits (limits only push the
+#: offset towards fainter values), locates the peak of the integrand. Stage 2,
+#: (half width, nodes): a fine grid of +-12 around that peak (step 1/16; the
+#: integrand is at most as wide as the unit Gaussian) gives the integral.
+U_COARSE = (-9.0, 31.0, 481)
+U_FINE = (12.0, 385)
 
 _LN_2PI = math.log(2.0 * math.pi)
 
@@ -171,27 +177,42 @@ def _one_av(model, observed, detected, weight, prior, limits, shift, numeric):
                 mass = np.log(np.clip(ndtr((hi - m) / s) - ndtr((lo - m) / s), 0.0, None))
             return ln_base + mass, chi2_g, np.clip(m, lo, hi), s
         return ln_base, chi2_g, m, s
-    # numerical integral over delta = m + s u with standard-normal weights
-    u = U_NODES
-    delta = m[:, None] + s[:, None] * u[None, :]                     # [n_t, n_u]
-    log_g = np.zeros_like(delta)
+    # numerical integral over delta = m + s u, two stages (see U_COARSE)
+    lim = ~detected
+    lim_args = None
+    reach = np.zeros(n_t)
     if limits is not None:
-        lim = ~detected
         lim_flux, lim_noise, zero_point, scatter = limits
-        log_g = _limits_ln_prob(delta, shifted[:, None, lim], lim_flux[lim], lim_noise[lim],
-                                zero_point[lim], scatter[:, None, lim])
+        lim_args = (shifted[:, None, lim], lim_flux[lim], lim_noise[lim], zero_point[lim], scatter[:, None, lim])
+        # offset at which each template's flux reaches its limits, in units of s
+        delta_lim = -2.5 * np.log10(lim_flux[lim] / zero_point[lim])[None, :] - shifted[:, lim]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            reach = np.where(s > 0, (delta_lim.max(axis=1) - m) / np.where(s > 0, s, 1.0), 0.0)
     if isinstance(prior, FlatOffset):
         lo, hi = prior.bounds(n_t)
-        inside = (delta >= lo[:, None]) & (delta <= hi[:, None])
-        log_g = np.where(inside, log_g, -np.inf)
-    log_phi = -0.5 * u**2
-    log_w = log_phi - logsumexp(log_phi)                              # normalised node weights
-    with np.errstate(divide="ignore"):
-        ln_mass = logsumexp(log_g + log_w[None, :], axis=1)
-    objective = u[None, :] ** 2 - 2.0 * log_g                         # chi2 - chi2_g along delta
-    best = np.argmin(objective, axis=1)
+
+    def log_h(u):
+        delta = m[:, None] + s[:, None] * u
+        out = -0.5 * u**2
+        if lim_args is not None:
+            out = out + _limits_ln_prob(delta, *lim_args)
+        if isinstance(prior, FlatOffset):
+            out = np.where((delta >= lo[:, None]) & (delta <= hi[:, None]), out, -np.inf)
+        return out, delta
+
+    top = np.clip(np.maximum(U_COARSE[1], reach + 12.0), None, 1e4)
+    coarse = U_COARSE[0] + (top - U_COARSE[0])[:, None] * np.linspace(0.0, 1.0, U_COARSE[2])[None, :]
+    h_coarse, _ = log_h(coarse)
     rows = np.arange(n_t)
-    chi2 = chi2_g + objective[rows, best]
+    centre = coarse[rows, np.argmax(h_coarse, axis=1)]
+    fine = centre[:, None] + np.linspace(-U_FINE[0], U_FINE[0], U_FINE[1])[None, :]
+    h, delta = log_h(fine)
+    du = fine[:, 1] - fine[:, 0]
+    with np.errstate(divide="ignore"):
+        ln_mass = logsumexp(h, axis=1) + np.log(du) - 0.5 * _LN_2PI
+    best = np.argmax(h, axis=1)
+    # chi2 along delta: chi2_g + u^2 - 2 sum ln P
+    chi2 = chi2_g - 2.0 * h[rows, best]
     return ln_base + ln_mass, chi2, delta[rows, best], s
 
 
@@ -242,7 +263,8 @@ def offset_marginal(model, observed, sigma_obs, detected, template_scatter, prio
            + ln[Phi((b - m) sqrt A) - Phi((a - m) sqrt A)],  m = B/A.
     With limits, the Gaussian part fixes the integration variable
     delta = m + s u (s its posterior width) and the limits' probabilities are
-    averaged over u with normal weights on :data:`U_NODES` (log-sum-exp).
+    integrated over u against the normal density on a grid that follows the
+    integrand's peak (:data:`U_COARSE`, :data:`U_FINE`; log-sum-exp).
     """
     model = np.asarray(model, dtype=float)
     if model.ndim != 2:

@@ -73,8 +73,9 @@ def format_classification(result: Classification, top: int = 8) -> str:
         dist = (f"host distance {phot.distance_pc:.4g} ± {phot.distance_pc_error:.2g} pc "
                 f"(distance modulus {phot.distance_modulus:.3f} ± {phot.distance_modulus_error:.3f})"
                 if math.isfinite(phot.distance_pc) else "no distance")
-        lines.append(f"photometry: {len(phot.rows)} bands ({len(phot.rows) - n_lim} detections, "
-                     f"{n_lim} upper limits); {dist}")
+        n_det = len(phot.rows) - n_lim
+        lines.append(f"photometry: {len(phot.rows)} bands ({n_det} detection{'s' * (n_det != 1)}, "
+                     f"{n_lim} upper limit{'s' * (n_lim != 1)}); {dist}")
     lines.append("")
     est = result.estimate
     if est is not None:
@@ -148,6 +149,9 @@ def write_classification(result: Classification, folder, csv: bool = False) -> l
         for final, fmt, tab, kw in plans:
             fd, tmp = tempfile.mkstemp(prefix=f".{final.name}.", suffix=".tmp", dir=folder)
             os.close(fd)
+            umask = os.umask(0)
+            os.umask(umask)
+            os.chmod(tmp, 0o666 & ~umask)
             temps.append((Path(tmp), final))
             tab.write(tmp, format=fmt, overwrite=True, **kw)
         for tmp, final in temps:

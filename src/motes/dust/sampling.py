@@ -47,7 +47,7 @@ class SizeSampling:
     the others get a midpoint rule in ``ln t`` with relative step
     (``h / t``)::
 
-        c(t) = min(c_max, c0 * max(1, t / t_knee)**growth)
+        c(t) = min(c_max, c0 * max(1, t / t_knee)**growth * max(1, t / t_knee2)**(growth2 - growth))
 
     and ``c = c_max`` where the grain is opaque (``k t > opaque_kt``: internal
     rays are absorbed, the ripple structure is gone and the integrand is smooth).
@@ -56,8 +56,9 @@ class SizeSampling:
     ----------
     c0 : float
         Relative step up to ``t_knee``.
-    t_knee : float
-    growth : float
+    t_knee, t_knee2 : float
+    growth, growth2 : float
+        Growth of the step above ``t_knee`` and above ``t_knee2``.
     c_max : float
         Largest relative step (smooth integrand).
     opaque_kt : float
@@ -73,6 +74,8 @@ class SizeSampling:
     c0: float = 1e-4
     t_knee: float = 100.0
     growth: float = 0.5
+    t_knee2: float = 1000.0
+    growth2: float = 1.0
     c_max: float = 0.0125
     opaque_kt: float = 4.0
     smooth_below: float = 2.0
@@ -80,7 +83,8 @@ class SizeSampling:
     bin_width: float = 0.05
 
     def __post_init__(self):
-        if not (self.c0 > 0 and self.t_knee > 0 and self.growth >= 0 and self.c_max >= self.c0
+        if not (self.c0 > 0 and 0 < self.t_knee <= self.t_knee2 and 0 <= self.growth <= self.growth2
+                and self.c_max >= self.c0
                 and self.opaque_kt > 0 and self.smooth_below > 0 and self.gauss_nodes >= 1
                 and 0 < self.bin_width <= 0.5):
             raise InputError(f"invalid size sampling {self!r}")
@@ -93,7 +97,8 @@ class SizeSampling:
     def relative_step(self, t, k=0.0) -> np.ndarray:
         """Relative midpoint step ``c(t)`` for an index with imaginary part ``k``."""
         t = np.asarray(t, dtype=float)
-        c = np.minimum(self.c_max, self.c0 * np.maximum(1.0, t / self.t_knee) ** self.growth)
+        c = np.minimum(self.c_max, self.c0 * np.maximum(1.0, t / self.t_knee) ** self.growth
+                       * np.maximum(1.0, t / self.t_knee2) ** (self.growth2 - self.growth))
         return np.where(k * t > self.opaque_kt, self.c_max, c)
 
 

@@ -1,22 +1,602 @@
-"""Fast path of the disk-colour model (placeholder while the lookup tables are built).
+"""Fast path of the disk-colour model: cached lookup tables of size integrals.
 
-TEMPORARY: until the tabulated path lands, ``method="fast"`` evaluates the exact
-quadrature, so results are right but slow.
+For ``n(a) ∝ a^-q`` the substitution ``a = t lambda / 2 pi`` turns the size
+integral into (GUIDE section 9; :mod:`motes.dust.model`)::
+
+    integral_{a_min}^{a_max} a^-q pi a^2 Q_sca p da = (lambda/2pi)^(3-q) [C(x_max) - C(x_min)]
+    C(x; m, q) = 1/2 integral_0^x t^-q s(t; m) dt,   s = mean over angles of |S1|^2 + |S2|^2
+
+``C`` does not depend on lambda or on the size limits, so a table of ``C`` over
+(ln n, ln k, ln x) and q turns every wavelength node of every band into two
+interpolations. For the Henyey-Greenstein phase function two channels are
+tabulated instead, ``s = 2 pi t^2 Q_sca`` and ``2 pi t^2 Q_sca g``.
+
+How the table is made
+---------------------
+* Axes: ``ln n`` (step 0.008 from n = 0.8), ``ln(k + 1e-6)`` (step 0.5 from
+  k = 0), ``ln x`` (step 0.05 from x = 0.02 to 1.6e4).
+  Below x = 0.02 the Rayleigh power law ``C ∝ x^(7-q)`` continues the table;
+  above its top a geometric-optics tail with the mean ``s / t^2`` of the top
+  decade (noted in the model's notes when used).
+* Per (n, k) node the integrand is sampled by
+  :func:`motes.dust.sampling.bin_rule` inside every ``ln x`` bin (the same rule
+  as the exact path) and stored as five moments per bin,
+  ``M_j = sum w s (ln t - ln t_c)^j``, so that the bin integral for any q is
+  ``t_c^-q sum_j (-q)^j M_j / j!`` (truncation error below 1e-6).
+* Nodes are built in tiles of 8 x 8 (n, k) nodes, only where the model's
+  mixtures can reach (pure components, mixtures on a 10% simplex lattice,
+  porosity 0-0.95, at every band node, plus an interpolation margin), and
+  cached on disk under ``$MOTES_CACHE_DIR`` (default ``~/.cache/motes``),
+  keyed by a hash of the geometry, the axes, the sampling rule, the format
+  version and the miepython version. Files are written to a temporary name
+  and renamed. A tile missing at evaluation time is built then.
+* Evaluation: C for the q grid (step 0.1) is assembled from the moments when
+  first needed; values are interpolated with 4-point Lagrange polynomials in
+  q, ln n, ln k and ln x (a compiled loop over the batch).
+
+Accuracy against the converged exact path is measured by the tests and by
+``benchmarks/bench_optics.py`` (``docs/optics.md`` has the figures).
 """
 
 from __future__ import annotations
 
-__all__ = ["table_for_model"]
+import hashlib
+import json
+import math
+import os
+import sys
+import tempfile
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import numba
+import numpy as np
+
+from .. import __version__
+from ..errors import ModelError
+from ..optics import mie
+from .sampling import SizeSampling, bin_rule
+
+__all__ = [
+    "FORMAT_VERSION",
+    "TableSpec",
+    "LookupTable",
+    "cache_directory",
+    "table_for_model",
+]
+
+FORMAT_VERSION = 1
+_N_MOMENTS = 5
+_FACTORIALS = np.array([math.factorial(j) for j in range(_N_MOMENTS)], dtype=float)
 
 
-class _ExactStandIn:
-    def __init__(self, model):
+def cache_directory() -> Path:
+    """Folder of motes' caches: ``$MOTES_CACHE_DIR`` or ``~/.cache/motes``."""
+    env = os.environ.get("MOTES_CACHE_DIR")
+    return Path(env).expanduser() if env else Path.home() / ".cache" / "motes"
+
+
+@dataclass(frozen=True)
+class TableSpec:
+    """Axes and sampling of a lookup table (all grids uniform in the log).
+
+    Parameters
+    ----------
+    n_min, dln_n, n_count : float, float, int
+        ``n_i = n_min exp(i dln_n)``.
+    k_shift, dln_k, k_count : float, float, int
+        ``k_j = k_shift (exp(j dln_k) - 1)``: uniform in ``ln(k + k_shift)``, so
+        that k = 0 is a node, the grid is linear in k well below ``k_shift``
+        (where absorption hardly matters) and logarithmic above.
+    x_min, dln_x, x_count : float, float, int
+        Size-parameter nodes ``x_l = x_min exp(l dln_x)``.
+    q_min, q_step, q_count : float, float, int
+        q grid on which C is assembled and interpolated.
+    tile : int
+        Tiles hold ``tile x tile`` (n, k) nodes.
+    sampling : SizeSampling
+        Quadrature rule inside the x bins.
+    """
+
+    n_min: float = 0.8
+    dln_n: float = 0.008
+    n_count: int = 290
+    k_shift: float = 1e-6
+    dln_k: float = 0.5
+    k_count: int = 38
+    x_min: float = 0.02
+    dln_x: float = 0.05
+    x_count: int = 273
+    q_min: float = 1.5
+    q_step: float = 0.1
+    q_count: int = 51
+    tile: int = 8
+    sampling: SizeSampling = field(default_factory=SizeSampling)
+
+    @property
+    def ln_n(self) -> np.ndarray:
+        return np.log(self.n_min) + self.dln_n * np.arange(self.n_count)
+
+    @property
+    def k(self) -> np.ndarray:
+        return self.k_shift * np.expm1(self.dln_k * np.arange(self.k_count))
+
+    @property
+    def ln_x(self) -> np.ndarray:
+        return np.log(self.x_min) + self.dln_x * np.arange(self.x_count)
+
+    @property
+    def x_top(self) -> float:
+        return float(np.exp(self.ln_x[-1]))
+
+    @property
+    def q_max(self) -> float:
+        return self.q_min + self.q_step * (self.q_count - 1)
+
+    def key(self, channel_key: str) -> str:
+        """Hash naming the cache folder of this spec for one tabulated quantity."""
+        payload = json.dumps({"spec": asdict(self), "channels": channel_key, "format": FORMAT_VERSION,
+                              "miepython": mie.miepython.__version__}, sort_keys=True)
+        return hashlib.sha256(payload.encode()).hexdigest()[:20]
+
+
+def _channel_key(geometry) -> str:
+    # the Henyey-Greenstein channels do not depend on the angles
+    return "hg" if geometry.phase == "hg" else geometry.key()
+
+
+# ------------------------------------------------------------------- building
+def _channels(geometry, m: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """Integrand channels s(t) [n_channels, n] for indices m (same length as t)."""
+    if geometry.phase == "mie":
+        return mie.scattered_intensity(m, t, geometry.angles_rad)[None, :]
+    e = mie.efficiencies(m, t)
+    base = 2.0 * np.pi * t**2 * e.q_sca
+    return np.stack([base, base * e.g])
+
+
+def _rayleigh_exponents(geometry) -> np.ndarray:
+    # small-x power of s(t): |S|^2 ~ t^6; t^2 Q_sca ~ t^6; t^2 Q_sca g ~ t^8
+    return np.array([6.0]) if geometry.phase == "mie" else np.array([6.0, 8.0])
+
+
+def build_node(spec: TableSpec, geometry, m: complex):
+    """Moments of one (n, k) node.
+
+    Returns
+    -------
+    moments : ndarray[n_channels, x_count - 1, 5]
+        Per bin, ``sum w s (ln t - ln t_c)^j / 2`` (t_c the bin centre).
+    start : ndarray[n_channels]
+        ``s(x_min) / 2``, for the Rayleigh part below the table.
+    tail : ndarray[n_channels]
+        ``mean s / (2 t^2)`` over the top decade, for the tail above the table.
+    """
+    edges = spec.ln_x
+    t, w, owner = bin_rule(edges, spec.sampling, m.imag)
+    mm = np.full(t.size, m)
+    s = 0.5 * _channels(geometry, mm, t)
+    centre = 0.5 * (edges[1:] + edges[:-1])
+    u = np.log(t) - centre[owner]
+    n_bins = edges.size - 1
+    moments = np.empty((s.shape[0], n_bins, _N_MOMENTS))
+    upow = np.ones_like(u)
+    for j in range(_N_MOMENTS):
+        for c in range(s.shape[0]):
+            moments[c, :, j] = np.bincount(owner, w * s[c] * upow, minlength=n_bins)
+        upow = upow * u
+    start = 0.5 * _channels(geometry, np.array([m]), np.array([spec.x_min]))[:, 0]
+    top = t > spec.x_top / 10
+    tail = (w[top] * s[:, top] / t[top] ** 2).sum(axis=1) / w[top].sum()
+    return moments, start, tail
+
+
+def _tile_path(folder: Path, i: int, j: int) -> Path:
+    return folder / f"tile_{i:03d}_{j:03d}.npz"
+
+
+def _write_atomic_npz(path: Path, **arrays) -> None:
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=path.stem + ".", suffix=".tmp.npz")
+    os.close(fd)
+    try:
+        np.savez(tmp, **arrays)
+        os.replace(tmp, path)
+    finally:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+
+
+def build_tile(spec: TableSpec, geometry, i: int, j: int):
+    """Moments of the (n, k) nodes of tile (i, j); returns (moments, start, tail)."""
+    ln_n, kk = spec.ln_n, spec.k
+    rows = range(i * spec.tile, min((i + 1) * spec.tile, spec.n_count))
+    cols = range(j * spec.tile, min((j + 1) * spec.tile, spec.k_count))
+    n_ch = 1 if geometry.phase == "mie" else 2
+    moments = np.zeros((spec.tile, spec.tile, n_ch, spec.x_count - 1, _N_MOMENTS))
+    start = np.zeros((spec.tile, spec.tile, n_ch))
+    tail = np.zeros((spec.tile, spec.tile, n_ch))
+    for a, r in enumerate(rows):
+        for b, c in enumerate(cols):
+            m = complex(np.exp(ln_n[r]), kk[c])
+            moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m)
+    return moments, start, tail
+
+
+# ----------------------------------------------------------------- evaluation
+@numba.njit(cache=True)
+def _lagrange4(f):  # pragma: no cover - compiled
+    return (-f * (f - 1.0) * (f - 2.0) / 6.0,
+            (f + 1.0) * (f - 1.0) * (f - 2.0) / 2.0,
+            -(f + 1.0) * f * (f - 2.0) / 2.0,
+            (f + 1.0) * f * (f - 1.0) / 6.0)
+
+
+@numba.njit(cache=True)
+def _stencil(pos, count):  # pragma: no cover - compiled
+    i = int(np.floor(pos))
+    if i < 1:
+        i = 1
+    if i > count - 3:
+        i = count - 3
+    return i - 1, pos - i
+
+
+@numba.njit(cache=True)
+def _interpolate_batch(C, tail, ray_exp, q_lo, q_step, pn, pk, lx1, lx2, q,
+                       ln_x0, dln_x, out):  # pragma: no cover - compiled
+    """out[c, i] = C(x2) - C(x1) for query i and channel c.
+
+    C: [n_ch, n_q, n_n, n_k, n_x]; tail: [n_ch, n_n, n_k]; pn, pk: fractional
+    positions on the (box-local) n and k axes; lx1, lx2: ln x; q: q values.
+    """
+    n_ch, n_q, n_n, n_k, n_x = C.shape
+    x_top = ln_x0 + dln_x * (n_x - 1)
+    for i in range(q.size):
+        iq, fq = _stencil((q[i] - q_lo) / q_step, n_q)
+        wq = _lagrange4(fq)
+        inn, fn = _stencil(pn[i], n_n)
+        wn = _lagrange4(fn)
+        ik, fk = _stencil(pk[i], n_k)
+        wk = _lagrange4(fk)
+        # x stencils (clamped inside the table; extrapolation handled below)
+        e1 = min(max(lx1[i], ln_x0), x_top)
+        e2 = min(max(lx2[i], ln_x0), x_top)
+        ix1, fx1 = _stencil((e1 - ln_x0) / dln_x, n_x)
+        ix2, fx2 = _stencil((e2 - ln_x0) / dln_x, n_x)
+        wx1 = _lagrange4(fx1)
+        wx2 = _lagrange4(fx2)
+        for c in range(n_ch):
+            v1 = 0.0
+            v2 = 0.0
+            vt = 0.0
+            for a in range(4):
+                for b in range(4):
+                    for d in range(4):
+                        wabd = wq[a] * wn[b] * wk[d]
+                        row = C[c, iq + a, inn + b, ik + d]
+                        s1 = 0.0
+                        s2 = 0.0
+                        for e in range(4):
+                            s1 += wx1[e] * row[ix1 + e]
+                            s2 += wx2[e] * row[ix2 + e]
+                        v1 += wabd * s1
+                        v2 += wabd * s2
+            for b in range(4):
+                for d in range(4):
+                    vt += wn[b] * wk[d] * tail[c, inn + b, ik + d]
+            qi = q[i]
+            # Rayleigh continuation below the table: C ∝ x^(1 + ray_exp - q)
+            if lx1[i] < ln_x0:
+                v1 = v1 * np.exp((1.0 + ray_exp[c] - qi) * (lx1[i] - ln_x0))
+            if lx2[i] < ln_x0:
+                v2 = v2 * np.exp((1.0 + ray_exp[c] - qi) * (lx2[i] - ln_x0))
+            # geometric-optics tail above the table: C += A int t^(2-q) dt
+            for which in range(2):
+                lx = lx1[i] if which == 0 else lx2[i]
+                if lx > x_top:
+                    s = 3.0 - qi
+                    if abs(s) < 1e-9:
+                        extra = vt * (lx - x_top)
+                    else:
+                        extra = vt * (np.exp(s * lx) - np.exp(s * x_top)) / s
+                    if which == 0:
+                        v1 += extra
+                    else:
+                        v2 += extra
+            out[c, i] = v2 - v1
+
+
+class LookupTable:
+    """Tabulated size integrals for one geometry (see the module notes).
+
+    Parameters
+    ----------
+    geometry : ScatteringGeometry
+    spec : TableSpec
+    folder : path, optional
+        Cache folder; default ``cache_directory() / "tables" / spec.key(...)``.
+    progress : bool
+        Show a progress bar (stderr) while building tiles.
+    workers : int, optional
+        Processes used to build missing tiles (default ``$MOTES_TABLE_WORKERS`` or 1).
+    """
+
+    def __init__(self, geometry, spec: TableSpec | None = None, folder=None, progress: bool = True,
+                 workers: int | None = None):
+        self.geometry = geometry
+        self.spec = spec or TableSpec()
+        key = self.spec.key(_channel_key(geometry))
+        self.folder = Path(folder) if folder is not None else cache_directory() / "tables" / key
+        self.progress = progress
+        self.workers = int(workers if workers is not None else os.environ.get("MOTES_TABLE_WORKERS", "1"))
+        self.n_channels = 1 if geometry.phase == "mie" else 2
+        self._ray = _rayleigh_exponents(geometry)
+        self._tiles: dict[tuple[int, int], tuple] = {}
+        self._box = None            # (i0, i1, j0, j1) in tile units
+        self._slices: dict[int, np.ndarray] = {}
+        self._stack = None          # (q_lo_index, array)
+        self.build_seconds = 0.0
+        self.tiles_built = 0
+
+    # -------------------------------------------------------------- tiles
+    def _write_spec(self):
+        self.folder.mkdir(parents=True, exist_ok=True)
+        meta = self.folder / "spec.json"
+        if not meta.exists():
+            payload = json.dumps({"spec": asdict(self.spec), "geometry": _channel_key(self.geometry),
+                                  "format": FORMAT_VERSION, "motes": __version__,
+                                  "miepython": mie.miepython.__version__}, indent=1, sort_keys=True)
+            fd, tmp = tempfile.mkstemp(dir=self.folder, suffix=".tmp")
+            with os.fdopen(fd, "w") as fh:
+                fh.write(payload)
+            os.replace(tmp, meta)
+
+    def _load_or_build(self, tiles) -> None:
+        import time
+
+        todo = []
+        for ij in tiles:
+            if ij in self._tiles:
+                continue
+            path = _tile_path(self.folder, *ij)
+            if path.exists():
+                try:
+                    with np.load(path) as z:
+                        if int(z["format"]) == FORMAT_VERSION:
+                            self._tiles[ij] = (z["moments"], z["start"], z["tail"])
+                            continue
+                except (OSError, ValueError, KeyError):
+                    pass  # unreadable or foreign: rebuild
+            todo.append(ij)
+        if not todo:
+            return
+        self._write_spec()
+        bar = None
+        if self.progress:
+            from tqdm import tqdm
+
+            bar = tqdm(total=len(todo), desc="motes: building optics lookup tiles", unit="tile",
+                       file=sys.stderr, leave=False)
+        t0 = time.perf_counter()
+        for ij, (moments, start, tail) in self._built(todo):
+            _write_atomic_npz(_tile_path(self.folder, *ij), moments=moments, start=start, tail=tail,
+                              format=np.int64(FORMAT_VERSION))
+            self._tiles[ij] = (moments, start, tail)
+            self.tiles_built += 1
+            if bar is not None:
+                bar.update(1)
+        if bar is not None:
+            bar.close()
+        self.build_seconds += time.perf_counter() - t0
+
+    def _built(self, todo):
+        """Yield (tile, arrays) for the tiles in ``todo``, in worker processes if asked."""
+        if self.workers <= 1 or len(todo) == 1:
+            for ij in todo:
+                yield ij, build_tile(self.spec, self.geometry, *ij)
+            return
+        import concurrent.futures
+        import multiprocessing
+
+        method = "fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn"
+        with concurrent.futures.ProcessPoolExecutor(
+                max_workers=self.workers, mp_context=multiprocessing.get_context(method)) as pool:
+            futures = {pool.submit(build_tile, self.spec, self.geometry, *ij): ij for ij in todo}
+            for fut in concurrent.futures.as_completed(futures):
+                yield futures[fut], fut.result()
+
+    def tiles_for(self, m) -> set:
+        """Tiles whose nodes an interpolation at indices ``m`` touches."""
+        pn, pk = self._positions(np.asarray(m).ravel())
+        t = self.spec.tile
+        tiles = set()
+        for dn in (-1, 0, 1, 2):
+            for dk in (-1, 0, 1, 2):
+                i = np.clip(np.floor(pn).astype(int) + dn, 0, self.spec.n_count - 1) // t
+                j = np.clip(np.floor(pk).astype(int) + dk, 0, self.spec.k_count - 1) // t
+                tiles.update(zip(i.tolist(), j.tolist()))
+        return tiles
+
+    def _positions(self, m):
+        """Fractional positions of indices on the global n and k axes."""
+        spec = self.spec
+        n, k = m.real, np.maximum(m.imag, 0.0)
+        pn = (np.log(n) - np.log(spec.n_min)) / spec.dln_n
+        pk = np.log1p(k / spec.k_shift) / spec.dln_k
+        bad = (pn < 1) | (pn > spec.n_count - 3) | (pk > spec.k_count - 3)
+        if bad.any():
+            b = m[bad][0]
+            raise ModelError(
+                f"effective index {b.real:.4g} + {b.imag:.4g}i lies outside the fast path's table "
+                f"(n {spec.n_min * np.exp(spec.dln_n):.3g}-{spec.n_min * np.exp(spec.dln_n * (spec.n_count - 3)):.3g}, "
+                f"k <= {spec.k[-3]:.3g}); use method='exact'")
+        return pn, pk
+
+    def ensure(self, m) -> None:
+        """Load or build every tile needed for indices ``m`` (any shape)."""
+        tiles = self.tiles_for(m)
+        missing = [ij for ij in tiles if ij not in self._tiles]
+        if missing:
+            self._load_or_build(sorted(missing))
+        i = [ij[0] for ij in self._tiles]
+        j = [ij[1] for ij in self._tiles]
+        box = (min(i), max(i) + 1, min(j), max(j) + 1)
+        if box != self._box:
+            self._box = box
+            self._slices.clear()
+            self._stack = None
+        elif missing:
+            self._slices.clear()
+            self._stack = None
+
+    # -------------------------------------------------------------- q slices
+    def _slice(self, iq: int) -> np.ndarray:
+        """C on the box for q = q_min + iq q_step: [n_ch, n_n, n_k, n_x]."""
+        if iq in self._slices:
+            return self._slices[iq]
+        spec = self.spec
+        q = spec.q_min + iq * spec.q_step
+        i0, i1, j0, j1 = self._box
+        t = spec.tile
+        out = np.full((self.n_channels, (i1 - i0) * t, (j1 - j0) * t, spec.x_count), np.nan)
+        edges = spec.ln_x
+        centre = 0.5 * (edges[1:] + edges[:-1])
+        coef = (-q) ** np.arange(_N_MOMENTS) / _FACTORIALS           # [5]
+        scale = np.exp(-q * centre)                                   # [bins]
+        for (i, j), (moments, start, tail) in self._tiles.items():
+            bins = (moments @ coef) * scale                           # [t, t, ch, bins]
+            c0 = start * spec.x_min ** (1.0 - q) / (1.0 + self._ray - q)   # [t, t, ch]
+            cum = np.concatenate([c0[..., None], c0[..., None] + np.cumsum(bins, axis=-1)], axis=-1)
+            a, b = (i - i0) * t, (j - j0) * t
+            out[:, a:a + t, b:b + t, :] = np.moveaxis(cum, 2, 0)
+        self._slices[iq] = out
+        return out
+
+    def _tail_box(self) -> np.ndarray:
+        spec, t = self.spec, self.spec.tile
+        i0, i1, j0, j1 = self._box
+        out = np.full((self.n_channels, (i1 - i0) * t, (j1 - j0) * t), np.nan)
+        for (i, j), (_, _, tail) in self._tiles.items():
+            out[:, (i - i0) * t:(i - i0 + 1) * t, (j - j0) * t:(j - j0 + 1) * t] = np.moveaxis(tail, 2, 0)
+        return out
+
+    def _stacked(self, q) -> tuple[int, np.ndarray]:
+        spec = self.spec
+        lo = int(np.floor((q.min() - spec.q_min) / spec.q_step)) - 1
+        hi = int(np.floor((q.max() - spec.q_min) / spec.q_step)) + 3
+        lo, hi = max(lo, 0), min(hi, spec.q_count)
+        if self._stack is not None:
+            slo, arr = self._stack
+            if slo <= lo and slo + arr.shape[1] >= hi:
+                return self._stack
+            lo, hi = min(lo, slo), max(hi, slo + arr.shape[1])
+        arr = np.ascontiguousarray(np.stack([self._slice(iq) for iq in range(lo, hi)], axis=1))
+        self._stack = (lo, arr)
+        return self._stack
+
+    # -------------------------------------------------------------- evaluate
+    def integrals(self, m, x1, x2, q) -> np.ndarray:
+        """``C(x2) - C(x1)`` per channel for flattened queries.
+
+        Parameters
+        ----------
+        m : complex ndarray[n]
+        x1, x2 : ndarray[n]
+        q : ndarray[n]
+
+        Returns
+        -------
+        ndarray[n_channels, n]
+        """
+        m = np.asarray(m, dtype=complex).ravel()
+        q = np.asarray(q, dtype=float).ravel()
+        spec = self.spec
+        if (q < spec.q_min + spec.q_step).any() or (q > spec.q_max - 2 * spec.q_step).any():
+            raise ModelError(f"q must lie in [{spec.q_min + spec.q_step:g}, {spec.q_max - 2 * spec.q_step:g}] "
+                             "for the fast path; use method='exact'")
+        self.ensure(m)
+        pn, pk = self._positions(m)
+        i0, _, j0, _ = self._box
+        pn = pn - i0 * spec.tile
+        pk = pk - j0 * spec.tile
+        q_lo, stack = self._stacked(q)
+        out = np.empty((self.n_channels, m.size))
+        _interpolate_batch(stack, np.ascontiguousarray(self._tail_box()), self._ray,
+                           spec.q_min + q_lo * spec.q_step, spec.q_step, pn, pk,
+                           np.log(np.asarray(x1, dtype=float).ravel()), np.log(np.asarray(x2, dtype=float).ravel()),
+                           q, np.log(spec.x_min), spec.dln_x, out)
+        if not np.isfinite(out).all():
+            raise ModelError("the fast path hit an unbuilt part of its table (internal error)")
+        return out
+
+
+class ModelTable:
+    """The fast path bound to one :class:`~motes.dust.model.DiskColourModel`."""
+
+    def __init__(self, model, table: LookupTable):
         self.model = model
+        self.table = table
 
-    def node_values(self, m, wavelength, a_min, q, a_max):
-        return self.model.node_values_exact(m, wavelength, a_min, q, a_max)
+    def node_values(self, m, wavelength, a_min, q, a_max) -> np.ndarray:
+        """Monochromatic flux ratios R at the band nodes, ``ndarray[N, L]``."""
+        from ..optics.sizes import power_law_cross_section
+
+        m = np.asarray(m, dtype=complex)
+        n_pts, n_lam = m.shape
+        lam = np.asarray(wavelength, dtype=float)[None, :]
+        a_min = np.asarray(a_min, dtype=float)[:, None]
+        a_max = np.asarray(a_max, dtype=float)[:, None]
+        q2 = np.broadcast_to(np.asarray(q, dtype=float)[:, None], (n_pts, n_lam))
+        wn = 2 * np.pi / lam
+        ints = self.table.integrals(m, (wn * a_min).ravel(), (wn * a_max).ravel(), q2.ravel())
+        ints = ints.reshape(self.table.n_channels, n_pts, n_lam)
+        if self.model.geometry.phase == "mie":
+            value = ints[0]
+        else:
+            value = ints[0] * self.model.geometry.hg_phase(ints[1] / ints[0])
+        norm = power_law_cross_section(a_min[:, 0], a_max[:, 0], np.asarray(q, dtype=float))
+        return (lam / (2 * np.pi)) ** (3.0 - q2) * value / norm[:, None]
 
 
-def table_for_model(model):
-    """Lookup table serving ``model`` (placeholder: exact evaluation)."""
-    return _ExactStandIn(model)
+def reachable_indices(model, porosity_max: float = 0.95, step: float = 0.1) -> np.ndarray:
+    """Effective indices of the model's mixtures over a lattice of the parameter space.
+
+    Fractions on a simplex lattice of ``step`` (vertices included) times
+    porosity 0..``porosity_max``, at every band node. Used to decide which
+    table tiles to build in advance.
+    """
+    k = len(model.materials)
+    div = int(round(1 / step))
+    combos = [c for c in _compositions(div, k)]
+    f = np.asarray(combos, dtype=float) / div
+    por = np.linspace(0.0, porosity_max, int(round(porosity_max / step)) + 1)
+    ff = np.repeat(f, por.size, axis=0)
+    pp = np.tile(por, f.shape[0])
+    return model.effective_index(ff, pp)
+
+
+def _compositions(total: int, parts: int):
+    if parts == 1:
+        yield (total,)
+        return
+    for first in range(total + 1):
+        for rest in _compositions(total - first, parts - 1):
+            yield (first,) + rest
+
+
+_TABLES: dict[tuple, LookupTable] = {}
+
+
+def table_for_model(model, spec: TableSpec | None = None, progress: bool = True) -> ModelTable:
+    """The fast path for ``model``: loads cached tiles, builds the missing ones.
+
+    Tables are shared between models of the same geometry in one process.
+    """
+    spec = spec or model.table_spec or TableSpec()
+    key = (_channel_key(model.geometry), spec)
+    table = _TABLES.get(key)
+    if table is None:
+        table = LookupTable(model.geometry, spec, progress=progress)
+        _TABLES[key] = table
+    table.ensure(reachable_indices(model))
+    return ModelTable(model, table)

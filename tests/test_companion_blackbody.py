@@ -1,0 +1,61 @@
+"""Blackbody templates against an independent integration.
+
+Reference: astropy's BlackBody model (astropy.modeling.physical_models,
+Planck's law) integrated over each filter curve with scipy.integrate.quad,
+<F_lambda> = int B_lambda S lambda^p dlambda / int S lambda^p dlambda with
+p = 1 for a photon-counting detector and a per-photon curve, 0 for an
+energy-response curve (the convention of motes.photometry.bands, module notes).
+Colours are compared, so Vega zero points cancel only through motes' own Vega
+average, which the photometry tests check separately.
+"""
+
+from __future__ import annotations
+
+import math
+
+import astropy.units as u
+import numpy as np
+import pytest
+from astropy.modeling.physical_models import BlackBody
+from scipy.integrate import quad
+
+from motes.companion import BlackbodySet
+from motes.photometry import get_band, top_hat_band
+
+BANDS = ("2MASS.J", "2MASS.Ks", "WISE.W2", "Johnson.V")
+
+
+def _quad_mean_flux(band, teff):
+    """pi x band average of astropy's B_lambda: quad over each linear segment of the curve."""
+    bb = BlackBody(temperature=teff * u.K, scale=1.0 * u.W / (u.m**2 * u.um * u.sr))
+    unit = u.W / (u.m**2 * u.um * u.sr)
+    p = (1 if band.counting == "photon" else 0) - (1 if band.response == "energy" else 0)
+    wl, tr = band.wavelength, band.throughput
+    num = den = 0.0
+    for a, b, ta, tb in zip(wl[:-1], wl[1:], tr[:-1], tr[1:]):
+        if ta == 0 and tb == 0:
+            continue
+        curve = lambda x: (ta + (tb - ta) * (x - a) / (b - a)) * x**p  # the curve is linear between nodes
+        num += quad(lambda x: float(bb(x * u.um).to_value(unit)) * curve(x), a, b, epsrel=1e-11)[0]
+        den += quad(curve, a, b, epsrel=1e-12)[0]
+    return math.pi * num / den
+
+
+@pytest.mark.parametrize("teff", [700.0, 3500.0])
+def test_blackbody_colours_match_astropy_and_quad(teff):
+    bands = [get_band(n) for n in BANDS] + [top_hat_band("Lp_test", 3.75, 0.7)]
+    grid = BlackbodySet(teffs=[teff, 2 * teff]).grid(bands)
+    mags = grid.magnitudes[0]
+    ref = np.array([float(b.vega_magnitude_of(_quad_mean_flux(b, teff))) for b in bands])
+    # absolute level differs only by the (R/10 pc)^2 dilution: compare colours
+    np.testing.assert_allclose(mags - mags[0], ref - ref[0], rtol=0, atol=2e-4)
+
+
+def test_blackbody_has_no_absolute_scale_without_radius():
+    bands = [get_band("2MASS.J"), get_band("2MASS.Ks")]
+    assert not BlackbodySet().grid(bands).absolute.any()
+    with_radius = BlackbodySet(radius_rjup=1.0).grid(bands)
+    assert with_radius.absolute.all()
+    # a 2x larger radius is 5 log10(2) = 1.505 mag brighter
+    bigger = BlackbodySet(radius_rjup=2.0).grid(bands)
+    np.testing.assert_allclose(with_radius.magnitudes - bigger.magnitudes, 5 * math.log10(2), atol=1e-9)
