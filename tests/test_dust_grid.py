@@ -17,6 +17,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from motes.dust.compositions import SimplexGrid, count_compositions
+from motes.dust.sampling import SizeSampling
 from motes.dust.grid import AXES, parse_grid_description, read_grid_description
 from motes.dust.gridrun import GridEvaluator, GridRunSettings, describe_dry_run, run_grid
 from motes.dust.gridstore import GridStore
@@ -85,28 +86,44 @@ def grid_text(materials=("silica", "carbon", "ice"), step="0.1", porosity="[0.0,
 
 REAL_MODEL = """
 [model]
-method = "exact"          # tiny settings: one wavelength node per band, grains up to 10 um
+method = "exact"          # one wavelength node per band, grains up to 10 um
 wavelength_nodes = 1
 a_max = 10.0
 """
 
+#: Coarse size quadrature: the real Mie model at a tiny fraction of its converged cost (colours
+#: off by up to a few per cent; these tests check the grid machinery, not the optics).
+TINY_SIZES = SizeSampling(c0=0.03, c_max=0.1, t_knee=10.0, t_knee2=10.0, growth=0.0, growth2=0.0,
+                          gauss_nodes=2, bin_width=0.5)
+
+
+def tiny_real_factory(spec, observations):
+    """The real DiskColourModel of the description, with the coarse size quadrature TINY_SIZES."""
+    from motes.dust.description import parse_model_description
+    from motes.dust.model import DiskColourModel
+
+    d = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
+    return DiskColourModel(d.materials, observations.bands, star_teff=d.star.teff, star_spectrum=d.star.spectrum,
+                           mixing=d.mixing, matrix=d.matrix, geometry=d.geometry, method="exact", a_max=d.a_max,
+                           wavelength_nodes=d.wavelength_nodes, size_sampling=TINY_SIZES)
+
 
 def write_real_grid(folder, rng, step="0.25", chunk_size=4):
-    """A small grid on the real Mie model (exact path, tiny settings) with data drawn from it."""
-    from motes.dust.description import model_from_description
-
+    """A small grid for the real Mie model (use with tiny_real_factory), with data drawn from it."""
     text = grid_text(step=step, porosity="[0.0, 0.5]", a_min="[0.5, 2.0]", extra=f"chunk_size = {chunk_size}\n")
     text = text.replace("[grid]", REAL_MODEL + "\n[grid]")
-    import tomllib
+    path = folder / "grid.toml"
+    path.write_text(text)
+    (folder / "disk.csv").write_text("band,value,error\n" + "".join(f"{b},1,1\n" for b in BANDS))
+    spec = parse_grid_description(text, base_dir=folder)
+    from motes.dust.observations import read_disk_photometry
 
-    model = model_from_description(tomllib.loads(text), bands=BANDS, base_dir=folder)
+    model = tiny_real_factory(spec, read_disk_photometry(folder / "disk.csv"))
     truth = model.flux_ratio(np.array([[0.4, 0.2, 0.4]]), 0.3, 1.2, 3.5)[0]
     error = 0.03 * truth
     value = truth + rng.normal(0.0, 1.0, truth.size) * error
     lines = ["band,value,error"] + [f"{b},{float(v)!r},{float(e)!r}" for b, v, e in zip(BANDS, value, error)]
     (folder / "disk.csv").write_text("\n".join(lines) + "\n")
-    path = folder / "grid.toml"
-    path.write_text(text)
     return path
 
 

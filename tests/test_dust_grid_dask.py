@@ -11,7 +11,7 @@ from motes.dust.grid import read_grid_description
 from motes.dust.gridrun import GridRunSettings, run_grid
 from motes.errors import GridError
 
-from test_dust_grid import grid_file, read_sorted, standin_factory  # noqa: F401  (fixture re-used)
+from test_dust_grid import grid_file, read_sorted, standin_factory, tiny_real_factory, write_real_grid  # noqa: F401
 
 distributed = pytest.importorskip("distributed", reason="Dask distributed is part of the test extra; "
                                                         "install with pip install -e '.[test]'")
@@ -27,11 +27,12 @@ def cluster():
         yield c
 
 
-def test_dask_cluster_gives_the_same_store_as_local_processes(grid_file, tmp_path, cluster):  # noqa: F811
-    spec = read_grid_description(grid_file)
-    run_grid(spec, tmp_path / "local", GridRunSettings(workers=2, progress=False), model_factory=standin_factory)
+def test_dask_cluster_gives_the_same_store_as_local_processes(tmp_path, rng, cluster):
+    # the real Mie model (coarse size quadrature), 60 points in 15 chunks
+    spec = read_grid_description(write_real_grid(tmp_path, rng))
+    run_grid(spec, tmp_path / "local", GridRunSettings(workers=2, progress=False), model_factory=tiny_real_factory)
     result = run_grid(spec, tmp_path / "dask", GridRunSettings(scheduler=cluster.scheduler_address, progress=False),
-                      model_factory=standin_factory)
+                      model_factory=tiny_real_factory)
     assert result.where.startswith("Dask scheduler") and result.n_computed == spec.n_points
     local, dask = read_sorted(tmp_path / "local"), read_sorted(tmp_path / "dask")
     assert dask["key"].is_unique and len(dask) == spec.n_points

@@ -1,7 +1,9 @@
 """Crash safety: a grid run killed with SIGKILL several times, then finished, equals an uninterrupted run.
 
-The runs are real subprocesses of ``python -m motes grid`` on the real Mie
-model (exact path, tiny settings). Each is killed (SIGKILL to its whole process
+The runs are real subprocesses running the ``motes grid`` command line (the
+same ``motes.cli.main`` as ``python -m motes``) on the real Mie model with a
+coarse size quadrature (``tiny_real_factory``, patched in as the default model
+factory). Each is killed (SIGKILL to its whole process
 group: the driver and its worker processes) at a different moment, chosen by
 watching the store fill; the store must then hold only whole chunks, and the
 final store must have the same keys and bit-identical values as a run that
@@ -25,7 +27,15 @@ from motes.dust.grid import read_grid_description
 from motes.dust.gridrun import GridRunSettings, run_grid
 from motes.dust.gridstore import GridStore
 
-from test_dust_grid import read_sorted, write_real_grid
+from test_dust_grid import read_sorted, tiny_real_factory, write_real_grid
+
+TESTS = Path(__file__).resolve().parent
+
+# `motes grid` exactly as `python -m motes` runs it, with the real Mie model's size quadrature made coarse
+# (tiny_real_factory) so that a run takes about a second; worker processes get the factory by reference
+_CLI = ("import sys; sys.path.insert(0, {tests!r}); import test_dust_grid as t; "
+        "import motes.dust.gridrun as g; g.build_disk_model = t.tiny_real_factory; "
+        "from motes.cli import main; sys.exit(main(sys.argv[1:]))")
 
 def parts_in(store: Path) -> int:
     parts = store / "parts"
@@ -93,20 +103,20 @@ def check_whole_chunks(store: Path) -> None:
 
 
 def test_sigkilled_cli_runs_resume_to_the_uninterrupted_store(tmp_path, rng):
-    grid = write_real_grid(tmp_path, rng)                    # real Mie model, 60 points in 15 chunks
+    grid = write_real_grid(tmp_path, rng, step="0.1", chunk_size=8)      # 264 points in 33 chunks
     spec = read_grid_description(grid)
-    run_grid(spec, tmp_path / "reference", GridRunSettings(workers=1, progress=False))
+    run_grid(spec, tmp_path / "reference", GridRunSettings(workers=1, progress=False), model_factory=tiny_real_factory)
 
     store = tmp_path / "killed"
 
     def command(workers):
-        return [sys.executable, "-m", "motes", "grid", str(grid), "--output", str(store),
+        return [sys.executable, "-c", _CLI.format(tests=str(TESTS)), "grid", str(grid), "--output", str(store),
                 "--workers", str(workers), "--quiet", "--no-summary"]
 
     kills = 0
     # kill at different moments (right after a part appears, part-way between writes), the driver
     # alone (its worker processes must exit by themselves) or the whole process group
-    for target, delay, driver_only, workers in ((1, 0.0, True, 2), (6, 0.013, False, 1), (11, 0.021, False, 2)):
+    for target, delay, driver_only, workers in ((1, 0.0, True, 2), (11, 0.013, False, 1), (21, 0.021, False, 2)):
         if parts_in(store) < spec.n_chunks:
             kills += run_and_kill(command(workers), store, target, delay, driver_only)
             check_whole_chunks(store)

@@ -308,7 +308,8 @@ def offset_marginal(model, observed, sigma_obs, detected, template_scatter, prio
     total = logsumexp(ln_joint, axis=1)
     best = np.argmin(chi2, axis=1)
     rows = np.arange(n_t)
-    post = np.exp(ln_joint - total[:, None])
+    with np.errstate(invalid="ignore"):
+        post = np.where(np.isfinite(total)[:, None], np.exp(ln_joint - total[:, None]), 0.0)
     return OffsetMarginal(
         ln_evidence=total,
         chi2=chi2[rows, best],

@@ -200,8 +200,12 @@ class DwarfSequence:
             target = mapping.get(band.name, band.name)
             if target != band.name:
                 if target not in SEQUENCE_BANDS:
+                    import difflib
+
+                    close = difflib.get_close_matches(target, SEQUENCE_BANDS, n=2, cutoff=0.6)
+                    hint = f" (did you mean {' or '.join(repr(c) for c in close)}?)" if close else ""
                     raise InputError(
-                        f"cannot map {band.name!r} to {target!r}: the dwarf sequence tabulates only "
+                        f"cannot map {band.name!r} to {target!r}{hint}: the dwarf sequence tabulates only "
                         f"{', '.join(SEQUENCE_BANDS)}"
                     )
                 notes.append(f"{band.name} compared with the sequence's {target} (explicit user mapping)")

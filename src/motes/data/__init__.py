@@ -1,1 +1,6 @@
-"""Data files bundled with motes (read with importlib.resources)."""
+"""Data files bundled with motes (read with importlib.resources).
+
+``dwarf_sequence.txt``: the mean dwarf sequence of :mod:`motes.companion.sequence`.
+"""
+
+__all__: list[str] = []

@@ -15,6 +15,7 @@ Per-material bounds ``lo_j <= c_j <= hi_j`` restrict the set; counting and
 
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import dataclass
 
@@ -88,8 +89,12 @@ class SimplexGrid:
         ways = [[0] * (n + 1) for _ in range(k + 1)]
         ways[k][0] = 1
         for j in range(k - 1, -1, -1):
+            # ways[j][s] = sum_{v = lo..min(hi, s)} ways[j+1][s - v], by prefix sums (exact Python ints)
+            prefix = [0, *itertools.accumulate(ways[j + 1])]          # prefix[t] = sum of ways[j+1][:t]
+            lo, hi = self.lower[j], self.upper[j]
             for s in range(n + 1):
-                ways[j][s] = sum(ways[j + 1][s - v] for v in range(self.lower[j], min(self.upper[j], s) + 1))
+                top, bottom = s - lo, s - hi            # indices of ways[j+1] from bottom..top
+                ways[j][s] = prefix[top + 1] - prefix[max(bottom, 0)] if top >= 0 else 0
         object.__setattr__(self, "_ways_exact", ways)
         total = ways[0][n]
         if total >= _MAX_RANKS:

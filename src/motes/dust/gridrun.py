@@ -462,6 +462,7 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
     the model on one point; only then is the store created (or overwritten).
     """
     check_grid_size(spec, settings)
+    model_factory = model_factory or build_disk_model      # resolved here: workers get it by reference
     observations = read_grid_observations(spec)
     manifest = store_manifest(spec, observations)
     if GridStore.is_store(output) and not settings.overwrite:

@@ -47,10 +47,13 @@ class SizeSampling:
     the others get a midpoint rule in ``ln t`` with relative step
     (``h / t``)::
 
-        c(t) = min(c_max, c0 * max(1, t / t_knee)**growth * max(1, t / t_knee2)**(growth2 - growth))
+        c(t) = min(c_max, c0 * max(1, t / t_knee)**growth * max(1, t / t_knee2)**(growth2 - growth)
+                          * exp(2 k t))
 
     and ``c = c_max`` where the grain is opaque (``k t > opaque_kt``: internal
-    rays are absorbed, the ripple structure is gone and the integrand is smooth).
+    rays are absorbed, the ripple structure is gone and the integrand is
+    smooth). The factor ``exp(2 k t)`` follows the damping of the ripples by
+    absorption along internal rays (amplitude ~ exp(-4 k t cos r) per chord).
 
     Parameters
     ----------
@@ -76,7 +79,7 @@ class SizeSampling:
     growth: float = 0.5
     t_knee2: float = 1000.0
     growth2: float = 1.0
-    c_max: float = 0.0125
+    c_max: float = 0.025
     opaque_kt: float = 4.0
     smooth_below: float = 2.0
     gauss_nodes: int = 3
@@ -97,9 +100,11 @@ class SizeSampling:
     def relative_step(self, t, k=0.0) -> np.ndarray:
         """Relative midpoint step ``c(t)`` for an index with imaginary part ``k``."""
         t = np.asarray(t, dtype=float)
-        c = np.minimum(self.c_max, self.c0 * np.maximum(1.0, t / self.t_knee) ** self.growth
-                       * np.maximum(1.0, t / self.t_knee2) ** (self.growth2 - self.growth))
-        return np.where(k * t > self.opaque_kt, self.c_max, c)
+        kt = k * t
+        c = (self.c0 * np.maximum(1.0, t / self.t_knee) ** self.growth
+             * np.maximum(1.0, t / self.t_knee2) ** (self.growth2 - self.growth)
+             * np.exp(2.0 * np.minimum(kt, self.opaque_kt)))
+        return np.where(kt > self.opaque_kt, self.c_max, np.minimum(self.c_max, c))
 
 
 def bin_rule(edges_ln, sampling: SizeSampling = SizeSampling(), k: float = 0.0):

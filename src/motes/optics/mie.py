@@ -250,7 +250,7 @@ def efficiencies(m, x) -> MieEfficiencies:
     mm, xx, shape = _flat_pairs(m, x)
     out = _efficiency_loop(mm, xx) if xx.size else np.empty((4, 0))
     q_ext, q_sca, q_back, g = (out[i].reshape(shape) for i in range(4))
-    return MieEfficiencies(q_ext=q_ext, q_sca=q_sca, q_abs=q_ext - q_sca, g=g, q_back=q_back)
+    return MieEfficiencies(q_ext=q_ext, q_sca=q_sca, q_abs=np.asarray(q_ext - q_sca), g=g, q_back=q_back)
 
 
 def efficiencies_at(m, radius, wavelength) -> MieEfficiencies:

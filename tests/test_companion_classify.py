@@ -1,0 +1,209 @@
+"""classify(): well-known dwarfs, modes, limits, fallbacks, flags and bad input."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from motes.companion import (
+    ClassifySettings,
+    classify,
+    format_classification,
+    load_dwarf_sequence,
+    photometry_from_magnitudes,
+    type_code,
+    write_classification,
+)
+from motes.errors import FitError, InputError
+from motes.photometry import top_hat_band
+
+# Nearby dwarfs with 2MASS J, H, Ks [mag], 1-sigma [mag], trigonometric parallax [mas] and
+# spectral type. ALL VALUES FROM MEMORY (2MASS All-Sky Point Source Catalog, Skrutskie et al.
+# 2006; parallaxes from Gaia DR3 where available, else the cited ground-based programmes);
+# uncertainties approximate. Note: the built-in sequence's near-infrared values were
+# cross-checked against several of these objects when it was written, so this test checks the
+# whole pipeline (parallax -> distance -> fit) more than the sequence's independence; the
+# independent check is tests/test_companion_reference.py.
+FAMOUS = [
+    # name,                J       H       Ks      err    plx [mas]  type    type source
+    ("Proxima Cen",       5.357,  4.835,  4.384,  0.03,  768.07,   "M5.5"),  # Gaia DR3; Bessell 1991
+    ("Wolf 359",          7.085,  6.482,  6.084,  0.03,  415.2,    "M6"),    # Gaia DR3; Kirkpatrick et al. 1991
+    ("VB 10",             9.908,  9.226,  8.765,  0.03,  168.0,    "M8"),    # Gaia DR3; Kirkpatrick et al. 1991
+    ("TRAPPIST-1",       11.354, 10.718, 10.296,  0.03,   80.21,   "M8"),    # Gaia DR3; Gillon et al. 2016
+    ("2MASS J0036+1821", 12.466, 11.588, 11.058,  0.03,  114.2,    "L3.5"),  # Dahn et al. 2002; Reid et al. 2000
+    ("2MASS J1507-1627", 12.830, 11.895, 11.312,  0.03,  136.4,    "L5"),    # Dahn et al. 2002; Reid et al. 2000
+    ("DENIS J0255-4700", 13.246, 12.204, 11.558,  0.03,  201.4,    "L9"),    # Costa et al. 2006; Kirkpatrick et al. 2008
+    ("SDSS J1254-0122",  14.891, 14.090, 13.837,  0.04,   84.9,    "T2"),    # Dahn et al. 2002; Burgasser et al. 2006
+    ("Gl 570D",          15.324, 15.268, 15.242,  0.10,  171.2,    "T7.5"),  # host Gl 570A, Hipparcos; Burgasser et al. 2006
+    ("2MASS J0415-0935", 15.695, 15.537, 15.429,  0.12,  174.3,    "T8"),    # Vrba et al. 2004; Burgasser et al. 2006
+]
+
+
+@pytest.mark.parametrize("name, j, h, ks, err, plx, sptype", FAMOUS, ids=[f[0] for f in FAMOUS])
+def test_well_known_dwarfs_are_typed_within_one_subtype(name, j, h, ks, err, plx, sptype):
+    d = 1000.0 / plx
+    phot = photometry_from_magnitudes({"2MASS.J": (j, err), "2MASS.H": (h, err), "2MASS.Ks": (ks, err)},
+                                      distance_pc=d, distance_pc_error=0.005 * d, name=name)
+    result = classify(phot)
+    est = result.estimate
+    assert est.mode == "distance" and est.source == "mean dwarf sequence"
+    assert abs(est.median - type_code(sptype)) <= 1.0, f"{name}: {est.label} vs {sptype}"
+    assert result.distance_check is not None
+
+
+def _companion(label="L2", bands=("2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1"), d=30.0, err=0.05,
+               shift=0.0, extra=None, limits=None):
+    seq = load_dwarf_sequence()
+    mu = 5 * math.log10(d / 10)
+    mags = {b: (float(seq.value(b, label)) + mu + shift, err) for b in bands}
+    return photometry_from_magnitudes({**mags, **(extra or {})}, distance_pc=d, distance_pc_error=0.01 * d,
+                                      limits=limits, bands={"Lp": top_hat_band("Lp", 3.75, 0.7)})
+
+
+def test_both_modes_and_the_table():
+    result = classify(_companion())
+    assert result.modes == ("distance", "colours")
+    assert abs(result.estimate.median - type_code("L2")) < 0.5
+    assert result.distance_check.consistent
+    t = result.to_table()
+    assert set(t["mode"]) == {"distance", "colours"} and t["probability"].unit is None
+    for mode in ("distance", "colours"):
+        sub = t[(t["mode"] == mode) & (t["source"] == "mean dwarf sequence")]
+        assert sum(sub["probability"]) == pytest.approx(1.0)
+    text = format_classification(result)
+    assert "caveats" in text and "Young, low-gravity" in text and "distance check" in text
+
+
+def test_background_star_is_flagged():
+    # an M4 dwarf placed 20x farther than the host: colours say M4, the host distance says otherwise
+    phot = _companion("M4", bands=("Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2"),
+                      shift=5 * math.log10(20))
+    result = classify(phot)
+    assert not result.distance_check.consistent
+    assert "background object" in result.distance_check.message
+    assert any("background object" in f for f in result.flags)
+
+
+def test_blackbody_fallback_is_said_and_uses_all_bands():
+    phot = _companion(extra={"Lp": (20.0, 0.1)})
+    result = classify(phot)
+    assert result.blackbody_used
+    bb = result.ranking("blackbody", "colours")
+    assert "Lp" in bb.bands and "Lp" not in result.ranking("sequence", "distance").bands
+    assert any("blackbody fallback used" in n and "Lp" in n for n in result.notes)
+    never = classify(phot, ClassifySettings(blackbody="never"))
+    assert not never.blackbody_used and any("Lp used by no ranking" in n for n in never.notes)
+
+
+def test_explicit_mapping_is_reported():
+    seq = load_dwarf_sequence()
+    kp = top_hat_band("NIRC2.Kp", 2.12, 0.35)
+    mags = {b: (float(seq.value(b, "L4")) + 2.0, 0.05) for b in ("2MASS.J", "2MASS.H")}
+    mags["NIRC2.Kp"] = (float(seq.value("2MASS.Ks", "L4")) + 2.0, 0.05)
+    phot = photometry_from_magnitudes(mags, distance_pc=25.1189, bands={"NIRC2.Kp": kp})
+    plain = classify(phot, ClassifySettings(blackbody="never"))
+    assert "NIRC2.Kp" not in plain.ranking("sequence", "distance").bands
+    mapped = classify(phot, ClassifySettings(band_map=(("NIRC2.Kp", "2MASS.Ks"),)))
+    ranking = mapped.ranking("sequence", "distance")
+    assert "NIRC2.Kp" in ranking.bands and "2MASS.Ks" in ranking.template_bands
+    assert any("explicit user mapping" in n for n in mapped.notes)
+    assert abs(mapped.estimate.median - type_code("L4")) < 1.0
+
+
+def test_upper_limit_rules_out_bright_templates():
+    # a T6 seen in J, H only, with a W2 limit far too faint for a T6 (whose W1-W2 is large):
+    # ranking with the limit must move away from the types the limit excludes
+    seq = load_dwarf_sequence()
+    mu = 5 * math.log10(15 / 10)
+    w2_t6 = float(seq.value("WISE.W2", "T6")) + mu
+    no_limit = classify(_companion("T6", bands=("2MASS.J", "2MASS.H"), d=15.0), ClassifySettings(mode="distance"))
+    limited = classify(_companion("T6", bands=("2MASS.J", "2MASS.H"), d=15.0, limits={"WISE.W2": (w2_t6 - 1.0, 5.0)}),
+                       ClassifySettings(mode="distance"))
+    r = limited.ranking("sequence", "distance")
+    assert "WISE.W2" in r.bands
+    # the limit is 1 mag brighter than T6's W2: consistent with T6, so T6 stays favoured ...
+    assert abs(limited.estimate.median - type_code("T6")) < 1.0
+    # ... while a limit 2 mag fainter than T6's W2 pushes the type away from T6
+    pushed = classify(_companion("T6", bands=("2MASS.J", "2MASS.H"), d=15.0, limits={"WISE.W2": (w2_t6 + 2.0, 5.0)}),
+                      ClassifySettings(mode="distance"))
+    assert abs(pushed.estimate.median - type_code("T6")) > abs(no_limit.estimate.median - type_code("T6"))
+
+
+def test_extinction_is_marginalised():
+    from motes.companion.extinction import extinction_coefficients
+    from motes.photometry import get_band
+
+    bands = ("Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2")
+    coeff = extinction_coefficients([get_band(b) for b in bands])
+    seq = load_dwarf_sequence()
+    mags = {b: (float(seq.value(b, "M3")) + 3.0 + 2.0 * k, 0.03) for b, k in zip(bands, coeff)}
+    phot = photometry_from_magnitudes(mags, distance_pc=39.81)
+    result = classify(phot, ClassifySettings(extinction=True, av_steps=21))
+    best = result.ranking("sequence", "distance").best
+    assert abs(result.estimate.median - type_code("M3")) <= 1.0
+    assert 1.0 < best.av < 3.0
+    assert any("extinction fitted" in n for n in result.notes)
+
+
+def test_write_classification(tmp_path):
+    from astropy.table import Table
+
+    paths = write_classification(classify(_companion()), tmp_path / "out", csv=True)
+    assert [p.suffix for p in paths] == [".ecsv", ".csv"]
+    table = Table.read(paths[0])
+    assert "probability" in table.colnames and table.meta["type_estimate"].startswith("L")
+    assert not list((tmp_path / "out").glob(".*tmp"))
+
+
+# ------------------------------------------------------------------ bad input
+def test_all_upper_limits():
+    phot = photometry_from_magnitudes({}, limits={"2MASS.J": (18.0, 5.0), "2MASS.H": (17.5, 5.0)},
+                                      distance_pc=20.0)
+    with pytest.raises(FitError, match="all 2 bands are upper limits"):
+        classify(phot)
+
+
+def test_too_few_detections_for_the_free_parameters():
+    phot = photometry_from_magnitudes({"2MASS.J": (15.0, 0.05)}, limits={"2MASS.Ks": (14.0, 5.0)})
+    with pytest.raises(FitError, match="1 detection"):
+        classify(phot, ClassifySettings(mode="colours", blackbody="never"))
+
+
+def test_bands_no_template_covers():
+    bands = {"NB1": top_hat_band("NB1", 3.1, 0.05), "NB2": top_hat_band("NB2", 3.3, 0.05)}
+    phot = photometry_from_magnitudes({"NB1": (12.0, 0.1), "NB2": (12.2, 0.1)}, bands=bands)
+    with pytest.raises(FitError, match="covers none of the observed bands"):
+        classify(phot, ClassifySettings(blackbody="never"))
+    # with blackbodies allowed the same input gives a colour temperature, said to be a fallback
+    assert classify(phot).blackbody_used
+
+
+def test_distance_mode_needs_a_distance():
+    phot = photometry_from_magnitudes({"2MASS.J": (15.0, 0.05), "2MASS.Ks": (14.0, 0.05)})
+    with pytest.raises(FitError, match="needs the host's distance"):
+        classify(phot, ClassifySettings(mode="distance"))
+
+
+def test_bad_mapping_and_settings():
+    phot = _companion()
+    with pytest.raises(InputError, match="not in the photometry"):
+        classify(phot, ClassifySettings(band_map=(("NIRC2.Kp", "2MASS.Ks"),)))
+    with pytest.raises(InputError, match="tabulates only"):
+        classify(phot, ClassifySettings(band_map=(("WISE.W1", "MKO.Lp"),)))
+    for bad in (dict(mode="fast"), dict(template_scatter=-0.1), dict(type_range=("T8", "M0")),
+                dict(blackbody="sometimes")):
+        with pytest.raises(InputError):
+            ClassifySettings(**bad)
+
+
+def test_settings_from_toml(tmp_path):
+    path = tmp_path / "s.toml"
+    path.write_text('[classify]\nmode = "colours"\ntemplate_scatter = 0.2\ntype_range = ["M0", "T9"]\n'
+                    '[classify.band_map]\n"NIRC2.Kp" = "2MASS.Ks"\n')
+    s = ClassifySettings.from_toml(path)
+    assert s.mode == "colours" and s.band_map == (("NIRC2.Kp", "2MASS.Ks"),) and s.type_range == (60.0, 89.0)
+    path.write_text('[classify]\nmodes = "colours"\n')
+    with pytest.raises(InputError, match="unknown setting"):
+        ClassifySettings.from_toml(path)
