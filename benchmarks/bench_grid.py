@@ -2,8 +2,10 @@
 
 Problem (issue 6): mixtures of 4 materials (amorphous silica, crystalline water
 ice, amorphous carbon, iron) plus porosity, a_min and q = 3.5, 8 bands between
-0.6 and 4 um, grains up to a_max = 1 mm, Mie phase function at 90 deg, against
-invented disk photometry drawn from the model itself.
+0.6 and 4 um, grains up to a_max = 1 mm, Mie phase function at 90 deg: the
+star, materials, bands and invented photometry of the demo disk
+(``motes/demo/data/disk_grid.toml``, ``disk_photometry.ecsv``), so the fast
+path's lookup tables are shared with the demo.
 
 Stages (each size can be overridden; use small ones for a quick look)::
 
@@ -39,33 +41,21 @@ from pathlib import Path
 
 import numpy as np
 
-MATERIALS = {"silica": "silica_amorphous", "water_ice": "water_ice_crystalline",
-             "carbon": "carbon_amorphous", "iron": "iron"}
-BANDS = ("Cousins.R", "Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "IRAC.I1", "WISE.W2")
-TRUTH = {"fractions": [0.6, 0.3, 0.05, 0.05], "porosity": 0.3, "a_min": 1.5, "q": 3.5}
 GOAL_SECONDS = 120.0
 
 
-def description(photometry: str, divisions: int, n_porosity: int, n_amin: int, method: str = "fast") -> str:
-    mats = "\n".join(f'[[materials]]\nname = "{n}"\nsource = "{s}"\n' for n, s in MATERIALS.items())
-    porosity = [round(x, 6) for x in np.linspace(0.0, 0.7, n_porosity)]
+def demo_text(name: str) -> str:
+    from importlib import resources
+
+    return (resources.files("motes.demo") / "data" / name).read_text()
+
+
+def description(divisions: int, n_porosity: int, n_amin: int, method: str = "fast") -> str:
+    """The demo grid's star, materials, bands and data, with new grid axes."""
+    base = demo_text("disk_grid.toml").split("[grid]")[0].replace('method = "fast"', f'method = "{method}"')
+    porosity = [round(float(x), 6) for x in np.linspace(0.0, 0.7, n_porosity)]
     a_min = [round(float(x), 6) for x in np.geomspace(0.5, 10.0, n_amin)]
-    return f"""
-[data]
-photometry = "{photometry}"
-
-[star]
-teff = 5600.0
-
-{mats}
-[geometry]
-angles_deg = [90.0]
-
-[model]
-method = "{method}"
-a_max = 1000.0
-
-[grid]
+    return base + f"""[grid]
 fraction_step = "1/{divisions}"
 porosity = {porosity}
 a_min = {a_min}
@@ -87,21 +77,12 @@ def grid_shape(target: float) -> tuple[int, int, int]:
 
 
 def write_problem(folder: Path, target: float, method: str = "fast", name: str = "grid") -> Path:
-    """Write photometry (once) and a grid description of about ``target`` points."""
-    phot = folder / "disk.csv"
+    """Write the demo photometry (once) and a grid description of about ``target`` points."""
+    phot = folder / "disk_photometry.ecsv"
     if not phot.exists():
-        from motes.dust.description import model_from_description
-        import tomllib
-
-        doc = tomllib.loads(description("disk.csv", 2, 1, 1, "exact"))
-        model = model_from_description(doc, bands=BANDS, base_dir=folder)
-        truth = model.flux_ratio(np.array([TRUTH["fractions"]]), TRUTH["porosity"], TRUTH["a_min"], TRUTH["q"])[0]
-        value = 2e-3 * truth * (1 + 0.03 * np.random.default_rng(6).normal(size=truth.size))
-        rows = ["band,value,error"] + [f"{b},{float(v)!r},{float(0.03 * 2e-3 * t)!r}"
-                                       for b, v, t in zip(BANDS, value, truth)]
-        phot.write_text("\n".join(rows) + "\n")
+        phot.write_text(demo_text("disk_photometry.ecsv"))
     path = folder / f"{name}.toml"
-    path.write_text(description("disk.csv", *grid_shape(target), method=method))
+    path.write_text(description(*grid_shape(target), method=method))
     return path
 
 
@@ -174,7 +155,7 @@ def main(argv=None) -> int:
     from motes.dust.grid import read_grid_description
     from motes.optics.mie import solver_summary
 
-    print(f"motes grid benchmark: 4 materials + porosity, {len(BANDS)} bands, a_max 1 mm; {os.cpu_count()} cores")
+    print(f"motes grid benchmark: 4 materials + porosity, 8 bands, a_max 1 mm; {os.cpu_count()} cores")
     print(f"Mie solver: {solver_summary()}")
     with tempfile.TemporaryDirectory(prefix="motes-bench-grid-") as tmp:
         tmp = Path(tmp)

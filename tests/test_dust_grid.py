@@ -386,3 +386,38 @@ def test_grid_figures_are_written(grid_file, tmp_path):
     paths = write_grid_figures(summarize_grid(tmp_path / "store"), tmp_path / "figs")
     assert {p.name for p in paths} == {"grid_fraction_profiles.png", "grid_axis_profiles.png", "grid_best_models.png"}
     assert all(p.stat().st_size > 10_000 for p in paths)
+
+
+def test_demo_grid_description_reads_and_counts(tmp_path):
+    from motes.demo import disk_grid
+    from motes.dust.gridrun import read_grid_observations
+
+    disk_grid.write_inputs(tmp_path)
+    spec = read_grid_description(tmp_path / "disk_grid.toml")
+    # bounded compositions of 10 steps: carbon <= 2, iron <= 1, silica and ice free
+    expected = sum(10 - c - i + 1 for c in range(3) for i in range(2))
+    assert spec.n_compositions == expected == 57
+    assert spec.n_points == 57 * 3 * 3 and 100 <= spec.n_points <= 1000     # "a few hundred points"
+    obs = read_grid_observations(spec)
+    assert len(obs.bands) == 8 and "NB3p1" in obs.band_names
+
+
+@pytest.mark.slow
+def test_demo_grid_runs(tmp_path):
+    # slow: the first run builds the fast path's lookup tables (cached on disk afterwards)
+    from motes.demo import disk_grid
+
+    disk_grid.write_inputs(tmp_path)
+    disk_grid.run(tmp_path)
+    store = GridStore.open(tmp_path / "disk_grid_run")
+    assert store.is_complete and (tmp_path / "disk_grid_run" / "summary" / "grid_best_models.png").is_file()
+
+
+def test_scheduler_without_dask_installed_says_how_to_install(grid_file, tmp_path, monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "dask.distributed", None)      # import now raises ImportError
+    with pytest.raises(GridError, match=r"pip install 'motes\[cluster\]'"):
+        run_grid(read_grid_description(grid_file), tmp_path / "store",
+                 quiet(scheduler="tcp://127.0.0.1:8786"), model_factory=standin_factory)
+    assert not (tmp_path / "store").exists()

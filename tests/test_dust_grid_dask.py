@@ -77,3 +77,17 @@ def test_unreachable_scheduler_leaves_an_existing_store_alone(grid_file, tmp_pat
         run_grid(spec, out, GridRunSettings(scheduler=f"tcp://127.0.0.1:{port}", scheduler_timeout=1,
                                             overwrite=True, progress=False), model_factory=standin_factory)
     assert {p.name: p.stat().st_mtime_ns for p in (out / "parts").iterdir()} == before
+
+
+@pytest.mark.slow
+def test_dask_worker_processes_give_the_same_store(tmp_path, rng):
+    # slow: starts two worker processes (each imports motes); the default suite uses threads instead
+    from dask.distributed import LocalCluster
+
+    spec = read_grid_description(write_real_grid(tmp_path, rng))
+    run_grid(spec, tmp_path / "local", GridRunSettings(workers=1, progress=False), model_factory=tiny_real_factory)
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                      dashboard_address=None) as c:
+        run_grid(spec, tmp_path / "dask", GridRunSettings(scheduler=c.scheduler_address, progress=False),
+                 model_factory=tiny_real_factory)
+    assert read_sorted(tmp_path / "local").equals(read_sorted(tmp_path / "dask"))

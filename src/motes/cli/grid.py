@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import sys
 from pathlib import Path
 
 from ..errors import InputError
@@ -111,10 +112,17 @@ def _run(path: Path, args) -> int:
             print(line)
         return 0
     print(f"grid {spec.source}: {spec.describe_count()}")
-    result = run_grid(spec, output, settings)
-    rate = result.points_per_second
-    print(f"computed {result.n_computed:,} points in {result.seconds:.1f} s ({rate:,.1f} points/s, "
-          f"{result.where}); store: {result.store}")
+    print(f"store: {output}")
+    try:
+        result = run_grid(spec, output, settings)
+    except KeyboardInterrupt:
+        print("interrupted: the finished chunks are kept; run the same command again to resume", file=sys.stderr)
+        raise
+    if result.n_computed:
+        print(f"computed {result.n_computed:,} points in {result.seconds:.1f} s "
+              f"({result.points_per_second:,.1f} points/s, {result.where})")
+    else:
+        print(f"computed 0 points: the store already holds all {result.n_points:,}")
     if not args.no_summary:
         _summarize(Path(result.store), args, default_folder=Path(result.store) / "summary")
     return 0

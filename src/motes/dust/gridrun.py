@@ -462,6 +462,7 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
     the model on one point; only then is the store created (or overwritten).
     """
     check_grid_size(spec, settings)
+    workers = 0 if settings.scheduler else settings.resolved_workers()       # validates the setting
     model_factory = model_factory or build_disk_model      # resolved here: workers get it by reference
     observations = read_grid_observations(spec)
     manifest = store_manifest(spec, observations)
@@ -484,14 +485,13 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
             if client is not None:
                 where = f"Dask scheduler {settings.scheduler}"
                 _run_dask(client, _Job(spec, observations, model_factory), store, pending, settings)
-            elif settings.resolved_workers() == 1:
+            elif workers == 1:
                 where = "in-process"
                 _run_serial(local, store, pending, settings)
             else:
-                n = settings.resolved_workers()
-                where = f"{n} local processes"
+                where = f"{workers} local processes"
                 del local
-                _run_processes(_Job(spec, observations, model_factory), store, pending, n, settings)
+                _run_processes(_Job(spec, observations, model_factory), store, pending, workers, settings)
             seconds = time.perf_counter() - start
             missing = spec.n_chunks - len(store.completed_chunks())
             if missing:

@@ -21,8 +21,8 @@ photon counting by default) and the stellar F_lambda (a blackbody of
 
 Substituting a = t lambda / 2 pi (GUIDE section 9)::
 
-    R(lambda) = (lambda / 2 pi)^(3-q) [G(x_max) - G(x_min)] / integral_{a_min}^{a_max} a^(2-q) da
-    G(x) = 1/2 integral_0^x t^-q (|S1|^2 + |S2|^2) dt
+    R(lambda) = (lambda / 2 pi)^(3-q) [G(x_max) - G(x_min)] / integral_{a_min}^{a_max} pi a^(2-q) da
+    G(x) = 1/2 integral_0^x t^-q (|S1|^2 + |S2|^2) dt = pi integral_0^x t^(2-q) Q_sca p dt
 
 (Bohren & Huffman amplitudes; ``pi a^2 Q_sca p = a^2 (|S1|^2+|S2|^2) / 2 x^2``).
 ``method="exact"`` evaluates this with miepython at every quadrature node
@@ -171,7 +171,7 @@ class BandOptics:
 
     def colours(self, reference: int = 0) -> np.ndarray:
         """Magnitudes relative to band ``reference``: -2.5 log10(R_b / R_ref)."""
-        return -2.5 * np.log10(self.flux_ratio / self.flux_ratio[reference])
+        return -2.5 * np.log10(self.flux_ratio / self.flux_ratio[reference]) + 0.0  # no "-0.0"
 
 
 def _as_material(item, i) -> Material:
@@ -444,13 +444,23 @@ class DiskColourModel:
         if self._table is None:
             from .tables import table_for_model
 
-            self._table = table_for_model(self)
+            self._table = table_for_model(self, lazy=True)
         return self._table
 
-    def prepare(self) -> None:
-        """Build or load the fast path's lookup table now (``method="fast"`` only)."""
-        if self.method == "fast":
-            self._fast_table()
+    def prepare(self, fractions=None, porosity=None) -> None:
+        """Load or build the fast path's lookup tables now (``method="fast"`` only).
+
+        Without arguments, every tile the model's mixtures can reach (any
+        fractions, porosity 0-0.95) is made ready; with ``fractions[N, K]`` and
+        ``porosity[N]``, only what those mixtures need (others are built on
+        demand). Call it once in the parent process before starting workers:
+        they then load the cached tiles instead of building them.
+        """
+        if self.method != "fast":
+            return
+        from .tables import table_for_model
+
+        self._table = table_for_model(self, fractions=fractions, porosity=porosity)
 
     def node_values_exact(self, m, wavelength, a_min, q, a_max, sampling: SizeSampling | None = None):
         """Monochromatic flux ratio R(lambda) by direct Mie quadrature.
@@ -475,7 +485,7 @@ class DiskColourModel:
         a_min, q, a_max = (np.broadcast_to(np.asarray(v, dtype=float), (n_pts,)) for v in (a_min, q, a_max))
         out = np.empty((n_pts, n_lam))
         theta = self.geometry.angles_rad
-        norm = power_law_cross_section(a_min, a_max, q)
+        norm = np.pi * power_law_cross_section(a_min, a_max, q)  # integral n pi a^2 da
         for i in range(n_pts):
             ts, ws, mm, owner = [], [], [], []
             for j in range(n_lam):

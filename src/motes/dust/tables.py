@@ -13,17 +13,18 @@ tabulated instead, ``s = 2 pi t^2 Q_sca`` and ``2 pi t^2 Q_sca g``.
 
 How the table is made
 ---------------------
-* Axes: ``ln n`` (step 0.008 from n = 0.8), ``ln(k + 1e-6)`` (step 0.5 from
-  k = 0), ``ln x`` (step 0.05 from x = 0.02 to 1.6e4).
+* Axes: ``ln n`` (step 0.01 from n = 0.8), ``ln(k + 1e-6)`` (step 0.4 from
+  k = 0), ``ln x`` (step 0.05 from x = 0.02 to 1.26e4, i.e. a = 1 mm down to
+  lambda = 0.5 um).
   Below x = 0.02 the Rayleigh power law ``C ∝ x^(7-q)`` continues the table;
   above its top a geometric-optics tail with the mean ``s / t^2`` of the top
-  decade (noted in the model's notes when used).
+  decade (a note is added to the model's notes when it is used).
 * Per (n, k) node the integrand is sampled by
   :func:`motes.dust.sampling.bin_rule` inside every ``ln x`` bin (the same rule
   as the exact path) and stored as five moments per bin,
   ``M_j = sum w s (ln t - ln t_c)^j``, so that the bin integral for any q is
   ``t_c^-q sum_j (-q)^j M_j / j!`` (truncation error below 1e-6).
-* Nodes are built in tiles of 8 x 8 (n, k) nodes, only where the model's
+* Nodes are built in tiles of 4 x 4 (n, k) nodes, only where the model's
   mixtures can reach (pure components, mixtures on a 10% simplex lattice,
   porosity 0-0.95, at every band node, plus an interpolation margin), and
   cached on disk under ``$MOTES_CACHE_DIR`` (default ``~/.cache/motes``),
@@ -99,19 +100,19 @@ class TableSpec:
     """
 
     n_min: float = 0.8
-    dln_n: float = 0.008
-    n_count: int = 290
+    dln_n: float = 0.01
+    n_count: int = 232
     k_shift: float = 1e-6
-    dln_k: float = 0.5
-    k_count: int = 38
+    dln_k: float = 0.4
+    k_count: int = 46
     x_min: float = 0.02
     dln_x: float = 0.05
-    x_count: int = 273
+    x_count: int = 268
     q_min: float = 1.5
     q_step: float = 0.1
     q_count: int = 51
-    tile: int = 8
-    sampling: SizeSampling = field(default_factory=SizeSampling)
+    tile: int = 4
+    sampling: SizeSampling = field(default_factory=lambda: SizeSampling(c0=2e-4, c_max=0.05))
 
     @property
     def ln_n(self) -> np.ndarray:
@@ -242,14 +243,18 @@ def _stencil(pos, count):  # pragma: no cover - compiled
 
 
 @numba.njit(cache=True)
-def _interpolate_batch(C, tail, ray_exp, q_lo, q_step, pn, pk, lx1, lx2, q,
+def _interpolate_batch(C, tail, slots, tile, ray_exp, q_lo, q_step, pn, pk, lx1, lx2, q,
                        ln_x0, dln_x, out):  # pragma: no cover - compiled
     """out[c, i] = C(x2) - C(x1) for query i and channel c.
 
-    C: [n_ch, n_q, n_n, n_k, n_x]; tail: [n_ch, n_n, n_k]; pn, pk: fractional
-    positions on the (box-local) n and k axes; lx1, lx2: ln x; q: q values.
+    C: [n_ch, n_q, n_slots, tile, tile, n_x] (tiles stored compactly; ``slots``
+    maps a tile (i, j) to its slot); tail: [n_ch, n_slots, tile, tile]; pn, pk:
+    fractional positions on the global n and k axes; lx1, lx2: ln x; q: q values.
     """
-    n_ch, n_q, n_n, n_k, n_x = C.shape
+    n_ch, n_q = C.shape[0], C.shape[1]
+    n_x = C.shape[5]
+    n_n = slots.shape[0] * tile
+    n_k = slots.shape[1] * tile
     x_top = ln_x0 + dln_x * (n_x - 1)
     for i in range(q.size):
         iq, fq = _stencil((q[i] - q_lo) / q_step, n_q)
@@ -269,21 +274,29 @@ def _interpolate_batch(C, tail, ray_exp, q_lo, q_step, pn, pk, lx1, lx2, q,
             v1 = 0.0
             v2 = 0.0
             vt = 0.0
-            for a in range(4):
-                for b in range(4):
-                    for d in range(4):
-                        wabd = wq[a] * wn[b] * wk[d]
-                        row = C[c, iq + a, inn + b, ik + d]
+            for b in range(4):
+                nn = inn + b
+                tn = nn // tile
+                an = nn - tn * tile
+                for d in range(4):
+                    kk = ik + d
+                    tk = kk // tile
+                    ak = kk - tk * tile
+                    slot = slots[tn, tk]
+                    if slot < 0:  # tile not loaded: flag, never read another tile's data
+                        vt = np.nan
+                        continue
+                    wnk = wn[b] * wk[d]
+                    vt += wnk * tail[c, slot, an, ak]
+                    for a in range(4):
+                        row = C[c, iq + a, slot, an, ak]
                         s1 = 0.0
                         s2 = 0.0
                         for e in range(4):
                             s1 += wx1[e] * row[ix1 + e]
                             s2 += wx2[e] * row[ix2 + e]
-                        v1 += wabd * s1
-                        v2 += wabd * s2
-            for b in range(4):
-                for d in range(4):
-                    vt += wn[b] * wk[d] * tail[c, inn + b, ik + d]
+                        v1 += wq[a] * wnk * s1
+                        v2 += wq[a] * wnk * s2
             qi = q[i]
             # Rayleigh continuation below the table: C ∝ x^(1 + ray_exp - q)
             if lx1[i] < ln_x0:
@@ -303,7 +316,7 @@ def _interpolate_batch(C, tail, ray_exp, q_lo, q_step, pn, pk, lx1, lx2, q,
                         v1 += extra
                     else:
                         v2 += extra
-            out[c, i] = v2 - v1
+            out[c, i] = v2 - v1 + 0.0 * vt  # NaN when a tile was missing
 
 
 class LookupTable:
@@ -332,11 +345,15 @@ class LookupTable:
         self.n_channels = 1 if geometry.phase == "mie" else 2
         self._ray = _rayleigh_exponents(geometry)
         self._tiles: dict[tuple[int, int], tuple] = {}
-        self._box = None            # (i0, i1, j0, j1) in tile units
+        self._slots = None          # tile (i, j) -> slot in the compact arrays
+        self._order = []
         self._slices: dict[int, np.ndarray] = {}
         self._stack = None          # (q_lo_index, array)
+        self._tails = None
         self.build_seconds = 0.0
         self.tiles_built = 0
+        t = self.spec.tile
+        self._loaded = np.zeros((-(-self.spec.n_count // t), -(-self.spec.k_count // t)), dtype=bool)
 
     # -------------------------------------------------------------- tiles
     def _write_spec(self):
@@ -405,17 +422,27 @@ class LookupTable:
             for fut in concurrent.futures.as_completed(futures):
                 yield futures[fut], fut.result()
 
+    def _stencil_tiles(self, pn, pk):
+        """Tile indices (lowest and highest per axis) of each query's 4 x 4 stencil."""
+        t, spec = self.spec.tile, self.spec
+        fn = np.clip(np.floor(pn).astype(int), 1, spec.n_count - 3)
+        fk = np.clip(np.floor(pk).astype(int), 1, spec.k_count - 3)
+        return (fn - 1) // t, (fn + 2) // t, (fk - 1) // t, (fk + 2) // t
+
     def tiles_for(self, m) -> set:
         """Tiles whose nodes an interpolation at indices ``m`` touches."""
         pn, pk = self._positions(np.asarray(m).ravel())
-        t = self.spec.tile
-        tiles = set()
-        for dn in (-1, 0, 1, 2):
-            for dk in (-1, 0, 1, 2):
-                i = np.clip(np.floor(pn).astype(int) + dn, 0, self.spec.n_count - 1) // t
-                j = np.clip(np.floor(pk).astype(int) + dk, 0, self.spec.k_count - 1) // t
-                tiles.update(zip(i.tolist(), j.tolist()))
-        return tiles
+        i0, i1, j0, j1 = self._stencil_tiles(pn, pk)
+        pairs = np.unique(np.concatenate([np.stack([i, j], axis=1) for i in (i0, i1) for j in (j0, j1)]), axis=0)
+        return set(map(tuple, pairs.tolist()))
+
+    def _all_loaded(self, pn, pk) -> bool:
+        if not self._tiles:
+            return False
+        loaded = self._loaded
+        i0, i1, j0, j1 = self._stencil_tiles(pn, pk)
+        return bool(loaded[i0, j0].all() and loaded[i0, j1].all() and loaded[i1, j0].all()
+                    and loaded[i1, j1].all())
 
     def _positions(self, m):
         """Fractional positions of indices on the global n and k axes."""
@@ -438,46 +465,55 @@ class LookupTable:
         missing = [ij for ij in tiles if ij not in self._tiles]
         if missing:
             self._load_or_build(sorted(missing))
-        i = [ij[0] for ij in self._tiles]
-        j = [ij[1] for ij in self._tiles]
-        box = (min(i), max(i) + 1, min(j), max(j) + 1)
-        if box != self._box:
-            self._box = box
+            for ij in missing:
+                self._loaded[ij] = True
             self._slices.clear()
             self._stack = None
-        elif missing:
-            self._slices.clear()
-            self._stack = None
+            self._tails = None
+            self._slots = None
 
     # -------------------------------------------------------------- q slices
+    def _slot_map(self) -> np.ndarray:
+        """Tile (i, j) -> slot in the compact arrays (-1: not loaded)."""
+        if self._slots is None:
+            slots = np.full(self._loaded.shape, -1, dtype=np.int64)
+            self._order = sorted(self._tiles)
+            for s_, ij in enumerate(self._order):
+                slots[ij] = s_
+            self._slots = slots
+        return self._slots
+
     def _slice(self, iq: int) -> np.ndarray:
-        """C on the box for q = q_min + iq q_step: [n_ch, n_n, n_k, n_x]."""
+        """C for q = q_min + iq q_step on the loaded tiles: float32 [n_ch, n_slots, t, t, n_x]."""
         if iq in self._slices:
             return self._slices[iq]
         spec = self.spec
         q = spec.q_min + iq * spec.q_step
-        i0, i1, j0, j1 = self._box
+        self._slot_map()
         t = spec.tile
-        out = np.full((self.n_channels, (i1 - i0) * t, (j1 - j0) * t, spec.x_count), np.nan)
+        out = np.empty((self.n_channels, len(self._order), t, t, spec.x_count), dtype=np.float32)
         edges = spec.ln_x
         centre = 0.5 * (edges[1:] + edges[:-1])
         coef = (-q) ** np.arange(_N_MOMENTS) / _FACTORIALS           # [5]
         scale = np.exp(-q * centre)                                   # [bins]
-        for (i, j), (moments, start, tail) in self._tiles.items():
+        for slot, ij in enumerate(self._order):
+            moments, start, _ = self._tiles[ij]
             bins = (moments @ coef) * scale                           # [t, t, ch, bins]
             c0 = start * spec.x_min ** (1.0 - q) / (1.0 + self._ray - q)   # [t, t, ch]
             cum = np.concatenate([c0[..., None], c0[..., None] + np.cumsum(bins, axis=-1)], axis=-1)
-            a, b = (i - i0) * t, (j - j0) * t
-            out[:, a:a + t, b:b + t, :] = np.moveaxis(cum, 2, 0)
+            out[:, slot] = np.moveaxis(cum, 2, 0)
         self._slices[iq] = out
         return out
 
     def _tail_box(self) -> np.ndarray:
-        spec, t = self.spec, self.spec.tile
-        i0, i1, j0, j1 = self._box
-        out = np.full((self.n_channels, (i1 - i0) * t, (j1 - j0) * t), np.nan)
-        for (i, j), (_, _, tail) in self._tiles.items():
-            out[:, (i - i0) * t:(i - i0 + 1) * t, (j - j0) * t:(j - j0 + 1) * t] = np.moveaxis(tail, 2, 0)
+        if self._tails is not None:
+            return self._tails
+        self._slot_map()
+        t = self.spec.tile
+        out = np.empty((self.n_channels, len(self._order), t, t))
+        for slot, ij in enumerate(self._order):
+            out[:, slot] = np.moveaxis(self._tiles[ij][2], 2, 0)
+        self._tails = out
         return out
 
     def _stacked(self, q) -> tuple[int, np.ndarray]:
@@ -514,14 +550,12 @@ class LookupTable:
         if (q < spec.q_min + spec.q_step).any() or (q > spec.q_max - 2 * spec.q_step).any():
             raise ModelError(f"q must lie in [{spec.q_min + spec.q_step:g}, {spec.q_max - 2 * spec.q_step:g}] "
                              "for the fast path; use method='exact'")
-        self.ensure(m)
         pn, pk = self._positions(m)
-        i0, _, j0, _ = self._box
-        pn = pn - i0 * spec.tile
-        pk = pk - j0 * spec.tile
+        if not self._all_loaded(pn, pk):
+            self.ensure(m)
         q_lo, stack = self._stacked(q)
         out = np.empty((self.n_channels, m.size))
-        _interpolate_batch(stack, np.ascontiguousarray(self._tail_box()), self._ray,
+        _interpolate_batch(stack, self._tail_box(), self._slot_map(), spec.tile, self._ray,
                            spec.q_min + q_lo * spec.q_step, spec.q_step, pn, pk,
                            np.log(np.asarray(x1, dtype=float).ravel()), np.log(np.asarray(x2, dtype=float).ravel()),
                            q, np.log(spec.x_min), spec.dln_x, out)
@@ -548,13 +582,20 @@ class ModelTable:
         a_max = np.asarray(a_max, dtype=float)[:, None]
         q2 = np.broadcast_to(np.asarray(q, dtype=float)[:, None], (n_pts, n_lam))
         wn = 2 * np.pi / lam
-        ints = self.table.integrals(m, (wn * a_min).ravel(), (wn * a_max).ravel(), q2.ravel())
+        x_max = wn * a_max
+        if x_max.max() > self.table.spec.x_top:
+            note = (f"fast path: grains beyond x = {self.table.spec.x_top:.3g} (a > "
+                    f"{self.table.spec.x_top * lam.min() / (2 * np.pi):.3g} um at {lam.min():.3g} um) use the "
+                    "geometric-optics continuation of the table")
+            if note not in self.model.notes:
+                self.model.notes = self.model.notes + (note,)
+        ints = self.table.integrals(m, (wn * a_min).ravel(), x_max.ravel(), q2.ravel())
         ints = ints.reshape(self.table.n_channels, n_pts, n_lam)
         if self.model.geometry.phase == "mie":
             value = ints[0]
         else:
             value = ints[0] * self.model.geometry.hg_phase(ints[1] / ints[0])
-        norm = power_law_cross_section(a_min[:, 0], a_max[:, 0], np.asarray(q, dtype=float))
+        norm = np.pi * power_law_cross_section(a_min[:, 0], a_max[:, 0], np.asarray(q, dtype=float))
         return (lam / (2 * np.pi)) ** (3.0 - q2) * value / norm[:, None]
 
 
@@ -587,8 +628,22 @@ def _compositions(total: int, parts: int):
 _TABLES: dict[tuple, LookupTable] = {}
 
 
-def table_for_model(model, spec: TableSpec | None = None, progress: bool = True) -> ModelTable:
+def table_for_model(model, spec: TableSpec | None = None, progress: bool = True,
+                    fractions=None, porosity=None, lazy: bool = False) -> ModelTable:
     """The fast path for ``model``: loads cached tiles, builds the missing ones.
+
+    Parameters
+    ----------
+    model : DiskColourModel
+    spec : TableSpec, optional
+    progress : bool
+        Progress bar on stderr while building.
+    fractions, porosity : ndarray, optional
+        Build only the tiles these mixtures need (e.g. the points of a grid);
+        default: every mixture on a 10% lattice with porosity 0-0.95
+        (:func:`reachable_indices`). Tiles missing later are built on demand.
+    lazy : bool
+        Build nothing now; every evaluation builds the tiles it needs.
 
     Tables are shared between models of the same geometry in one process.
     """
@@ -598,5 +653,12 @@ def table_for_model(model, spec: TableSpec | None = None, progress: bool = True)
     if table is None:
         table = LookupTable(model.geometry, spec, progress=progress)
         _TABLES[key] = table
-    table.ensure(reachable_indices(model))
+    if lazy:
+        pass
+    elif fractions is None:
+        table.ensure(reachable_indices(model))
+    else:
+        f = np.atleast_2d(np.asarray(fractions, dtype=float))
+        p = np.broadcast_to(np.asarray(0.0 if porosity is None else porosity, dtype=float), (f.shape[0],))
+        table.ensure(model.effective_index(f, p))
     return ModelTable(model, table)

@@ -1,0 +1,179 @@
+"""Generate the converged exact reference colours for the fast-path accuracy checks.
+
+Writes ``tests/data/optics_reference.ecsv``: a fixed random set of parameter
+points for three 4-material models (together every bundled material), 8 bands
+between 0.6 and 4 um, seen at 90 deg with the Mie phase function around a
+5600 K blackbody, with the disk/star flux ratio per band from the EXACT path
+(miepython at every quadrature node). The tests
+(``tests/test_dust_model_fast.py``) and ``benchmarks/bench_optics.py`` compare
+the fast path against these values.
+
+The points (seed ``SEED``): per model, each pure component, two weak-absorber
+binaries without any absorbing component at a_min = 10 um (the hardest case:
+ripple and rainbow structure at 90 deg), and Dirichlet(1, 1, 1, 1) fractions;
+porosity uniform in [0, 0.8], a_min log-uniform in [0.5, 10] um, q = 3.5 and
+a_max = 1 mm (the issue's reference model).
+
+Convergence: the reference uses ``REFERENCE_SAMPLING`` and
+``REFERENCE_NODES`` per band; ``--check N`` recomputes N points with twice as
+many size samples and twice as many wavelength nodes and stores the largest
+colour change in the table's meta (``convergence_max_colour_change_mag``).
+
+Command used for the committed file (about 1 h on one core of the 2-core
+development machine, shared)::
+
+    python benchmarks/make_optics_reference.py --workers 2 --check 12
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+OUT = Path(__file__).resolve().parents[1] / "tests" / "data" / "optics_reference.ecsv"
+SEED = 20261203
+STAR_TEFF = 5600.0
+MODELS = {
+    "A": ("silica_amorphous", "water_ice_crystalline", "carbon_amorphous", "iron"),
+    "B": ("silica_amorphous", "water_ice_crystalline", "methane_ice", "magnetite"),
+    "C": ("silica_amorphous", "methane_ice", "carbon_soot", "iron"),
+}
+#: standard bands plus three approximate top-hat bands on and beside the water-ice feature
+BANDS = ("Cousins.R", "Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "NB3p1", "NB3p3", "Lp")
+TOP_HATS = {"NB3p1": (3.1, 0.1), "NB3p3": (3.3, 0.1), "Lp": (3.78, 0.7)}
+REFERENCE_NODES = 8
+N_RANDOM = 34          # per model, besides the 6 special points
+
+
+def bands():
+    from motes.photometry.bands import get_band, top_hat_band
+
+    custom = {name: top_hat_band(name, c, w) for name, (c, w) in TOP_HATS.items()}
+    return tuple(get_band(b, custom) for b in BANDS)
+
+
+def reference_sampling():
+    from motes.dust.sampling import SizeSampling
+
+    return SizeSampling()  # the exact path's default rule (c0 = 1e-4)
+
+
+def build_model(name, method, nodes=REFERENCE_NODES, sampling=None):
+    from motes.dust.model import DiskColourModel
+
+    return DiskColourModel(MODELS[name], bands(), star_teff=STAR_TEFF, method=method, a_max=1000.0,
+                           wavelength_nodes=nodes, size_sampling=sampling or reference_sampling())
+
+
+def parameter_points(rng):
+    """Rows (model, fractions[4], porosity, a_min, q, a_max)."""
+    rows = []
+    for name, mats in MODELS.items():
+        for i in range(4):  # each pure component
+            f = np.zeros(4)
+            f[i] = 1.0
+            rows.append((name, f, rng.uniform(0, 0.8), float(np.exp(rng.uniform(np.log(0.5), np.log(10))))))
+        weak = [i for i, m in enumerate(mats) if m in ("silica_amorphous", "water_ice_crystalline", "methane_ice")]
+        for por in (0.0, 0.4):  # weak-absorber binaries with large grains
+            f = np.zeros(4)
+            if len(weak) >= 2:
+                f[weak[0]], f[weak[1]] = 0.7, 0.3
+            else:
+                f[weak[0]] = 1.0
+            rows.append((name, f, por, 10.0))
+        for _ in range(N_RANDOM):
+            f = rng.dirichlet(np.ones(4))
+            rows.append((name, f, rng.uniform(0, 0.8), float(np.exp(rng.uniform(np.log(0.5), np.log(10))))))
+    return rows
+
+
+def _evaluate(args):
+    name, f, por, amin, nodes, refine = args
+    from motes.dust.sampling import SizeSampling
+
+    sampling = reference_sampling()
+    if refine:
+        sampling = sampling.refined(2.0)
+    model = build_model(name, "exact", nodes, sampling)
+    return model.flux_ratio(np.asarray(f)[None, :], por, amin, 3.5, 1000.0)[0]
+
+
+def main(argv=None):
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--workers", type=int, default=1)
+    parser.add_argument("--check", type=int, default=0, metavar="N",
+                        help="re-run N points with 2x size samples and 2x wavelength nodes")
+    parser.add_argument("--out", default=str(OUT))
+    args = parser.parse_args(argv)
+
+    from astropy.table import Table
+    from tqdm import tqdm
+
+    rng = np.random.default_rng(SEED)
+    rows = parameter_points(rng)
+    jobs = [(n, f, p, a, REFERENCE_NODES, False) for n, f, p, a in rows]
+    t0 = time.perf_counter()
+    if args.workers > 1:
+        import multiprocessing
+
+        with multiprocessing.get_context("fork").Pool(args.workers) as pool:
+            values = list(tqdm(pool.imap(_evaluate, jobs), total=len(jobs), file=sys.stderr))
+    else:
+        values = [_evaluate(j) for j in tqdm(jobs, file=sys.stderr)]
+    seconds = time.perf_counter() - t0
+    values = np.asarray(values)
+    check = {}
+    if args.check:
+        idx = np.linspace(0, len(rows) - 1, args.check).round().astype(int)
+        # always include the weak binaries with large grains (the slowest to converge)
+        special = [i for i, r in enumerate(rows) if r[3] == 10.0 and r[2] in (0.0, 0.4)][: max(1, args.check // 3)]
+        idx = np.unique(np.concatenate([idx[: args.check - len(special)], special]))
+        cjobs = [(rows[i][0], rows[i][1], rows[i][2], rows[i][3], 2 * REFERENCE_NODES, True) for i in idx]
+        if args.workers > 1:
+            with multiprocessing.get_context("fork").Pool(args.workers) as pool:
+                refined = np.asarray(list(tqdm(pool.imap(_evaluate, cjobs), total=len(cjobs), file=sys.stderr)))
+        else:
+            refined = np.asarray([_evaluate(j) for j in tqdm(cjobs, file=sys.stderr)])
+        base = values[idx]
+        col = lambda r: -2.5 * np.log10(r / r[:, :1])  # noqa: E731
+        change = np.abs(col(refined) - col(base))
+        check = {"convergence_rows": idx.tolist(),
+                 "convergence_max_colour_change_mag": float(change.max()),
+                 "convergence_median_colour_change_mag": float(np.median(change[:, 1:])),
+                 "convergence_max_flux_change": float(np.abs(refined / base - 1).max())}
+    t = Table()
+    t["model"] = [r[0] for r in rows]
+    for i in range(4):
+        t[f"f{i}"] = [r[1][i] for r in rows]
+    t["porosity"] = [r[2] for r in rows]
+    t["a_min"] = [r[3] for r in rows]
+    t["q"] = np.full(len(rows), 3.5)
+    t["a_max"] = np.full(len(rows), 1000.0)
+    for j, b in enumerate(BANDS):
+        t[f"R_{b}"] = values[:, j]
+    from motes import __version__
+    from motes.optics.mie import solver_summary
+
+    t.meta.update({
+        "description": "exact disk/star flux ratios per unit cross-section [sr^-1], 90 deg, Mie phase function",
+        "models": {k: list(v) for k, v in MODELS.items()}, "bands": list(BANDS),
+        "top_hats": {k: list(v) for k, v in TOP_HATS.items()}, "star_teff": STAR_TEFF,
+        "wavelength_nodes": REFERENCE_NODES, "sampling": repr(reference_sampling()),
+        "seed": SEED, "seconds": seconds, "motes": __version__, "mie": solver_summary(),
+        "command": "python benchmarks/make_optics_reference.py " + " ".join(argv or sys.argv[1:]),
+        **check})
+    out = Path(args.out)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = out.with_suffix(".tmp.ecsv")
+    t.write(tmp, format="ascii.ecsv", overwrite=True)
+    os.replace(tmp, out)
+    print(f"wrote {out}: {len(rows)} points in {seconds:.0f} s; {check}")
+
+
+if __name__ == "__main__":
+    main()
