@@ -73,8 +73,8 @@ set = "list"
 list = [["silica"], ["silica", "water_ice"]]
 
 [sampler]
-nlive = 40
-dlogz = 0.5
+nlive = 25
+dlogz = 1.0
 seed = 2
 checkpoint_every = 1.0
 """

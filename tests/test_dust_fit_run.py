@@ -159,3 +159,18 @@ def test_cli_reports_errors_in_one_line(tmp_path, capsys):
     assert cli_main(["fit", str(path)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "lower < upper" in err[0] and "fit.toml" in err[0]
+
+
+def test_dynamic_sampler_runs_and_matches_static(tmp_path, rng):
+    """kind = "dynamic" (dynesty's DynamicNestedSampler) gives the static run's ln Z within errors."""
+    out = {}
+    for kind in ("static", "dynamic"):
+        folder = tmp_path / kind
+        folder.mkdir()
+        path = write_toy_fit(folder, TRUTH, rng=np.random.default_rng(9), model_set="list",
+                             sampler=f'kind = "{kind}"\nnlive = 60\ndlogz = 0.3\nmaxbatch = 1\nnlive_batch = 30\n')
+        path.write_text(path.read_text().replace('set = "list"', 'set = "list"\nlist = [["alpha", "beta"]]'))
+        out[kind] = run_fit(path, FitRunSettings(output=folder / "run", progress=False, figures=False),
+                            model_factory=toy_factory, **QUIET).models[0]
+    a, b = out["static"], out["dynamic"]
+    assert abs(a.ln_z - b.ln_z) < 3 * np.hypot(a.ln_z_err, b.ln_z_err)

@@ -394,10 +394,11 @@ def test_demo_grid_description_reads_and_counts(tmp_path):
 
     disk_grid.write_inputs(tmp_path)
     spec = read_grid_description(tmp_path / "disk_grid.toml")
-    # bounded compositions of 10 steps: carbon <= 2, iron <= 1, silica and ice free
-    expected = sum(10 - c - i + 1 for c in range(3) for i in range(2))
-    assert spec.n_compositions == expected == 57
-    assert spec.n_points == 57 * 3 * 3 and 100 <= spec.n_points <= 1000     # "a few hundred points"
+    # bounded compositions of 20 steps: silica 8..18, ice 0..10, carbon 0..3, iron 0..2 (brute force)
+    expected = sum(1 for s, w, c, i in itertools.product(range(21), repeat=4)
+                   if s + w + c + i == 20 and 8 <= s <= 18 and w <= 10 and c <= 3 and i <= 2)
+    assert spec.n_compositions == expected
+    assert spec.n_points == expected * 3 * 3 and spec.n_points <= 2000    # a small, quick grid
     obs = read_grid_observations(spec)
     assert len(obs.bands) == 8 and "NB3p1" in obs.band_names
 

@@ -24,22 +24,41 @@ from .model import (
     DiskColourModel,
     ScatteringGeometry,
 )
+from .mixture import (
+    MixtureOptics,
+    MixtureParameters,
+    compute_mixture_optics,
+    format_mixture_optics,
+    read_mixture_file,
+    write_mixture_outputs,
+)
 from .sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
+from .tables import LookupTable, TableSpec, cache_directory, table_for_model
 
 __all__ = [
     "BandOptics",
     "DiskColourModel",
     "FRACTIONS_NOTE",
+    "LookupTable",
     "METHODS",
     "MIE_SPHERES_NOTE",
+    "MixtureOptics",
+    "MixtureParameters",
     "ModelDescription",
     "PHASES",
     "ScatteringGeometry",
     "SizeSampling",
     "StarDescription",
+    "TableSpec",
+    "cache_directory",
+    "compute_mixture_optics",
+    "format_mixture_optics",
     "model_from_description",
     "parse_model_description",
+    "read_mixture_file",
     "read_model_description",
     "size_parameter_rule",
+    "table_for_model",
     "weighted_gauss_nodes",
+    "write_mixture_outputs",
 ]

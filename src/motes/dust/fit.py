@@ -100,6 +100,9 @@ def prepare_fit(spec: FitSpec, model_factory=None):
         handle = ProblemHandle(spec, model, model_factory=model_factory)
         try:
             problem = handle.build()
+            prepare = getattr(problem.colour_model, "prepare", None)
+            if prepare is not None:
+                prepare()          # build or load the fast path's tables once, before any worker starts
         except MotesError as exc:
             raise FitError(f"{spec.source}: model '{model.name}': {exc}") from None
         need = problem.space.n_effective
@@ -323,8 +326,8 @@ def _verdict_table(verdicts, by_name):
 
 def _model_notes(handles) -> list[str]:
     notes = []
-    for h in handles:
-        notes.extend(getattr(h.build().colour_model, "notes", ()))
+    for h in handles:   # the Mie-spheres note is already a caveat
+        notes.extend(n for n in getattr(h.build().colour_model, "notes", ()) if "Mie spheres" not in n)
     return notes
 
 

@@ -262,7 +262,8 @@ class FitSpec:
     text : str
         The description as written.
     digest : str
-        SHA-256 of the description text and of the photometry file; a run
+        SHA-256 of the description text, the photometry file and every file
+        the description names (materials, spectrum, filter curves); a run
         folder only resumes a run with the same digest.
     """
 
@@ -401,6 +402,10 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         raise FitError(f"{path}: [models] set = \"list\" needs list = [[...], ...] with at least one model")
     if explicit is not None and not isinstance(explicit, list):
         raise InputError("list must be a list of lists of material names", path, "[models]")
+    mixing = doc.get("mixing", {}) if isinstance(doc.get("mixing"), dict) else {}
+    matrix = mixing.get("matrix")
+    if mixing.get("rule") == "maxwell_garnett" and matrix in materials and matrix not in keep:
+        keep = list(keep) + [matrix]     # a Maxwell Garnett matrix cannot be removed from a model
     try:
         models = build_model_set(kind, materials, tuple(keep), explicit)
     except FitError as exc:
@@ -421,12 +426,32 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         digest.update(photometry_path.read_bytes())
     except OSError:
         raise InputError(f"cannot read the photometry file {photometry_path}", path, "[data] photometry") from None
+    for extra in _referenced_files(doc, base_dir):
+        digest.update(extra.read_bytes())
     return FitSpec(
         description=doc, base_dir=base_dir, materials=materials, photometry_path=photometry_path,
         parameters=parameters, scale=scale, sample_scale=(treatment == "sample"), model_set=kind,
         keep=tuple(keep), models=models, sampler=sampler, source=source, text=text,
         digest=digest.hexdigest(),
     )
+
+
+def _referenced_files(doc, base_dir: Path):
+    """Files the description names (material, spectrum and filter-curve files), for the digest."""
+    names = []
+    for m in doc.get("materials", []) if isinstance(doc.get("materials"), list) else []:
+        if isinstance(m, dict) and isinstance(m.get("source"), str):
+            names.append(m["source"])
+    star = doc.get("star", {}) if isinstance(doc.get("star"), dict) else {}
+    spec = star.get("spectrum")
+    names.append(spec.get("file") if isinstance(spec, dict) else spec)
+    bands = doc.get("bands", {}) if isinstance(doc.get("bands"), dict) else {}
+    names += [b.get("file") for b in bands.values() if isinstance(b, dict)]
+    out = []
+    for name in names:
+        if isinstance(name, str) and (base_dir / name).is_file():
+            out.append(base_dir / name)
+    return out
 
 
 def read_fit_description(path) -> FitSpec:

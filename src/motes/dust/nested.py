@@ -179,12 +179,11 @@ def run_nested_model(ndim: int, settings: SamplerSettings, checkpoint: Path, *, 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             sampler = sampler_cls.restore(str(checkpoint), pool=pool)
-        if pool is not None:
-            # queue as wide as the pool, whatever the interrupted session used
-            samplers = [sampler] + [s for s in (getattr(sampler, "sampler", None),
-                                                getattr(sampler, "batch_sampler", None)) if s is not None]
-            for s in samplers:
-                s.queue_size = workers
+        # queue as wide as this session's pool, whatever the interrupted session used
+        samplers = [sampler] + [s for s in (getattr(sampler, "sampler", None),
+                                            getattr(sampler, "batch_sampler", None)) if s is not None]
+        for s in samplers:
+            s.queue_size = workers if pool is not None else 1
     else:
         rng = np.random.default_rng([int(settings.seed), int(seed_key)])
         kwargs = dict(bound=settings.bound, sample=settings.sample, rstate=rng,

@@ -62,7 +62,11 @@ __all__ = [
     "FORMAT_VERSION",
     "TableSpec",
     "LookupTable",
+    "ModelTable",
+    "build_node",
+    "build_tile",
     "cache_directory",
+    "reachable_indices",
     "table_for_model",
 ]
 

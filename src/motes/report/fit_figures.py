@@ -125,17 +125,21 @@ def plot_evidence(result, path: Path) -> Path:
     names = [m.name for m in result.models]
     d = np.array([m.ln_z - result.best.ln_z for m in result.models])
     err = np.array([m.ln_z_err for m in result.models])
-    fig, ax = plt.subplots(figsize=(6.5, 0.45 * len(names) + 1.6))
+    fig, ax = plt.subplots(figsize=(6.8, 0.45 * len(names) + 1.6))
     y = np.arange(len(names))[::-1]
     ax.barh(y, d, xerr=err, color=[_COLOURS[0] if v == 0 else "0.6" for v in d], capsize=3)
+    for yi, v, e in zip(y, d, err):
+        ax.text(1.2, yi, f"{v:.1f} ± {e:.1f}", va="center", fontsize=7)
     for edge in (1, 3, 5):
         ax.axvline(-edge, color="#c0392b", lw=0.8, ls=":")
-        ax.text(-edge, len(names) - 0.4, f"-{edge}", color="#c0392b", fontsize=7, ha="center")
     ax.set_yticks(y)
     ax.set_yticklabels(names, fontsize=8)
-    ax.set_xlabel("ln Z - ln Z(best)   (breaks at 1, 3, 5: Kass & Raftery 1995)")
+    lo = min(d.min() - err.max() - 0.5, -6)
+    if lo < -30:       # huge differences: symmetric-log axis keeps the small ones visible
+        ax.set_xscale("symlog", linthresh=6.0)
+    ax.set_xlim(lo, 4.0 if lo > -30 else 8.0)
+    ax.set_xlabel("ln Z - ln Z(best)   (dotted: -1, -3, -5, Kass & Raftery 1995 breaks)")
     ax.set_title("Evidence per model", fontsize=10)
-    ax.set_xlim(min(d.min() - err.max() - 0.5, -6), 0.5)
     fig.tight_layout()
     fig.savefig(path, dpi=130)
     plt.close(fig)
