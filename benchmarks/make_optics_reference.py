@@ -14,15 +14,20 @@ ripple and rainbow structure at 90 deg), and Dirichlet(1, 1, 1, 1) fractions;
 porosity uniform in [0, 0.8], a_min log-uniform in [0.5, 10] um, q = 3.5 and
 a_max = 1 mm (the issue's reference model).
 
-Convergence: the reference uses ``REFERENCE_SAMPLING`` and
-``REFERENCE_NODES`` per band; ``--check N`` recomputes N points with twice as
-many size samples and twice as many wavelength nodes and stores the largest
-colour change in the table's meta (``convergence_max_colour_change_mag``).
+Convergence: the reference uses the exact path's size rule and
+``REFERENCE_NODES`` Gauss nodes per band; rows of weak absorbers only (no
+carbon, iron or magnetite) use ``WEAK_NODES`` and twice the size samples
+(columns ``nodes`` and ``refine``). ``--check N`` recomputes N rows with
+twice the nodes and twice the size samples of their own settings and stores
+the colour changes in the table's meta (``convergence_*``); with ``--reuse``
+the colour changes of rows whose settings were raised are stored too
+(``raised_settings_*``: an upper estimate of the error of the lower settings).
 
-Command used for the committed file (about 1 h on one core of the 2-core
-development machine, shared)::
+Commands used for the committed file (two cores, shared with other work;
+the second run recomputed only the weak-absorber rows)::
 
-    python benchmarks/make_optics_reference.py --workers 2 --check 12
+    python benchmarks/make_optics_reference.py --workers 2 --check 9
+    python benchmarks/make_optics_reference.py --workers 2 --check 9 --reuse tests/data/optics_reference.ecsv
 """
 
 from __future__ import annotations
@@ -47,6 +52,9 @@ MODELS = {
 BANDS = ("Cousins.R", "Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "NB3p1", "NB3p3", "Lp")
 TOP_HATS = {"NB3p1": (3.1, 0.1), "NB3p3": (3.3, 0.1), "Lp": (3.78, 0.7)}
 REFERENCE_NODES = 8
+#: weak absorbers (no absorbing component) converge slowest: twice the nodes and size samples
+WEAK_NODES, WEAK_REFINE = 16, 2.0
+WEAK_MATERIALS = ("silica_amorphous", "water_ice_crystalline", "methane_ice")
 N_RANDOM = 34          # per model, besides the 6 special points
 
 
@@ -92,15 +100,31 @@ def parameter_points(rng):
     return rows
 
 
+def row_settings(name, f):
+    """(wavelength nodes per band, size-sampling refinement) of the reference value of a row."""
+    mats = MODELS[name]
+    weak = all(fi == 0 or m in WEAK_MATERIALS for m, fi in zip(mats, f))
+    return (WEAK_NODES, WEAK_REFINE) if weak else (REFERENCE_NODES, 1.0)
+
+
 def _evaluate(args):
     name, f, por, amin, nodes, refine = args
-    from motes.dust.sampling import SizeSampling
-
     sampling = reference_sampling()
-    if refine:
-        sampling = sampling.refined(2.0)
+    if refine != 1.0:
+        sampling = sampling.refined(refine)
     model = build_model(name, "exact", nodes, sampling)
     return model.flux_ratio(np.asarray(f)[None, :], por, amin, 3.5, 1000.0)[0]
+
+
+def _run(jobs, workers):
+    from tqdm import tqdm
+
+    if workers > 1:
+        import multiprocessing
+
+        with multiprocessing.get_context("fork").Pool(workers) as pool:
+            return np.asarray(list(tqdm(pool.imap(_evaluate, jobs), total=len(jobs), file=sys.stderr)))
+    return np.asarray([_evaluate(j) for j in tqdm(jobs, file=sys.stderr)])
 
 
 def main(argv=None):
@@ -109,43 +133,56 @@ def main(argv=None):
     parser.add_argument("--check", type=int, default=0, metavar="N",
                         help="re-run N points with 2x size samples and 2x wavelength nodes")
     parser.add_argument("--out", default=str(OUT))
+    parser.add_argument("--reuse", metavar="FILE",
+                        help="copy the values of rows computed with the same settings from an earlier file "
+                             "(they are deterministic); recompute the others")
     args = parser.parse_args(argv)
 
     from astropy.table import Table
-    from tqdm import tqdm
 
     rng = np.random.default_rng(SEED)
     rows = parameter_points(rng)
-    jobs = [(n, f, p, a, REFERENCE_NODES, False) for n, f, p, a in rows]
+    settings = [row_settings(n, f) for n, f, _, _ in rows]
+    jobs = [(n, f, p, a, *st) for (n, f, p, a), st in zip(rows, settings)]
+    values = np.full((len(rows), len(BANDS)), np.nan)
+    previous = {}
+    if args.reuse:
+        old = Table.read(args.reuse, format="ascii.ecsv")
+        for i, (st, row) in enumerate(zip(settings, old)):
+            if row["model"] != rows[i][0] or not np.isclose(row["a_min"], rows[i][3]):
+                continue
+            old_st = (int(row["nodes"]), float(row["refine"])) if "nodes" in old.colnames \
+                else (int(old.meta["wavelength_nodes"]), 1.0)
+            if old_st == st:
+                values[i] = [row[f"R_{b}"] for b in BANDS]
+            else:
+                previous[i] = np.array([row[f"R_{b}"] for b in BANDS])
+    todo = [i for i in range(len(rows)) if not np.isfinite(values[i]).all()]
     t0 = time.perf_counter()
-    if args.workers > 1:
-        import multiprocessing
-
-        with multiprocessing.get_context("fork").Pool(args.workers) as pool:
-            values = list(tqdm(pool.imap(_evaluate, jobs), total=len(jobs), file=sys.stderr))
-    else:
-        values = [_evaluate(j) for j in tqdm(jobs, file=sys.stderr)]
+    if todo:
+        values[todo] = _run([jobs[i] for i in todo], args.workers)
     seconds = time.perf_counter() - t0
-    values = np.asarray(values)
+    col = lambda r: -2.5 * np.log10(r / r[:, :1])  # noqa: E731
     check = {}
+    if previous:
+        # rows whose settings were raised (weak absorbers): how much the colours moved
+        idx = sorted(previous)
+        change = np.abs(col(values[idx]) - col(np.array([previous[i] for i in idx])))
+        check.update({"raised_settings_rows": idx,
+                      "raised_settings_row_max_colour_change_mag": [float(c) for c in change.max(axis=1)]})
     if args.check:
-        idx = np.linspace(0, len(rows) - 1, args.check).round().astype(int)
-        # always include the weak binaries with large grains (the slowest to converge)
-        special = [i for i, r in enumerate(rows) if r[3] == 10.0 and r[2] in (0.0, 0.4)][: max(1, args.check // 3)]
-        idx = np.unique(np.concatenate([idx[: args.check - len(special)], special]))
-        cjobs = [(rows[i][0], rows[i][1], rows[i][2], rows[i][3], 2 * REFERENCE_NODES, True) for i in idx]
-        if args.workers > 1:
-            with multiprocessing.get_context("fork").Pool(args.workers) as pool:
-                refined = np.asarray(list(tqdm(pool.imap(_evaluate, cjobs), total=len(cjobs), file=sys.stderr)))
-        else:
-            refined = np.asarray([_evaluate(j) for j in tqdm(cjobs, file=sys.stderr)])
+        # rows at the base settings, spread over the set, re-run with 2x nodes and 2x size samples
+        base_rows = [i for i in range(len(rows)) if settings[i][0] == REFERENCE_NODES]
+        idx = np.array(base_rows)[np.linspace(0, len(base_rows) - 1, args.check).round().astype(int)]
+        cjobs = [(*jobs[i][:4], 2 * settings[i][0], 2 * settings[i][1]) for i in idx]
+        refined = _run(cjobs, args.workers)
         base = values[idx]
-        col = lambda r: -2.5 * np.log10(r / r[:, :1])  # noqa: E731
         change = np.abs(col(refined) - col(base))
-        check = {"convergence_rows": idx.tolist(),
+        check.update({"convergence_rows": idx.tolist(),
+                 "convergence_row_max_colour_change_mag": [float(c) for c in change.max(axis=1)],
                  "convergence_max_colour_change_mag": float(change.max()),
                  "convergence_median_colour_change_mag": float(np.median(change[:, 1:])),
-                 "convergence_max_flux_change": float(np.abs(refined / base - 1).max())}
+                 "convergence_max_flux_change": float(np.abs(refined / base - 1).max())})
     t = Table()
     t["model"] = [r[0] for r in rows]
     for i in range(4):
@@ -154,6 +191,8 @@ def main(argv=None):
     t["a_min"] = [r[3] for r in rows]
     t["q"] = np.full(len(rows), 3.5)
     t["a_max"] = np.full(len(rows), 1000.0)
+    t["nodes"] = [st[0] for st in settings]
+    t["refine"] = [st[1] for st in settings]
     for j, b in enumerate(BANDS):
         t[f"R_{b}"] = values[:, j]
     from motes import __version__
@@ -164,6 +203,7 @@ def main(argv=None):
         "models": {k: list(v) for k, v in MODELS.items()}, "bands": list(BANDS),
         "top_hats": {k: list(v) for k, v in TOP_HATS.items()}, "star_teff": STAR_TEFF,
         "wavelength_nodes": REFERENCE_NODES, "sampling": repr(reference_sampling()),
+        "row_settings": "columns nodes (Gauss nodes per band) and refine (size-sampling refinement factor)",
         "seed": SEED, "seconds": seconds, "motes": __version__, "mie": solver_summary(),
         "command": "python benchmarks/make_optics_reference.py " + " ".join(argv or sys.argv[1:]),
         **check})

@@ -19,7 +19,8 @@ import pytest
 from motes.dust.compositions import SimplexGrid, count_compositions
 from motes.dust.sampling import SizeSampling
 from motes.dust.grid import AXES, parse_grid_description, read_grid_description
-from motes.dust.gridrun import GridEvaluator, GridRunSettings, describe_dry_run, run_grid
+from motes.dust.gridrun import GridRunSettings, describe_dry_run, run_grid
+from motes.dust.gridworkers import GridEvaluator
 from motes.dust.gridstore import GridStore
 from motes.dust.gridsummary import summarize_grid
 from motes.errors import GridError, InputError
@@ -390,7 +391,7 @@ def test_grid_figures_are_written(grid_file, tmp_path):
 
 def test_demo_grid_description_reads_and_counts(tmp_path):
     from motes.demo import disk_grid
-    from motes.dust.gridrun import read_grid_observations
+    from motes.dust.gridworkers import read_grid_observations
 
     disk_grid.write_inputs(tmp_path)
     spec = read_grid_description(tmp_path / "disk_grid.toml")
@@ -422,3 +423,14 @@ def test_scheduler_without_dask_installed_says_how_to_install(grid_file, tmp_pat
         run_grid(read_grid_description(grid_file), tmp_path / "store",
                  quiet(scheduler="tcp://127.0.0.1:8786"), model_factory=standin_factory)
     assert not (tmp_path / "store").exists()
+
+
+def test_spawned_workers_give_the_same_store(grid_file, tmp_path, monkeypatch):
+    # Linux uses fork (workers inherit the driver's model); macOS and others use spawn: check that path too
+    import motes.dust.gridworkers
+
+    spec = read_grid_description(grid_file)
+    run_grid(spec, tmp_path / "one", quiet(workers=1), model_factory=standin_factory)
+    monkeypatch.setattr(motes.dust.gridworkers, "_start_method", lambda: "spawn")
+    run_grid(spec, tmp_path / "spawned", quiet(workers=2), model_factory=standin_factory)
+    assert read_sorted(tmp_path / "one").equals(read_sorted(tmp_path / "spawned"))

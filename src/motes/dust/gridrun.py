@@ -8,9 +8,10 @@ chi-square of every point in it and return the columns; the driver writes each
 returned chunk as one atomic Parquet part and moves on. At most a few chunks
 per worker are in flight, so memory stays flat however large the grid.
 
-A worker builds the forward model once, from the grid description, the first
-time it is handed work (:class:`GridEvaluator`); the model comes from one
-function, ``model_factory(spec)``, :func:`build_disk_model` by default.
+Evaluation and the execution back ends (in-process, local processes, Dask)
+are in :mod:`motes.dust.gridworkers`; the forward model comes from one
+function, ``model_factory(spec, observations)``,
+:func:`~motes.dust.gridworkers.build_disk_model` by default.
 """
 
 from __future__ import annotations
@@ -32,21 +33,20 @@ from .. import __version__
 from ..errors import GridError, MotesError
 from .grid import AXES, DEFAULT_MAX_POINTS, GridSpec
 from .gridstore import GridStore, fraction_column, model_column
-from .observations import DiskPhotometry, chi_square_with_best_scale, read_disk_photometry
+from .gridworkers import (GridEvaluator, GridJob, build_disk_model, connect_scheduler, read_grid_observations,
+                          run_dask, run_processes, run_serial)
+from .observations import DiskPhotometry
 
 __all__ = [
     "GridRunSettings",
     "GridRunResult",
     "GridProbe",
-    "GridEvaluator",
-    "build_disk_model",
     "run_grid",
     "probe_grid",
     "store_manifest",
     "check_grid_size",
     "default_store_path",
     "describe_dry_run",
-    "read_grid_observations",
 ]
 
 
@@ -147,96 +147,6 @@ class GridProbe:
         return self.build_seconds + n_points * self.seconds_per_point / max(workers, 1)
 
 
-def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
-    """The forward model a grid description asks for (the default ``model_factory``).
-
-    Parameters
-    ----------
-    spec : GridSpec
-    observations : DiskPhotometry
-        The data; the model is built for their bands, in their order.
-
-    Returns
-    -------
-    motes.dust.model.DiskColourModel
-        Built from the description's ``[star]``, ``[[materials]]``, ``[mixing]``,
-        ``[geometry]``, ``[model]`` sections (:mod:`motes.dust.description`), for
-        the bands of the disk photometry in their order, with its lookup tables
-        loaded (fast path).
-    """
-    from .description import parse_model_description
-
-    description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
-    model = description.build_model(bands=observations.bands)
-    model.prepare()
-    return model
-
-
-def read_grid_observations(spec: GridSpec) -> DiskPhotometry:
-    """The disk photometry a grid compares to (``[data] photometry``), with the description's user bands."""
-    from .description import parse_model_description
-
-    description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
-    return read_disk_photometry(spec.photometry, custom_bands=description.custom_bands)
-
-
-class GridEvaluator:
-    """Evaluates grid points: model colours, best scale, chi-square, degrees of freedom.
-
-    Parameters
-    ----------
-    spec : GridSpec
-    model_factory : callable, optional
-        ``model_factory(spec, observations)`` returns an object with
-        ``flux_ratio(fractions[N, K], porosity[N], a_min[N], q[N], a_max=[N]) -> [N, B]``
-        whose bands are those of the photometry, in order. Must be picklable
-        (a module-level function) to reach worker processes.
-        Default :func:`build_disk_model`.
-    observations : DiskPhotometry, optional
-        Read from ``spec.photometry`` when not given.
-    """
-
-    def __init__(self, spec: GridSpec, model_factory=None, observations: DiskPhotometry | None = None):
-        self.spec = spec
-        self.observations = observations if observations is not None else read_grid_observations(spec)
-        self.model = (model_factory or build_disk_model)(spec, self.observations)
-
-    def evaluate(self, keys) -> dict[str, np.ndarray]:
-        """Store columns for the given keys.
-
-        Parameters
-        ----------
-        keys : ndarray[N] of int
-
-        Returns
-        -------
-        dict of str to ndarray[N]
-            ``key``, ``f_<material>``, porosity, a_min, q, a_max, ``model_<band>``,
-            ``scale``, ``chi2``, ``dof``.
-        """
-        pts = self.spec.points(keys)
-        flux = np.asarray(self.model.flux_ratio(pts.fractions, pts.porosity, pts.a_min, pts.q,
-                                                a_max=pts.a_max), dtype=float)
-        bands = self.observations.band_names
-        if flux.shape != (len(pts), len(bands)):
-            raise GridError(f"the model returned shape {flux.shape}, expected ({len(pts)}, {len(bands)})")
-        scale, chi2, dof = chi_square_with_best_scale(flux, self.observations)
-        cols = {"key": pts.keys}
-        for j, name in enumerate(self.spec.materials):
-            cols[fraction_column(name)] = pts.fractions[:, j]
-        for name in AXES:
-            cols[name] = getattr(pts, name)
-        for j, band in enumerate(bands):
-            cols[model_column(band)] = flux[:, j]
-        cols["scale"] = np.asarray(scale, dtype=float)
-        cols["chi2"] = np.asarray(chi2, dtype=float)
-        cols["dof"] = np.full(len(pts), dof, dtype=np.int32)
-        return cols
-
-    def evaluate_chunk(self, chunk: int) -> dict[str, np.ndarray]:
-        return self.evaluate(self.spec.chunk_keys(chunk))
-
-
 def store_manifest(spec: GridSpec, observations: DiskPhotometry) -> dict:
     """The manifest a store of this grid gets (see :class:`GridStore`)."""
     bands = list(observations.band_names)
@@ -281,7 +191,7 @@ def probe_grid(spec: GridSpec, model_factory=None, n_probe: int = 16) -> GridPro
     ----------
     spec : GridSpec
     model_factory : callable, optional
-        As in :class:`GridEvaluator`.
+        As in :func:`run_grid`.
     n_probe : int
         Points to time (spread evenly over the keys, so over every axis).
 
@@ -290,7 +200,7 @@ def probe_grid(spec: GridSpec, model_factory=None, n_probe: int = 16) -> GridPro
     GridProbe
     """
     start = time.perf_counter()
-    evaluator = GridEvaluator(spec, model_factory)
+    evaluator = GridEvaluator(spec, model_factory or build_disk_model)
     evaluator.evaluate(np.array([0]))            # warm-up: compiled paths, caches
     build = time.perf_counter() - start
     keys = np.unique(np.linspace(0, spec.n_points - 1, min(n_probe, spec.n_points)).astype(np.int64))
@@ -369,65 +279,6 @@ def _duration(seconds: float) -> str:
     return f"{seconds / 3600:.1f} h"
 
 
-# ------------------------------------------------------------------------- workers
-_WORKER_EVALUATORS: dict = {}
-_WORKER_LOCK = threading.Lock()
-
-
-@dataclass(frozen=True)
-class _Job:
-    """What a worker needs to build its evaluator: sent once per worker, not per chunk."""
-
-    spec: GridSpec
-    observations: DiskPhotometry
-    model_factory: object = None
-
-    @property
-    def key(self):
-        f = self.model_factory
-        return self.spec.digest, getattr(f, "__module__", None), getattr(f, "__qualname__", None)
-
-
-def _worker_evaluator(job: _Job) -> GridEvaluator:
-    """The evaluator of this worker process, built on first use (thread-safe, for Dask threads)."""
-    with _WORKER_LOCK:
-        if job.key not in _WORKER_EVALUATORS:
-            _WORKER_EVALUATORS[job.key] = GridEvaluator(job.spec, job.model_factory, job.observations)
-        return _WORKER_EVALUATORS[job.key]
-
-
-def _init_local_worker(job, parent_pid) -> None:
-    # Ctrl-C goes to the whole process group; only the driver should react to it
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-
-    def watch_parent():
-        # if the driver dies (even by SIGKILL) this worker must not linger
-        while True:
-            if os.getppid() != parent_pid:
-                os._exit(1)
-            time.sleep(0.5)
-
-    threading.Thread(target=watch_parent, daemon=True).start()
-    global _LOCAL_JOB
-    _LOCAL_JOB = job
-    _worker_evaluator(job)
-
-
-_LOCAL_JOB = None
-
-
-def _local_chunk(chunk):
-    return chunk, _worker_evaluator(_LOCAL_JOB).evaluate_chunk(chunk)
-
-
-def _dask_chunk(job, chunk):
-    return chunk, _worker_evaluator(job).evaluate_chunk(chunk)
-
-
-def _motes_version() -> str:
-    return __version__
-
-
 # ------------------------------------------------------------------------- driver
 def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings(), model_factory=None,
              echo=print) -> GridRunResult:
@@ -441,7 +292,9 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
         the same description; refused otherwise (see ``settings.overwrite``).
     settings : GridRunSettings
     model_factory : callable, optional
-        See :class:`GridEvaluator`; default :func:`build_disk_model`.
+        ``model_factory(spec, observations)`` returning the forward model (see
+        :class:`~motes.dust.gridworkers.GridEvaluator`); default
+        :func:`~motes.dust.gridworkers.build_disk_model`.
     echo : callable
         Where one-line status messages go.
 
@@ -468,7 +321,7 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
     manifest = store_manifest(spec, observations)
     if GridStore.is_store(output) and not settings.overwrite:
         GridStore.prepare(output, manifest)          # raises on mismatch, changes nothing
-    client = _connect(settings) if settings.scheduler else None
+    client = connect_scheduler(settings.scheduler, settings.scheduler_timeout) if settings.scheduler else None
     try:
         if client is None:
             # validate the model before touching the store; also warms on-disk caches for workers
@@ -484,14 +337,15 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
             start = time.perf_counter()
             if client is not None:
                 where = f"Dask scheduler {settings.scheduler}"
-                _run_dask(client, _Job(spec, observations, model_factory), store, pending, settings)
+                run_dask(client, GridJob(spec, observations, model_factory), store, pending,
+                         settings.in_flight_per_worker, settings.progress)
             elif workers == 1:
                 where = "in-process"
-                _run_serial(local, store, pending, settings)
+                run_serial(local, store, pending, settings.progress)
             else:
                 where = f"{workers} local processes"
-                del local
-                _run_processes(_Job(spec, observations, model_factory), store, pending, workers, settings)
+                run_processes(GridJob(spec, observations, model_factory), store, pending, workers,
+                              settings.in_flight_per_worker, settings.progress, evaluator=local)
             seconds = time.perf_counter() - start
             missing = spec.n_chunks - len(store.completed_chunks())
             if missing:
@@ -505,121 +359,3 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
                          n_resumed=resumed, seconds=seconds, where=where)
 
 
-def _progress(store: GridStore, settings: GridRunSettings):
-    from tqdm import tqdm
-
-    return tqdm(total=store.n_points, initial=store.completed_points(), unit="pt",
-                desc="grid", file=sys.stderr, smoothing=0.05, mininterval=0.5,
-                disable=not settings.progress, dynamic_ncols=True)
-
-
-def _run_serial(evaluator: GridEvaluator, store: GridStore, pending, settings) -> None:
-    with _progress(store, settings) as bar:
-        for chunk in pending:
-            store.write_chunk(chunk, evaluator.evaluate_chunk(chunk))
-            bar.update(store.chunk_length(chunk))
-
-
-def _run_processes(job, store, pending, workers, settings) -> None:
-    # spawn: workers start clean (no inherited threads or locks), identical on every OS
-    context = multiprocessing.get_context("spawn")
-    limit = workers * settings.in_flight_per_worker
-    queue = iter(pending)
-    pool = cf.ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_init_local_worker,
-                                  initargs=(job, os.getpid()))
-    try:
-        with _progress(store, settings) as bar:
-            running = set()
-            for chunk in queue:
-                running.add(pool.submit(_local_chunk, chunk))
-                if len(running) >= limit:
-                    break
-            while running:
-                finished, running = cf.wait(running, return_when=cf.FIRST_COMPLETED)
-                for future in finished:
-                    chunk, columns = _result(future)
-                    store.write_chunk(chunk, columns)
-                    bar.update(store.chunk_length(chunk))
-                    nxt = next(queue, None)
-                    if nxt is not None:
-                        running.add(pool.submit(_local_chunk, nxt))
-    except BaseException:
-        pool.shutdown(wait=False, cancel_futures=True)
-        raise
-    pool.shutdown(wait=True)
-
-
-def _result(future):
-    try:
-        return future.result()
-    except cf.process.BrokenProcessPool:
-        raise GridError("a worker process died (out of memory, or killed); the finished chunks are kept: "
-                        "run the same command again to resume") from None
-    except MotesError:
-        raise
-
-
-def _connect(settings: GridRunSettings):
-    """Client of the Dask scheduler, checked to have workers that run this motes version."""
-    try:
-        from dask.distributed import Client
-    except ImportError:
-        raise GridError("--scheduler needs Dask distributed, which is not installed: "
-                        "pip install 'motes[cluster]'") from None
-    timeout = settings.scheduler_timeout
-    try:
-        client = Client(settings.scheduler, timeout=f"{timeout}s", set_as_default=False)
-    except Exception as exc:  # OSError, TimeoutError, ValueError for malformed addresses
-        raise GridError(f"cannot reach the Dask scheduler at {settings.scheduler!r} within {timeout:g} s "
-                        f"({type(exc).__name__}: {exc}); nothing was written") from None
-    try:
-        try:
-            client.wait_for_workers(1, timeout=timeout)
-        except Exception:
-            raise GridError(f"the Dask scheduler at {settings.scheduler} has no workers after {timeout:g} s; "
-                            "start some (dask worker ADDRESS) and run again; nothing was written") from None
-        try:
-            versions = client.run(_motes_version)
-        except Exception as exc:
-            raise GridError(f"the Dask workers cannot run motes ({type(exc).__name__}: {exc}); install motes "
-                            f"{__version__} on every worker; nothing was written") from None
-        wrong = {w: v for w, v in versions.items() if v != __version__}
-        if wrong:
-            raise GridError(f"Dask workers run other motes versions {wrong}; this is motes {__version__}; "
-                            "nothing was written")
-    except BaseException:
-        client.close()
-        raise
-    return client
-
-
-def _run_dask(client, job, store, pending, settings) -> None:
-    from dask.distributed import as_completed
-
-    threads = max(sum(client.nthreads().values()), 1)
-    limit = threads * settings.in_flight_per_worker
-    queue = iter(pending)
-    [job_future] = client.scatter([job], broadcast=True, hash=False)
-
-    def submit(chunk):
-        return client.submit(_dask_chunk, job_future, chunk, pure=False,
-                             key=f"motes-grid-{job.spec.digest[:10]}-{chunk}")
-
-    outstanding = {submit(c) for c in itertools.islice(queue, limit)}
-    try:
-        with client.as_current(), _progress(store, settings) as bar:
-            stream = as_completed(list(outstanding))
-            for future in stream:
-                chunk, columns = future.result()
-                outstanding.discard(future)
-                future.release()
-                store.write_chunk(chunk, columns)
-                bar.update(store.chunk_length(chunk))
-                nxt = next(queue, None)
-                if nxt is not None:
-                    new = submit(nxt)
-                    outstanding.add(new)
-                    stream.add(new)
-    except BaseException:
-        client.cancel(list(outstanding))
-        raise

@@ -230,6 +230,11 @@ class GridStore:
             if _TMP_RE.match(tmp.name):
                 tmp.unlink()
 
+    @property
+    def lock_fd(self) -> int | None:
+        """File descriptor holding the writer lock (None when not locked)."""
+        return self._lock_fd
+
     def unlock(self) -> None:
         if self._lock_fd is not None:
             fcntl.flock(self._lock_fd, fcntl.LOCK_UN)
