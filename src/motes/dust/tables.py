@@ -66,6 +66,7 @@ __all__ = [
     "build_node",
     "build_tile",
     "cache_directory",
+    "rainbow_indices",
     "reachable_indices",
     "table_for_model",
 ]
@@ -568,12 +569,47 @@ class LookupTable:
         return out
 
 
+def rainbow_indices(angles_deg, p_max: int = 6) -> np.ndarray:
+    """Real refractive indices at which a geometric-optics rainbow sits at one of the angles.
+
+    The order-p rainbow (p - 1 internal reflections) of a sphere deviates light
+    by ``D = (p - 1) pi + 2 i - 2 p r`` at ``cos i = sqrt((n^2 - 1) / (p^2 - 1))``,
+    ``sin r = sin i / n`` (e.g. van de Hulst 1957, sec. 13.2). Near these
+    indices the size-integrated side scattering of weakly absorbing spheres
+    changes abruptly with n, faster than the table's n step can follow.
+
+    Returns
+    -------
+    ndarray
+        Sorted indices in (1, 3) for orders 2..``p_max``.
+    """
+    n = np.linspace(1.0005, 3.0, 40000)
+    out = []
+    for p in range(2, p_max + 1):
+        ci = np.sqrt((n**2 - 1) / (p * p - 1))
+        ok = ci <= 1
+        i = np.arccos(np.clip(ci, 0, 1))
+        r = np.arcsin(np.sin(i) / n)
+        theta = np.degrees(np.arccos(np.cos((p - 1) * np.pi + 2 * i - 2 * p * r)))
+        for a in np.atleast_1d(angles_deg):
+            sign = np.sign(theta - a)
+            idx = np.flatnonzero((np.diff(sign) != 0) & ok[1:])
+            out.extend(n[idx].tolist())
+    return np.unique(np.round(out, 4))
+
+
+#: weak absorbers near a rainbow index (|n - n_c| < _CAUSTIC_DN, k < _CAUSTIC_K) get a note
+_CAUSTIC_DN, _CAUSTIC_K = 0.02, 1e-4
+
+
 class ModelTable:
     """The fast path bound to one :class:`~motes.dust.model.DiskColourModel`."""
 
     def __init__(self, model, table: LookupTable):
         self.model = model
         self.table = table
+        self._rainbows = rainbow_indices(model.geometry.angles_deg) if model.geometry.phase == "mie" \
+            else np.array([])
 
     def node_values(self, m, wavelength, a_min, q, a_max) -> np.ndarray:
         """Monochromatic flux ratios R at the band nodes, ``ndarray[N, L]``."""
@@ -593,6 +629,17 @@ class ModelTable:
                     "geometric-optics continuation of the table")
             if note not in self.model.notes:
                 self.model.notes = self.model.notes + (note,)
+        if self._rainbows.size:
+            weak = m.imag < _CAUSTIC_K
+            if weak.any():
+                near = np.min(np.abs(m.real[weak][:, None] - self._rainbows[None, :]), axis=1) < _CAUSTIC_DN
+                if near.any():
+                    note = ("fast path: some mixtures are nearly non-absorbing (k < 1e-4) with n within 0.02 of "
+                            "an index where a Mie rainbow crosses the scattering angle; their side scattering "
+                            "changes abruptly with n there and the table smooths it (errors up to ~0.1 mag "
+                            "measured); use method='exact' or several angles for such grains")
+                    if note not in self.model.notes:
+                        self.model.notes = self.model.notes + (note,)
         ints = self.table.integrals(m, (wn * a_min).ravel(), x_max.ravel(), q2.ravel())
         ints = ints.reshape(self.table.n_channels, n_pts, n_lam)
         if self.model.geometry.phase == "mie":
