@@ -32,7 +32,7 @@ against the folder of the description file::
     bands = ["2MASS.J", "2MASS.H", "nb_3.1"]   # optional when the bands come from the data
     a_max = 1000.0                  # [um]
     method = "fast"                 # or "exact"
-    wavelength_nodes = 6            # Gauss nodes per band
+    wavelength_nodes = 8            # Gauss nodes per band
 
     [bands."nb_3.1"]                # user bands: same format as target descriptions
     shape = "top-hat"
@@ -330,7 +330,7 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
     method = model.get("method", "fast")
     if method not in METHODS:
         raise InputError(f"method must be one of {METHODS}, got {method!r}", path=source, where="[model] method")
-    nodes = model.get("wavelength_nodes", 6)
+    nodes = model.get("wavelength_nodes", 8)
     if isinstance(nodes, bool) or not isinstance(nodes, int) or not 1 <= nodes <= 64:
         raise InputError(f"wavelength_nodes must be an integer in 1..64, got {nodes!r}",
                          path=source, where="[model] wavelength_nodes")

@@ -163,7 +163,7 @@ class DiskColourModel:
 
     def __init__(self, materials, bands, *, star_teff=None, star_spectrum=None,
                  mixing="bruggeman", matrix=None, geometry=ScatteringGeometry(),
-                 method="fast", a_max=1000.0, wavelength_nodes: int = 6,
+                 method="fast", a_max=1000.0, wavelength_nodes: int = 8,
                  size_sampling: SizeSampling = SizeSampling(), table_spec=None):
         self.materials = tuple(_as_material(m, i) for i, m in enumerate(materials))
         self.bands = tuple(_as_band(b, i) for i, b in enumerate(bands))

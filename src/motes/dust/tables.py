@@ -438,8 +438,9 @@ def rainbow_indices(angles_deg, p_max: int = 6) -> np.ndarray:
     return np.unique(np.round(out, 4))
 
 
-#: weak absorbers near a rainbow index (|n - n_c| < _CAUSTIC_DN, k < _CAUSTIC_K) get a note
-_CAUSTIC_DN, _CAUSTIC_K = 0.02, 1e-4
+#: weak absorbers near a rainbow index (|n - n_c| < _CAUSTIC_DN, k < _CAUSTIC_K) get a note (k < 2e-3:
+#: at 0.6 um the rainbow still shows for grains up to ~100 um, k x ~ 1)
+_CAUSTIC_DN, _CAUSTIC_K = 0.02, 2e-3
 
 
 class ModelTable:
@@ -474,7 +475,7 @@ class ModelTable:
             if weak.any():
                 near = np.min(np.abs(m.real[weak][:, None] - self._rainbows[None, :]), axis=1) < _CAUSTIC_DN
                 if near.any():
-                    note = ("fast path: some mixtures are nearly non-absorbing (k < 1e-4) with n within 0.02 of "
+                    note = ("fast path: some mixtures are weakly absorbing (k < 2e-3) with n within 0.02 of "
                             "an index where a Mie rainbow crosses the scattering angle; their side scattering "
                             "changes abruptly with n there and the table smooths it (errors up to ~0.1 mag "
                             "measured); use method='exact' or several angles for such grains")
