@@ -34,8 +34,23 @@ from .mixture import (
 )
 from .sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
 from .tables import LookupTable, TableSpec, cache_directory, table_for_model
+from .compositions import count_compositions
+from .grid import GridSpec, SimplexGrid, read_grid_description
+from .gridrun import GridRunResult, GridRunSettings, run_grid
+from .gridstore import GridStore
+from .gridsummary import GridSummary, summarize_grid
 
 __all__ = [
+    "GridRunResult",
+    "GridRunSettings",
+    "GridSpec",
+    "GridStore",
+    "GridSummary",
+    "SimplexGrid",
+    "count_compositions",
+    "read_grid_description",
+    "run_grid",
+    "summarize_grid",
     "BandOptics",
     "DiskColourModel",
     "FRACTIONS_NOTE",

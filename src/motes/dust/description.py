@@ -314,9 +314,9 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
         raise InputError("matrix is used by rule = 'maxwell_garnett' only", path=source, where="[mixing] matrix")
     geometry = _read_geometry(doc, source)
     try:
-        from ..photometry.targets import _read_user_bands  # shared [bands.NAME] format
+        from ..photometry.targets import user_bands_from_document  # shared [bands.NAME] format
 
-        custom = _read_user_bands(doc, Path(source) if source != "<string>" else base_dir / "description.toml",
+        custom = user_bands_from_document(doc, Path(source) if source != "<string>" else base_dir / "description.toml",
                                   "photon")
     except MotesError as exc:
         raise InputError(getattr(exc, "reason", str(exc)), path=source, where=getattr(exc, "where", None)) from None

@@ -49,7 +49,46 @@ _MATERIALS_NAMES = [
 ]
 
 # --- Mie scattering and size distributions (Mie/model engineer) --------------
-# (re-exports of motes.optics.mie and motes.optics.sizes go here)
-_MIE_NAMES: list[str] = []
+from .mie import (
+    MieEfficiencies,
+    check_index,
+    efficiencies,
+    efficiencies_at,
+    phase_function,
+    polarised_phase_function,
+    scattered_intensity,
+    scattering_amplitudes,
+    solver_summary,
+)
+from .sizes import (
+    BlowoutResult,
+    LogNormal,
+    PowerLaw,
+    blowout_size,
+    find_blowout_size,
+    gauss_legendre_log,
+    power_law_cross_section,
+    radiation_pressure_beta,
+)
+
+_MIE_NAMES = [
+    "MieEfficiencies",
+    "check_index",
+    "efficiencies",
+    "efficiencies_at",
+    "phase_function",
+    "polarised_phase_function",
+    "scattered_intensity",
+    "scattering_amplitudes",
+    "solver_summary",
+    "BlowoutResult",
+    "LogNormal",
+    "PowerLaw",
+    "blowout_size",
+    "find_blowout_size",
+    "gauss_legendre_log",
+    "power_law_cross_section",
+    "radiation_pressure_beta",
+]
 
 __all__ = _MATERIALS_NAMES + _MIE_NAMES
