@@ -39,8 +39,25 @@ from .grid import GridSpec, SimplexGrid, read_grid_description
 from .gridrun import GridRunResult, GridRunSettings, run_grid
 from .gridstore import GridStore
 from .gridsummary import GridSummary, summarize_grid
+from .observations import DiskPhotometry, chi_square_with_best_scale, read_disk_photometry
+from .scale import ScalePrior
+from .fitspec import FitSpec, read_fit_description
+from .fit import FitRunSettings, run_fit
+from .fitresults import FitResult, ModelResult
+from .evidence import VERDICT_RULE
 
 __all__ = [
+    "DiskPhotometry",
+    "chi_square_with_best_scale",
+    "read_disk_photometry",
+    "ScalePrior",
+    "FitSpec",
+    "read_fit_description",
+    "FitRunSettings",
+    "run_fit",
+    "FitResult",
+    "ModelResult",
+    "VERDICT_RULE",
     "GridRunResult",
     "GridRunSettings",
     "GridSpec",
