@@ -22,10 +22,21 @@ from pathlib import Path
 
 from ..errors import InputError
 
-__all__ = ["DEMO_PARTS", "available_parts", "run_demo"]
+__all__ = ["DEMO_PARTS", "available_parts", "copy_demo_inputs", "run_demo"]
 
 #: Demo parts in the order they run.
 DEMO_PARTS = ("photometry", "companion", "optics", "disk_fit", "disk_grid")
+
+
+def copy_demo_inputs(folder, names) -> None:
+    """Copy the named package-data files of the demo into ``folder`` (created if needed)."""
+    from importlib import resources
+
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    data = resources.files(__name__) / "data"
+    for name in names:
+        (folder / name).write_bytes((data / name).read_bytes())
 
 
 def available_parts() -> list[str]:

@@ -12,8 +12,9 @@ and it resumes, or finds the grid already done) and is summarised into
 
 from __future__ import annotations
 
-from importlib import resources
 from pathlib import Path
+
+from . import copy_demo_inputs
 
 __all__ = ["write_inputs", "run", "INPUT_FILES"]
 
@@ -23,11 +24,7 @@ INPUT_FILES = ("disk_grid.toml", "disk_photometry.ecsv")
 
 def write_inputs(folder: Path) -> None:
     """Copy the demo grid description and the disk photometry into ``folder``."""
-    folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    data = resources.files("motes.demo") / "data"
-    for name in INPUT_FILES:
-        (folder / name).write_bytes((data / name).read_bytes())
+    copy_demo_inputs(folder, INPUT_FILES)
 
 
 def run(folder: Path) -> None:

@@ -10,8 +10,9 @@ and the two figures into ``optics_run/``.
 
 from __future__ import annotations
 
-from importlib import resources
 from pathlib import Path
+
+from . import copy_demo_inputs
 
 __all__ = ["write_inputs", "run", "INPUT_FILES"]
 
@@ -21,11 +22,7 @@ INPUT_FILES = ("optics_mixture.toml",)
 
 def write_inputs(folder: Path) -> None:
     """Copy the demo mixture file into ``folder``."""
-    folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    data = resources.files("motes.demo") / "data"
-    for name in INPUT_FILES:
-        (folder / name).write_bytes((data / name).read_bytes())
+    copy_demo_inputs(folder, INPUT_FILES)
 
 
 def run(folder: Path) -> None:

@@ -8,9 +8,9 @@ Inputs (generated from known truth by ``examples/make_photometry_demo.py``):
 
 from __future__ import annotations
 
-import shutil
-from importlib import resources
 from pathlib import Path
+
+from . import copy_demo_inputs
 
 __all__ = ["INPUT_FILES", "TARGET_FILE", "write_inputs", "run"]
 
@@ -22,12 +22,7 @@ TARGET_FILE = "companion_target.toml"
 
 def write_inputs(folder: Path) -> None:
     """Copy the photometry demo inputs into ``folder``."""
-    folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    data = resources.files("motes.demo") / "data"
-    for name in INPUT_FILES:
-        with resources.as_file(data / name) as src:
-            shutil.copyfile(src, folder / name)
+    copy_demo_inputs(folder, INPUT_FILES)
 
 
 def run(folder: Path) -> None:
