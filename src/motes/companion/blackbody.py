@@ -19,7 +19,6 @@ from typing import Mapping, Sequence
 
 import numpy as np
 from astropy import constants as const
-import astropy.units as u
 
 from ..errors import InputError
 from ..photometry.bands import Band

@@ -18,7 +18,6 @@ import numpy as np
 import astropy.units as u
 
 from ..errors import FitError, InputError
-from ..photometry.bands import Band
 
 __all__ = ["extinction_coefficients", "av_prior_grid", "EXTINCTION_LAWS"]
 

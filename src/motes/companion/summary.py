@@ -9,11 +9,11 @@ from __future__ import annotations
 
 import math
 import os
-import re
 import tempfile
 from pathlib import Path
 
 from ..errors import InputError
+from ..photometry.output import target_slug
 from .results import Classification, Ranking
 
 __all__ = ["format_classification", "write_classification", "classification_file_stem"]
@@ -109,8 +109,7 @@ def format_classification(result: Classification, top: int = 8) -> str:
 
 def classification_file_stem(target_name: str) -> str:
     """File-name stem for a target's classification files: ``<slug>_classification``."""
-    slug = re.sub(r"[^A-Za-z0-9]+", "_", target_name).strip("_").lower() or "target"
-    return f"{slug}_classification"
+    return f"{target_slug(target_name)}_classification"
 
 
 def write_classification(result: Classification, folder, csv: bool = False) -> list[Path]:

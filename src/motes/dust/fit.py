@@ -33,7 +33,7 @@ from .evidence import ModelEvidence, material_verdicts, rank_models, summarise_p
 from .fitmodel import ProblemHandle, HandleLikelihood, HandlePriorTransform, read_fit_photometry, reset_traces
 from .fitresults import (FIT_CAVEATS, FIT_FORMAT_VERSION, FitResult, ModelResult, format_fit_report,
                          read_model_result, write_json_atomic, write_table_atomic)
-from .fitspec import FitSpec, ModelSpec, read_fit_description
+from .fitspec import FitSpec, read_fit_description
 from .nested import open_pool, run_nested_model
 
 __all__ = ["FitRunSettings", "run_fit", "prepare_fit", "FitResult", "ModelResult"]

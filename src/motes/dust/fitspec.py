@@ -53,14 +53,12 @@ from __future__ import annotations
 
 import hashlib
 import itertools
-import math
 import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import FitError, InputError
-from .observations import DiskPhotometry
 from .priors import ParameterSpace, Prior, parse_prior
 from .scale import ScalePrior
 

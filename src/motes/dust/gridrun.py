@@ -16,21 +16,14 @@ function, ``model_factory(spec, observations)``,
 
 from __future__ import annotations
 
-import concurrent.futures as cf
-import itertools
-import multiprocessing
 import os
-import signal
-import sys
-import threading
 import time
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
-from .. import __version__
-from ..errors import GridError, MotesError
+from ..errors import GridError
 from .grid import AXES, DEFAULT_MAX_POINTS, GridSpec
 from .gridstore import GridStore, fraction_column, model_column
 from .gridworkers import (GridEvaluator, GridJob, build_disk_model, connect_scheduler, read_grid_observations,

@@ -216,11 +216,10 @@ def _motes_version() -> str:
 
 
 def _progress(store: GridStore, progress: bool):
-    from tqdm import tqdm
+    from ..progress import progress_bar
 
-    return tqdm(total=store.n_points, initial=store.completed_points(), unit="pt",
-                desc="grid", file=sys.stderr, smoothing=0.05, mininterval=0.5,
-                disable=not progress, dynamic_ncols=True)
+    return progress_bar(total=store.n_points, initial=store.completed_points(), unit="pt",
+                        desc="grid", smoothing=0.05, disable=not progress)
 
 
 def run_serial(evaluator: GridEvaluator, store: GridStore, pending, progress: bool = True) -> None:

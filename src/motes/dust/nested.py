@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import contextlib
 import math
-import sys
 import time
 import warnings
 from dataclasses import dataclass
@@ -112,10 +111,9 @@ class _Progress:
     def __init__(self, label: str, enabled: bool, initial: int = 0):
         self.bar = None
         if enabled:
-            from tqdm import tqdm
+            from ..progress import progress_bar
 
-            self.bar = tqdm(desc=label, initial=initial, unit=" it", file=sys.stderr, leave=True,
-                            dynamic_ncols=True, mininterval=0.5)
+            self.bar = progress_bar(desc=label, initial=initial, unit=" it", leave=True)
 
     def __call__(self, result, niter, ncall, add_live_it=None, dlogz=None, stop_val=None,
                  nbatch=None, logl_min=-np.inf, logl_max=np.inf):

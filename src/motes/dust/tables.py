@@ -43,7 +43,6 @@ from __future__ import annotations
 
 import json
 import os
-import sys
 import tempfile
 from dataclasses import asdict
 from pathlib import Path
@@ -235,10 +234,10 @@ class LookupTable:
         self._write_spec()
         bar = None
         if self.progress:
-            from tqdm import tqdm
+            from ..progress import progress_bar
 
-            bar = tqdm(total=len(todo), desc="motes: building optics lookup tiles", unit="tile",
-                       file=sys.stderr, leave=False)
+            bar = progress_bar(total=len(todo), desc="motes: building optics lookup tiles", unit="tile",
+                               leave=False)
         t0 = time.perf_counter()
         for ij, (moments, start, tail) in self._built(todo):
             write_atomic_npz(tile_path(self.folder, *ij), moments=moments, start=start, tail=tail,

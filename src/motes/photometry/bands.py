@@ -438,7 +438,6 @@ def standard_band_names() -> list[str]:
 @functools.lru_cache(maxsize=None)
 def _load_standard(name: str) -> Band:
     import astropy.units as u
-    from pyphot import get_library
 
     key, system, vega_mag, native, note = _STANDARD[name]
     curve = _pyphot_library()[key]

@@ -17,7 +17,7 @@ from pathlib import Path
 from ..errors import InputError
 from .measurements import CalibratedPhotometry
 
-__all__ = ["format_photometry", "write_photometry", "photometry_file_stem"]
+__all__ = ["format_photometry", "write_photometry", "photometry_file_stem", "target_slug"]
 
 
 def _fmt(value, spec, width):
@@ -81,10 +81,14 @@ def format_photometry(result: CalibratedPhotometry) -> str:
     return "\n".join(lines)
 
 
+def target_slug(target_name: str) -> str:
+    """A target name made safe for file names: lower case, runs of other characters as ``_``."""
+    return re.sub(r"[^A-Za-z0-9]+", "_", target_name).strip("_").lower() or "target"
+
+
 def photometry_file_stem(target_name: str) -> str:
     """File-name stem for a target's tables: ``<slug>_photometry``."""
-    slug = re.sub(r"[^A-Za-z0-9]+", "_", target_name).strip("_").lower() or "target"
-    return f"{slug}_photometry"
+    return f"{target_slug(target_name)}_photometry"
 
 
 def write_photometry(result: CalibratedPhotometry, folder, csv: bool = False,
