@@ -129,6 +129,30 @@ def test_distance_known_mode_recovers_every_type(reference, capsys):
     assert not misses, f"types off by more than 1 subtype: {misses}"
 
 
+def test_distance_known_mode_top_ranked_type_within_one_subtype(reference, capsys):
+    # The same check on the other type motes reports: the most probable row of the ranked table
+    # (sequence rows are whole/half subtypes carrying the summed probability of the 0.1-step
+    # templates around them). Measured: 42/42 within 1 subtype. The continuous estimate above
+    # (the posterior median, printed first by motes classify) is the stricter quantity and still
+    # misses three types; both are reported on issue 3.
+    tested, misses, lines = 0, [], []
+    for code, row in sorted(reference.items()):
+        mags = {b: m for b, m in absolute_magnitudes(row).items() if b in ("2MASS.J", "2MASS.H", "2MASS.Ks")}
+        if len(mags) < 3:
+            continue
+        tested += 1
+        best = _classify(mags, "distance").ranking("sequence", "distance").best
+        diff = best.type_code - code
+        lines.append(f"{type_label(code):>6} -> {best.type:<6} (p = {best.probability:.2f})  diff {diff:+.1f}")
+        if abs(diff) > 1.0:
+            misses.append(f"{type_label(code)} -> {best.type}")
+    with capsys.disabled():
+        print(f"\ndistance-known mode, J H Ks, top-ranked type: {tested - len(misses)}/{tested} within 1 subtype")
+        print("misses:", ", ".join(misses) or "none")
+    assert tested >= 20
+    assert not misses, f"top-ranked types off by more than 1 subtype: {misses}\n" + "\n".join(lines)
+
+
 def test_colours_only_mode_recovers_most_types(reference, capsys):
     tested, misses, lines = 0, [], []
     for code, row in sorted(reference.items()):
