@@ -70,6 +70,9 @@ MIE_SPHERES_NOTE = ("real grains are not Mie spheres: irregular, porous aggregat
 FRACTIONS_NOTE = ("fractions are volume fractions of the solid; porosity is the vacuum fraction of the "
                   "whole grain volume")
 _FRACTION_TOLERANCE = 1e-6
+#: Band quadrature: a band over which some material's k + NODE_K_FLOOR varies by more than a factor
+#: NODE_K_RATIO gets twice the Gauss nodes (common practice, no source; measured effect in docs/optics.md).
+NODE_K_FLOOR, NODE_K_RATIO = 1e-3, 2.0
 
 
 @dataclass(frozen=True)
@@ -150,7 +153,9 @@ class DiskColourModel:
     a_max : float [um]
         Default largest grain radius.
     wavelength_nodes : int
-        Gauss nodes per band (weight: filter times stellar spectrum).
+        Gauss nodes per band (weight: filter times stellar spectrum); bands on
+        an absorption feature of a material get twice as many (see
+        ``NODE_K_RATIO``).
     size_sampling : SizeSampling
         Size-parameter quadrature of the exact path.
 
@@ -254,7 +259,7 @@ class DiskColourModel:
                                      where="star_spectrum")
                 grid = np.union1d(grid, wl[(wl > grid[0]) & (wl < grid[-1])])
             w = band.weight(grid) * self.star_flux(grid)
-            x, wx = weighted_gauss_nodes(grid, w, self.wavelength_nodes)
+            x, wx = self._band_nodes(grid, w)
             nodes.append(x)
             weights.append(wx)
             owner.append(np.full(x.size, b))
@@ -283,6 +288,27 @@ class DiskColourModel:
             notes.extend(sample.notes)
         self._indices = np.asarray(indices, dtype=complex)  # [K, L]
         self.notes = tuple(dict.fromkeys(notes))
+
+    def _band_nodes(self, grid, weight):
+        """Gauss nodes of one band: ``wavelength_nodes``, twice as many on an absorption feature.
+
+        A band over which some material's k + ``NODE_K_FLOOR`` changes by more
+        than a factor ``NODE_K_RATIO`` (where the band's weight is above 1% of
+        its peak) sits on an absorption feature (e.g. the ice bands at 2.0, 3.1
+        and 3.3 um): its average needs more nodes than a band over a smooth
+        continuum.
+        """
+        inside = weight >= 0.01 * weight.max()
+        count = self.wavelength_nodes
+        for mat in self.materials:
+            try:
+                k = mat.sample(grid[inside]).m.imag + NODE_K_FLOOR
+            except OpticalConstantsError:
+                continue  # reported with the band's name in _setup_nodes
+            if k.max() > NODE_K_RATIO * k.min():
+                count = 2 * self.wavelength_nodes
+                break
+        return weighted_gauss_nodes(grid, weight, count)
 
     # ----------------------------------------------------------- inputs
     def _parameters(self, fractions, porosity, a_min, q, a_max):

@@ -71,8 +71,8 @@ class TableSpec:
     """
 
     n_min: float = 0.8
-    dln_n: float = 0.01
-    n_count: int = 232
+    dln_n: float = 0.005
+    n_count: int = 463
     k_shift: float = 1e-6
     dln_k: float = 0.4
     k_count: int = 46
