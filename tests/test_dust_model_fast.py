@@ -15,6 +15,7 @@ path; the command and its convergence check are in the file's meta).
 
 from __future__ import annotations
 
+import os
 import sys
 from pathlib import Path
 
@@ -210,3 +211,29 @@ def test_fast_accuracy_does_not_regress(table_cache):
     assert np.median(every) < 0.001
     assert (worst < COLOUR_TOLERANCE_MAG).sum() >= 119
     assert worst.max() < 0.015
+
+
+def test_table_build_workers_from_environment(monkeypatch):
+    from motes.dust.tables import table_build_workers
+    from motes.errors import InputError
+
+    monkeypatch.setenv("MOTES_TABLE_WORKERS", "3")
+    assert table_build_workers() == 3
+    monkeypatch.delenv("MOTES_TABLE_WORKERS")
+    assert table_build_workers() == max(1, os.cpu_count() or 1)  # the main process: every core
+    for bad in ("two", "0", "-1", "1.5"):
+        monkeypatch.setenv("MOTES_TABLE_WORKERS", bad)
+        with pytest.raises(InputError, match="MOTES_TABLE_WORKERS must be a whole number"):
+            table_build_workers()
+
+
+def test_table_build_workers_is_one_inside_a_worker_process(monkeypatch):
+    import concurrent.futures
+    import multiprocessing
+
+    from motes.dust.tables import table_build_workers
+
+    monkeypatch.delenv("MOTES_TABLE_WORKERS", raising=False)
+    ctx = multiprocessing.get_context("spawn")
+    with concurrent.futures.ProcessPoolExecutor(max_workers=1, mp_context=ctx) as pool:
+        assert pool.submit(table_build_workers).result() == 1

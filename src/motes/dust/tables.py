@@ -51,7 +51,7 @@ import numba
 import numpy as np
 
 from .. import __version__
-from ..errors import ModelError
+from ..errors import InputError, ModelError
 from ..optics import mie
 from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, TableSpec, build_tile, cache_directory,
                          channel_key, rayleigh_exponents, tile_path, write_atomic_npz)
@@ -65,7 +65,33 @@ __all__ = [
     "rainbow_indices",
     "reachable_indices",
     "table_for_model",
+    "table_build_workers",
 ]
+
+def table_build_workers() -> int:
+    """Processes for building missing tiles: ``$MOTES_TABLE_WORKERS``, else a default.
+
+    Building is a one-off, embarrassingly parallel job, so the main process
+    uses every core; inside a worker process (a fit or grid running on
+    several processes) it stays at 1, so that workers do not each start a
+    pool of their own.
+    """
+    import multiprocessing
+
+    text = os.environ.get("MOTES_TABLE_WORKERS")
+    if text is not None and text.strip():
+        try:
+            value = int(text)
+        except ValueError:
+            value = 0
+        if value < 1:
+            raise InputError(f"MOTES_TABLE_WORKERS must be a whole number >= 1, got {text!r}",
+                             where="environment variable MOTES_TABLE_WORKERS")
+        return value
+    if multiprocessing.parent_process() is not None:
+        return 1
+    return max(1, os.cpu_count() or 1)
+
 
 # ----------------------------------------------------------------- evaluation
 @numba.njit(cache=True)
@@ -175,7 +201,9 @@ class LookupTable:
     progress : bool
         Show a progress bar (stderr) while building tiles.
     workers : int, optional
-        Processes used to build missing tiles (default ``$MOTES_TABLE_WORKERS`` or 1).
+        Processes used to build missing tiles (default: ``$MOTES_TABLE_WORKERS``,
+        else every core in the main process and 1 inside worker processes; see
+        :func:`table_build_workers`).
     """
 
     def __init__(self, geometry, spec: TableSpec | None = None, folder=None, progress: bool = True,
@@ -185,7 +213,7 @@ class LookupTable:
         key = self.spec.key(channel_key(geometry))
         self.folder = Path(folder) if folder is not None else cache_directory() / "tables" / key
         self.progress = progress
-        self.workers = int(workers if workers is not None else os.environ.get("MOTES_TABLE_WORKERS", "1"))
+        self.workers = int(workers) if workers is not None else table_build_workers()
         self.n_channels = 1 if geometry.phase == "mie" else 2
         self._ray = rayleigh_exponents(geometry)
         self._tiles: dict[tuple[int, int], tuple] = {}
