@@ -3,7 +3,8 @@
 A thin layer over tqdm: on a terminal the bar redraws twice a second; when
 stderr is a file or a pipe (a batch job's log, CI) it prints a fresh line at
 most every ``LOG_INTERVAL`` seconds, so overnight logs stay readable instead of
-filling with redraws.
+filling with redraws: there each redraw becomes a line of its own, with
+plain ASCII bars and no cursor movement.
 """
 
 from __future__ import annotations
@@ -21,6 +22,24 @@ def _stderr_is_terminal() -> bool:
         return sys.stderr.isatty()
     except (AttributeError, ValueError):  # replaced or closed stream
         return False
+
+
+class _LogStream:
+    """A file wrapper turning tqdm's redraws into whole lines (for logs)."""
+
+    def __init__(self, stream):
+        self.stream = stream
+
+    def write(self, text: str) -> int:
+        text = text.replace("\x1b[A", "")
+        for piece in text.split("\r"):
+            piece = piece.rstrip()
+            if piece:
+                self.stream.write(piece + "\n")
+        return len(text)
+
+    def flush(self) -> None:
+        self.stream.flush()
 
 
 def progress_bar(**kwargs):
@@ -41,4 +60,7 @@ def progress_bar(**kwargs):
         kwargs["maxinterval"] = max(float(kwargs.get("maxinterval", 0.0)), LOG_INTERVAL)
         kwargs["dynamic_ncols"] = False
         kwargs.setdefault("ncols", 100)
+        kwargs["ascii"] = True
+        kwargs["position"] = 0
+        kwargs["file"] = _LogStream(kwargs["file"])
     return tqdm(**kwargs)
