@@ -77,8 +77,8 @@ class TableSpec:
     dln_k: float = 0.4
     k_count: int = 46
     x_min: float = 0.02
-    dln_x: float = 0.05
-    x_count: int = 268
+    dln_x: float = 0.025
+    x_count: int = 535
     q_min: float = 1.5
     q_step: float = 0.1
     q_count: int = 51

@@ -13,9 +13,12 @@ tabulated instead, ``s = 2 pi t^2 Q_sca`` and ``2 pi t^2 Q_sca g``.
 
 How the table is made
 ---------------------
-* Axes: ``ln n`` (step 0.005 from n = 0.8: half the first choice, which left 3-4% errors next to the rainbow indices for k ~ 5e-4), ``ln(k + 1e-6)`` (step 0.4 from
-  k = 0), ``ln x`` (step 0.05 from x = 0.02 to 1.26e4, i.e. a = 1 mm down to
-  lambda = 0.5 um).
+* Axes: ``ln n`` (step 0.005 from n = 0.8), ``ln(k + 1e-6)`` (step 0.4 from
+  k = 0), ``ln x`` (step 0.025 from x = 0.02 to 1.26e4, i.e. a = 1 mm down to
+  lambda = 0.5 um). The first choice, steps 0.01 in ln n and 0.05 in ln x,
+  left 3-4% errors next to the Mie rainbow indices for k ~ 5e-4 and up to 2%
+  at the lower size limit of weakly absorbing grains (Mie ripple); measured
+  in docs/optics.md.
   Below x = 0.02 the Rayleigh power law ``C ∝ x^(7-q)`` continues the table;
   above its top a geometric-optics tail with the mean ``s / t^2`` of the top
   decade (a note is added to the model's notes when it is used).
