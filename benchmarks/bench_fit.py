@@ -44,7 +44,7 @@ def _write(folder: Path, nlive: int, method: str, model_set: str, maxcall: int |
 
 
 def _run(path: Path, out: Path, workers: int):
-    from motes.dust.fit import FitRunSettings, run_fit
+    from motes.dust.fit.run import FitRunSettings, run_fit
 
     start = time.perf_counter()
     res = run_fit(path, FitRunSettings(output=out, workers=workers, progress=False, figures=False),

@@ -87,8 +87,8 @@ def write_problem(folder: Path, target: float, method: str = "fast", name: str =
 
 
 def run(path: Path, store: Path, workers: int):
-    from motes.dust.grid import read_grid_description
-    from motes.dust.gridrun import GridRunSettings, run_grid
+    from motes.dust.grid.spec import read_grid_description
+    from motes.dust.grid.run import GridRunSettings, run_grid
 
     spec = read_grid_description(path)
     start = time.perf_counter()
@@ -99,8 +99,8 @@ def run(path: Path, store: Path, workers: int):
 
 
 def exact_rate(folder: Path, n: int) -> float:
-    from motes.dust.grid import read_grid_description
-    from motes.dust.gridworkers import GridEvaluator
+    from motes.dust.grid.spec import read_grid_description
+    from motes.dust.grid.workers import GridEvaluator
 
     spec = read_grid_description(write_problem(folder, 1e4, method="exact", name="exact"))
     evaluator = GridEvaluator(spec)
@@ -116,10 +116,10 @@ def memory_child(folder: str, target: float) -> None:
     import resource
     import tracemalloc
 
-    from motes.dust.grid import read_grid_description
-    from motes.dust.gridrun import GridRunSettings, run_grid
-    from motes.dust.gridworkers import build_disk_model, read_grid_observations
-    from motes.dust.gridsummary import summarize_grid
+    from motes.dust.grid.spec import read_grid_description
+    from motes.dust.grid.run import GridRunSettings, run_grid
+    from motes.dust.grid.workers import build_disk_model, read_grid_observations
+    from motes.dust.grid.summary import summarize_grid
 
     folder = Path(folder)
     path = write_problem(folder, target, name=f"memory_{int(target)}")
@@ -157,8 +157,8 @@ def main(argv=None) -> int:
         memory_child(args._memory_child[0], float(args._memory_child[1]))
         return 0
 
-    from motes.dust.gridworkers import build_disk_model, read_grid_observations
-    from motes.dust.grid import read_grid_description
+    from motes.dust.grid.workers import build_disk_model, read_grid_observations
+    from motes.dust.grid.spec import read_grid_description
     from motes.optics.mie import solver_summary
 
     print(f"motes grid benchmark: 4 materials + porosity, 8 bands, a_max 1 mm; {os.cpu_count()} cores")

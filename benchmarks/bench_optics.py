@@ -10,7 +10,7 @@ Prints, measured in this run on ONE core (numba/BLAS threads pinned to 1):
 * models/s of the straightforward exact evaluation (8 bands x 7 wavelength
   nodes x 200 log-spaced sizes, trapezoid in ln a; what a first script does),
 * models/s of motes' exact path at the model's default settings (8 Gauss
-  nodes per band, 16 on absorption features; size rule of motes.dust.sampling),
+  nodes per band, 16 on absorption features; size rule of motes.dust.model.sampling),
 * models/s of the fast path (batches of points, tables already built),
 * their ratios,
 * the table build time (tiles built in this run, if any) and the cache size,
@@ -48,7 +48,7 @@ REFERENCE = HERE.parent / "tests" / "data" / "optics_reference.ecsv"
 
 def straightforward(model, fractions, porosity, a_min, q=3.5, a_max=1000.0, nodes=7, sizes=200):
     """The plain evaluation: per band 7 Gauss nodes, 200 log-spaced sizes, trapezoid in ln a."""
-    from motes.dust.sampling import weighted_gauss_nodes
+    from motes.dust.model.sampling import weighted_gauss_nodes
     from motes.optics import mie
 
     out = np.empty((len(fractions), len(model.bands)))
@@ -92,7 +92,7 @@ def main(argv=None):
 
     from astropy.table import Table
 
-    from motes.dust.tables import cache_directory
+    from motes.dust.model.tables import cache_directory
     from motes.optics.mie import solver_summary
 
     print(f"Mie solver: {solver_summary()}")
@@ -117,7 +117,7 @@ def main(argv=None):
     print(f"motes exact path (8 nodes per band, 16 on absorption features; size rule): {exact_rate:8.3f} models/s")
 
     # --- fast path: build/load tables, then time batches
-    from motes.dust.tables import table_for_model
+    from motes.dust.model.tables import table_for_model
 
     t0 = time.perf_counter()
     handle = table_for_model(fast)

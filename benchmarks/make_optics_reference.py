@@ -72,13 +72,13 @@ def bands():
 
 
 def reference_sampling():
-    from motes.dust.sampling import SizeSampling
+    from motes.dust.model.sampling import SizeSampling
 
     return SizeSampling()  # the exact path's default rule (c0 = 1e-4)
 
 
 def build_model(name, method, nodes=FAST_NODES, sampling=None):
-    from motes.dust.model import DiskColourModel
+    from motes.dust.model.colours import DiskColourModel
 
     return DiskColourModel(MODELS[name], bands(), star_teff=STAR_TEFF, method=method, a_max=1000.0,
                            wavelength_nodes=nodes, size_sampling=sampling or reference_sampling())

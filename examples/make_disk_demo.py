@@ -115,7 +115,7 @@ seed = 7
 def main(argv=None) -> None:
     import tomllib
 
-    from motes.dust.description import parse_model_description
+    from motes.dust.model.description import parse_model_description
     from motes.dust.observations import read_disk_photometry
 
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])

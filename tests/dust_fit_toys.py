@@ -44,7 +44,7 @@ class ToyColourModel:
 
 
 def toy_factory(spec, materials, bands):
-    """``model_factory`` for :func:`motes.dust.fit.run_fit`."""
+    """``model_factory`` for :func:`motes.dust.fit.run.run_fit`."""
     return ToyColourModel(materials, bands)
 
 

@@ -8,8 +8,8 @@ from pathlib import Path
 import numpy as np
 
 from motes.demo import disk_fit as demo_part
-from motes.dust.fitmodel import read_fit_photometry
-from motes.dust.fitspec import read_fit_description
+from motes.dust.fit.problem import read_fit_photometry
+from motes.dust.fit.spec import read_fit_description
 
 REPO = Path(__file__).resolve().parents[1]
 SCRIPT = REPO / "examples" / "make_disk_demo.py"

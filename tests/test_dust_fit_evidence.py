@@ -7,9 +7,9 @@ import math
 import numpy as np
 import pytest
 
-from motes.dust.evidence import (VERDICT_RULE, ModelEvidence, material_verdicts, rank_models, strength_of,
+from motes.dust.fit.evidence import (VERDICT_RULE, ModelEvidence, material_verdicts, rank_models, strength_of,
                                  summarise_posterior)
-from motes.dust.fitspec import build_model_set
+from motes.dust.fit.spec import build_model_set
 from motes.errors import FitError
 
 MATS = ("silica", "ice", "carbon")

@@ -48,7 +48,7 @@ _MODELS = {}
 
 def _simulate(fractions: dict, porosity, a_min, q, rng, scale=2e-3):
     """Noisy disk/star ratios from the fast model of the given mixture."""
-    from motes.dust.model import DiskColourModel
+    from motes.dust.model.colours import DiskColourModel
     from motes.optics.constants import load_material
     from motes.photometry.bands import get_band, top_hat_band
 
@@ -62,7 +62,7 @@ def _simulate(fractions: dict, porosity, a_min, q, rng, scale=2e-3):
 
 
 def _fit(folder, text, value, error):
-    from motes.dust.fit import FitRunSettings, run_fit
+    from motes.dust.fit.run import FitRunSettings, run_fit
 
     folder.mkdir(parents=True, exist_ok=True)
     (folder / "disk.csv").write_text("band,value,error\n" + "\n".join(

@@ -29,7 +29,7 @@ DRIVER = '''
 import sys
 sys.path.insert(0, {tests!r})
 import dust_fit_toys
-import motes.dust.fitmodel as fitmodel
+import motes.dust.fit.problem as fitmodel
 fitmodel.build_colour_model = dust_fit_toys.toy_factory    # runs in the driver and in every spawned worker
 
 if __name__ == "__main__":

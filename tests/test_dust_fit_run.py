@@ -9,8 +9,8 @@ import pytest
 from astropy.table import Table
 
 from motes.cli import main as cli_main
-from motes.dust.fit import FitRunSettings, run_fit
-from motes.dust.fitspec import parse_fit_description, read_fit_description
+from motes.dust.fit.run import FitRunSettings, run_fit
+from motes.dust.fit.spec import parse_fit_description, read_fit_description
 from motes.errors import FitError, InputError
 
 from dust_fit_toys import toy_factory, write_toy_fit

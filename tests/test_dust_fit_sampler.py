@@ -10,10 +10,10 @@ from scipy.integrate import quad
 from scipy.special import log_ndtr
 from scipy.stats import kstest
 
-from motes.dust.fit import FitRunSettings, prepare_fit, run_fit
-from motes.dust.fitspec import SamplerSettings, read_fit_description
-from motes.dust.nested import open_pool, run_nested_model
-from motes.dust.priors import ParameterSpace, Prior, dirichlet_from_cube
+from motes.dust.fit.run import FitRunSettings, prepare_fit, run_fit
+from motes.dust.fit.spec import SamplerSettings, read_fit_description
+from motes.dust.fit.sampler import open_pool, run_nested_model
+from motes.dust.fit.priors import ParameterSpace, Prior, dirichlet_from_cube
 
 from dust_fit_toys import toy_factory, write_toy_fit
 

@@ -16,13 +16,13 @@ import numpy as np
 import pyarrow.parquet as pq
 import pytest
 
-from motes.dust.compositions import SimplexGrid, count_compositions
-from motes.dust.sampling import SizeSampling
-from motes.dust.grid import AXES, parse_grid_description, read_grid_description
-from motes.dust.gridrun import GridRunSettings, describe_dry_run, run_grid
-from motes.dust.gridworkers import GridEvaluator
-from motes.dust.gridstore import GridStore
-from motes.dust.gridsummary import summarize_grid
+from motes.dust.grid.compositions import SimplexGrid, count_compositions
+from motes.dust.model.sampling import SizeSampling
+from motes.dust.grid.spec import AXES, parse_grid_description, read_grid_description
+from motes.dust.grid.run import GridRunSettings, describe_dry_run, run_grid
+from motes.dust.grid.workers import GridEvaluator
+from motes.dust.grid.store import GridStore
+from motes.dust.grid.summary import summarize_grid
 from motes.errors import GridError, InputError
 
 BANDS = ("2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2")
@@ -100,8 +100,8 @@ TINY_SIZES = SizeSampling(c0=0.03, c_max=0.1, t_knee=10.0, t_knee2=10.0, growth=
 
 def tiny_real_factory(spec, observations):
     """The real DiskColourModel of the description, with the coarse size quadrature TINY_SIZES."""
-    from motes.dust.description import parse_model_description
-    from motes.dust.model import DiskColourModel
+    from motes.dust.model.description import parse_model_description
+    from motes.dust.model.colours import DiskColourModel
 
     d = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
     return DiskColourModel(d.materials, observations.bands, star_teff=d.star.teff, star_spectrum=d.star.spectrum,
@@ -391,7 +391,7 @@ def test_grid_figures_are_written(grid_file, tmp_path):
 
 def test_demo_grid_description_reads_and_counts(tmp_path):
     from motes.demo import disk_grid
-    from motes.dust.gridworkers import read_grid_observations
+    from motes.dust.grid.workers import read_grid_observations
 
     disk_grid.write_inputs(tmp_path)
     spec = read_grid_description(tmp_path / "disk_grid.toml")
@@ -427,10 +427,10 @@ def test_scheduler_without_dask_installed_says_how_to_install(grid_file, tmp_pat
 
 def test_spawned_workers_give_the_same_store(grid_file, tmp_path, monkeypatch):
     # Linux uses fork (workers inherit the driver's model); macOS and others use spawn: check that path too
-    import motes.dust.gridworkers
+    import motes.dust.grid.workers
 
     spec = read_grid_description(grid_file)
     run_grid(spec, tmp_path / "one", quiet(workers=1), model_factory=standin_factory)
-    monkeypatch.setattr(motes.dust.gridworkers, "_start_method", lambda: "spawn")
+    monkeypatch.setattr(motes.dust.grid.workers, "_start_method", lambda: "spawn")
     run_grid(spec, tmp_path / "spawned", quiet(workers=2), model_factory=standin_factory)
     assert read_sorted(tmp_path / "one").equals(read_sorted(tmp_path / "spawned"))

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from motes.cli import main
-from motes.dust.gridstore import GridStore
+from motes.dust.grid.store import GridStore
 
 from test_dust_grid import tiny_real_factory, write_real_grid
 
@@ -16,9 +16,9 @@ from test_dust_grid import tiny_real_factory, write_real_grid
 @pytest.fixture(autouse=True)
 def tiny_real_model(monkeypatch):
     """The command line builds its model with the real Mie model's coarse size quadrature."""
-    import motes.dust.gridrun
+    import motes.dust.grid.run
 
-    monkeypatch.setattr(motes.dust.gridrun, "build_disk_model", tiny_real_factory)
+    monkeypatch.setattr(motes.dust.grid.run, "build_disk_model", tiny_real_factory)
 
 
 def test_run_then_summarize_on_the_real_model(tmp_path, rng, capsys):

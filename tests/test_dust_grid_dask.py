@@ -7,8 +7,8 @@ import time
 
 import pytest
 
-from motes.dust.grid import read_grid_description
-from motes.dust.gridrun import GridRunSettings, run_grid
+from motes.dust.grid.spec import read_grid_description
+from motes.dust.grid.run import GridRunSettings, run_grid
 from motes.errors import GridError
 
 from test_dust_grid import grid_file, read_sorted, standin_factory, tiny_real_factory, write_real_grid  # noqa: F401

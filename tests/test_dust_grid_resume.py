@@ -23,9 +23,9 @@ import numpy as np
 import pyarrow.parquet as pq
 import pytest
 
-from motes.dust.grid import read_grid_description
-from motes.dust.gridrun import GridRunSettings, run_grid
-from motes.dust.gridstore import GridStore
+from motes.dust.grid.spec import read_grid_description
+from motes.dust.grid.run import GridRunSettings, run_grid
+from motes.dust.grid.store import GridStore
 
 from test_dust_grid import read_sorted, tiny_real_factory, write_real_grid
 
@@ -34,7 +34,7 @@ TESTS = Path(__file__).resolve().parent
 # `motes grid` exactly as `python -m motes` runs it, with the real Mie model's size quadrature made coarse
 # (tiny_real_factory) so that a run takes about a second; worker processes get the factory by reference
 _CLI = ("import sys; sys.path.insert(0, {tests!r}); import test_dust_grid as t; "
-        "import motes.dust.gridrun as g; g.build_disk_model = t.tiny_real_factory; "
+        "import motes.dust.grid.run as g; g.build_disk_model = t.tiny_real_factory; "
         "from motes.cli import main; sys.exit(main(sys.argv[1:]))")
 
 def parts_in(store: Path) -> int:

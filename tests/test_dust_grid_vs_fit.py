@@ -15,7 +15,7 @@ chi-square values are compared, not positions):
 The forward model is the analytic stand-in of ``test_dust_grid.py`` plugged
 into both runners through their model-factory hooks, so that the nested
 sampler runs in seconds; both runners take the chi-square from
-``motes.dust.observations.chi_square_with_best_scale``.
+``motes.dust.likelihood.chi_square_with_best_scale``.
 """
 
 from __future__ import annotations
@@ -23,9 +23,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from motes.dust.grid import read_grid_description
-from motes.dust.gridrun import GridRunSettings, run_grid
-from motes.dust.gridstore import GridStore
+from motes.dust.grid.spec import read_grid_description
+from motes.dust.grid.run import GridRunSettings, run_grid
+from motes.dust.grid.store import GridStore
 
 from test_dust_grid import StandInModel, grid_text, standin_factory, write_photometry
 
@@ -64,8 +64,8 @@ n_posterior = 200
 
 def test_grid_best_chi2_brackets_the_nested_sampling_maximum(tmp_path, rng):
     pytest.importorskip("dynesty", reason="the fit runs dynesty")
-    from motes.dust.fit import FitRunSettings, run_fit
-    from motes.dust.fitspec import read_fit_description
+    from motes.dust.fit.run import FitRunSettings, run_fit
+    from motes.dust.fit.spec import read_fit_description
 
     write_photometry(tmp_path, rng=rng, truth={"fractions": [0.47, 0.31, 0.22], "porosity": 0.27,
                                                "a_min": 1.7, "q": 3.5})

@@ -1,13 +1,13 @@
-"""The disk-colour forward model, exact path (motes.dust.model) and its descriptions."""
+"""The disk-colour forward model, exact path (motes.dust.model.colours) and its descriptions."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from motes.dust.description import parse_model_description
-from motes.dust.model import DiskColourModel, ScatteringGeometry
-from motes.dust.sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
+from motes.dust.model.description import parse_model_description
+from motes.dust.model.colours import DiskColourModel, ScatteringGeometry
+from motes.dust.model.sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
 from motes.errors import InputError, OpticalConstantsError
 from motes.optics.constants import Material
 from motes.photometry.bands import top_hat_band

@@ -1,4 +1,4 @@
-"""The fast path (motes.dust.tables) against the exact path.
+"""The fast path (motes.dust.model.tables) against the exact path.
 
 Tables are cached in ``$MOTES_CACHE_DIR`` when it is set, else in pytest's
 cache folder (``.pytest_cache/d/motes-tables``), so that only the first run
@@ -22,9 +22,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from motes.dust.model import DiskColourModel, ScatteringGeometry
-from motes.dust.sampling import SizeSampling
-from motes.dust.tables import LookupTable, ModelTable, TableSpec
+from motes.dust.model.colours import DiskColourModel, ScatteringGeometry
+from motes.dust.model.sampling import SizeSampling
+from motes.dust.model.tables import LookupTable, ModelTable, TableSpec
 from motes.errors import ModelError
 from motes.optics.constants import Material
 from motes.photometry.bands import top_hat_band
@@ -202,7 +202,7 @@ def test_fast_meets_the_goal_everywhere(table_cache):
 
 
 def test_table_build_workers_from_environment(monkeypatch):
-    from motes.dust.tables import table_build_workers
+    from motes.dust.model.tables import table_build_workers
     from motes.errors import InputError
 
     monkeypatch.setenv("MOTES_TABLE_WORKERS", "3")
@@ -219,7 +219,7 @@ def test_table_build_workers_is_one_inside_a_worker_process(monkeypatch):
     import concurrent.futures
     import multiprocessing
 
-    from motes.dust.tables import table_build_workers
+    from motes.dust.model.tables import table_build_workers
 
     monkeypatch.delenv("MOTES_TABLE_WORKERS", raising=False)
     ctx = multiprocessing.get_context("spawn")

@@ -50,8 +50,8 @@ def register(subparsers) -> None:
 
 
 def _run(args) -> int:
-    from ..dust.fit import FitRunSettings, run_fit
-    from ..dust.fitresults import format_fit_report
+    from ..dust.fit.run import FitRunSettings, run_fit
+    from ..dust.fit.results import format_fit_report
 
     settings = FitRunSettings(output=args.output, workers=args.workers, resume=True,
                               fresh=(args.mode == "fresh"), progress=not args.quiet,

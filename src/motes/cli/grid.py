@@ -40,7 +40,7 @@ examples:
 
 
 def register(subparsers) -> None:
-    from ..dust.grid import DEFAULT_MAX_POINTS
+    from ..dust.grid.spec import DEFAULT_MAX_POINTS
 
     parser = subparsers.add_parser(
         "grid",
@@ -89,7 +89,7 @@ def _main(args) -> int:
 
 
 def _settings(args):
-    from ..dust.gridrun import GridRunSettings
+    from ..dust.grid.run import GridRunSettings
 
     kw = {}
     if args.workers is not None:
@@ -101,8 +101,8 @@ def _settings(args):
 
 
 def _run(path: Path, args) -> int:
-    from ..dust.grid import read_grid_description
-    from ..dust.gridrun import default_store_path, describe_dry_run, run_grid
+    from ..dust.grid.spec import read_grid_description
+    from ..dust.grid.run import default_store_path, describe_dry_run, run_grid
 
     spec = read_grid_description(path)
     settings = _settings(args)
@@ -129,7 +129,7 @@ def _run(path: Path, args) -> int:
 
 
 def _summarize(store: Path, args, default_folder: Path | None = None) -> int:
-    from ..dust.gridsummary import summarize_grid
+    from ..dust.grid.summary import summarize_grid
     from ..report.grid_figures import write_grid_figures
 
     summary = summarize_grid(store, top=args.top or 10)

@@ -56,7 +56,7 @@ def register(subparsers) -> None:
 def _run(args) -> int:
     import dataclasses
 
-    from ..dust.mixture import (compute_mixture_optics, format_mixture_optics, read_mixture_file,
+    from ..dust.model.mixture import (compute_mixture_optics, format_mixture_optics, read_mixture_file,
                                 write_mixture_outputs)
 
     path = Path(args.mixture)

@@ -25,7 +25,7 @@ def write_inputs(folder: Path) -> None:
 
 def run(folder: Path) -> None:
     """Run the fit (resuming a previous demo run in the same folder) and print a short summary."""
-    from ..dust.fit import FitRunSettings, run_fit
+    from ..dust.fit.run import FitRunSettings, run_fit
 
     folder = Path(folder)
     out = folder / "disk_fit_run"

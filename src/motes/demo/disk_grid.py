@@ -29,9 +29,9 @@ def write_inputs(folder: Path) -> None:
 
 def run(folder: Path) -> None:
     """Run (or resume) the grid, then print the best mixtures and the per-material profiles."""
-    from ..dust.grid import read_grid_description
-    from ..dust.gridrun import GridRunSettings, run_grid
-    from ..dust.gridsummary import summarize_grid
+    from ..dust.grid.spec import read_grid_description
+    from ..dust.grid.run import GridRunSettings, run_grid
+    from ..dust.grid.summary import summarize_grid
     from ..report.grid_figures import write_grid_figures
 
     folder = Path(folder)

@@ -27,7 +27,7 @@ def write_inputs(folder: Path) -> None:
 
 def run(folder: Path) -> None:
     """Compute the mixture's optics (exact Mie path), print them, write table and figures."""
-    from ..dust.mixture import (compute_mixture_optics, format_mixture_optics, read_mixture_file,
+    from ..dust.model.mixture import (compute_mixture_optics, format_mixture_optics, read_mixture_file,
                                 write_mixture_outputs)
 
     folder = Path(folder)

@@ -1,20 +1,20 @@
-"""Dust: the forward model of disk colours, its fast path, fits and grids.
+"""Dust: what a scattered-light debris disk is made of.
 
-The forward model (:mod:`motes.dust.model`), its description format
-(:mod:`motes.dust.description`), quadrature rules (:mod:`motes.dust.sampling`)
-and lookup tables (:mod:`motes.dust.tables`) are re-exported here; fits and
-grids live in their own modules.
+The package reads as the data flow::
+
+    model/          forward model of disk colours (description, geometry, quadrature,
+                    exact and tabulated Mie paths, one mixture's optics)
+    observations    the measured disk/star ratios
+    likelihood      the one noise model: detections, upper limits, systematic term,
+                    flux-scale prior and its marginalisation
+    fit/            nested sampling per model and the evidence ranking
+    grid/           grids of mixtures: spec, enumeration, store, workers, summary
+
+Formatted text and figures are in :mod:`motes.report`.
 """
 
 from __future__ import annotations
 
-from .description import (
-    ModelDescription,
-    StarDescription,
-    model_from_description,
-    parse_model_description,
-    read_model_description,
-)
 from .model import (
     FRACTIONS_NOTE,
     METHODS,
@@ -22,29 +22,39 @@ from .model import (
     PHASES,
     BandOptics,
     DiskColourModel,
-    ScatteringGeometry,
-)
-from .mixture import (
+    LookupTable,
     MixtureOptics,
     MixtureParameters,
+    ModelDescription,
+    ScatteringGeometry,
+    SizeSampling,
+    StarDescription,
+    TableSpec,
+    cache_directory,
     compute_mixture_optics,
-    format_mixture_optics,
+    model_from_description,
+    parse_model_description,
     read_mixture_file,
-    write_mixture_outputs,
+    read_model_description,
+    size_parameter_rule,
+    table_for_model,
+    weighted_gauss_nodes,
 )
-from .sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
-from .tables import LookupTable, TableSpec, cache_directory, table_for_model
-from .compositions import count_compositions
-from .grid import GridSpec, SimplexGrid, read_grid_description
-from .gridrun import GridRunResult, GridRunSettings, run_grid
-from .gridstore import GridStore
-from .gridsummary import GridSummary, summarize_grid
-from .observations import DiskPhotometry, chi_square_with_best_scale, read_disk_photometry
-from .scale import ScalePrior
-from .fitspec import FitSpec, read_fit_description
-from .fit import FitRunSettings, run_fit
-from .fitresults import FitResult, ModelResult
-from .evidence import VERDICT_RULE
+from .observations import DiskPhotometry, read_disk_photometry
+from .likelihood import ScalePrior, chi_square_with_best_scale
+from .fit import VERDICT_RULE, FitResult, FitRunSettings, FitSpec, ModelResult, read_fit_description, run_fit
+from .grid import (
+    GridRunResult,
+    GridRunSettings,
+    GridSpec,
+    GridStore,
+    GridSummary,
+    SimplexGrid,
+    count_compositions,
+    read_grid_description,
+    run_grid,
+    summarize_grid,
+)
 
 __all__ = [
     "DiskPhotometry",
@@ -84,7 +94,6 @@ __all__ = [
     "TableSpec",
     "cache_directory",
     "compute_mixture_optics",
-    "format_mixture_optics",
     "model_from_description",
     "parse_model_description",
     "read_mixture_file",
@@ -92,5 +101,4 @@ __all__ = [
     "size_parameter_rule",
     "table_for_model",
     "weighted_gauss_nodes",
-    "write_mixture_outputs",
 ]

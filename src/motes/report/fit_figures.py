@@ -1,7 +1,7 @@
 """Figures of a disk-colour fit: data vs posterior models, a corner plot, evidences.
 
 Only formatting: every number plotted comes from a
-:class:`motes.dust.fitresults.FitResult` (its per-model colour tables,
+:class:`motes.dust.fit.results.FitResult` (its per-model colour tables,
 posterior samples and ranking).
 """
 

@@ -1,6 +1,6 @@
 """Figures of a grid summary: chi-square profiles per material and axis, best models vs data.
 
-Functions take a :class:`motes.dust.gridsummary.GridSummary` and a file path,
+Functions take a :class:`motes.dust.grid.summary.GridSummary` and a file path,
 draw with matplotlib's Agg backend, write the figure (temporary name, then
 rename) and return the path. :func:`write_grid_figures` writes all of them.
 """

@@ -31,9 +31,9 @@ from pathlib import Path
 import numpy as np
 from astropy.table import Table
 
-from ..errors import GridError
-from .grid import AXES
-from .gridstore import GridStore, fraction_column, model_column
+from ...errors import GridError
+from .spec import AXES
+from .store import GridStore, fraction_column, model_column
 
 __all__ = ["GridSummary", "summarize_grid", "ABSENCE_DELTA_CHI2"]
 

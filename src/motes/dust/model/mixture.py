@@ -1,6 +1,6 @@
 """One dust mixture's optics per band: what ``motes optics MIXTURE.toml`` reports.
 
-A mixture file is a model description (:mod:`motes.dust.description`) plus a
+A mixture file is a model description (:mod:`motes.dust.model.description`) plus a
 ``[mixture]`` section::
 
     [mixture]
@@ -24,11 +24,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..optics import mie
-from ..optics.sizes import BlowoutResult
+from ...errors import InputError
+from ...optics import mie
+from ...optics.sizes import BlowoutResult
 from .description import ModelDescription, read_model_description
-from .model import BandOptics, DiskColourModel
+from .colours import BandOptics, DiskColourModel
 from .sampling import SizeSampling
 
 __all__ = [
@@ -249,7 +249,7 @@ def _table(result: MixtureOptics):
 
 def write_mixture_outputs(result: MixtureOptics, folder, stem: str = "optics", figures: bool = True) -> list[Path]:
     """Write the per-band table (ECSV) and the two figures; return the paths."""
-    from ..report.optics_figures import plot_efficiencies, plot_reflectance
+    from ...report.optics_figures import plot_efficiencies, plot_reflectance
 
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)

@@ -53,10 +53,10 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError, MotesError
-from ..optics.constants import Material, load_material
-from ..photometry.bands import Band, get_band
-from .model import METHODS, PHASES, DiskColourModel, ScatteringGeometry
+from ...errors import InputError, MotesError
+from ...optics.constants import Material, load_material
+from ...photometry.bands import Band, get_band
+from .colours import METHODS, PHASES, DiskColourModel, ScatteringGeometry
 
 __all__ = [
     "StarDescription",
@@ -197,7 +197,7 @@ def _read_star(doc, source, base_dir) -> StarDescription:
     teff = _number(star["teff"], source, "[star] teff") if "teff" in star else None
     spectrum = None
     if "spectrum" in star:
-        from ..photometry.targets import read_host_spectrum
+        from ...photometry.targets import read_host_spectrum
 
         spec = star["spectrum"]
         if isinstance(spec, str):
@@ -314,7 +314,7 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
         raise InputError("matrix is used by rule = 'maxwell_garnett' only", path=source, where="[mixing] matrix")
     geometry = _read_geometry(doc, source)
     try:
-        from ..photometry.targets import user_bands_from_document  # shared [bands.NAME] format
+        from ...photometry.targets import user_bands_from_document  # shared [bands.NAME] format
 
         custom = user_bands_from_document(doc, Path(source) if source != "<string>" else base_dir / "description.toml",
                                   "photon")

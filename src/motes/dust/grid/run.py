@@ -9,9 +9,9 @@ returned chunk as one atomic Parquet part and moves on. At most a few chunks
 per worker are in flight, so memory stays flat however large the grid.
 
 Evaluation and the execution back ends (in-process, local processes, Dask)
-are in :mod:`motes.dust.gridworkers`; the forward model comes from one
+are in :mod:`motes.dust.grid.workers`; the forward model comes from one
 function, ``model_factory(spec, observations)``,
-:func:`~motes.dust.gridworkers.build_disk_model` by default.
+:func:`~motes.dust.grid.workers.build_disk_model` by default.
 """
 
 from __future__ import annotations
@@ -23,12 +23,12 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import GridError
-from .grid import AXES, DEFAULT_MAX_POINTS, GridSpec
-from .gridstore import GridStore, fraction_column, model_column
-from .gridworkers import (GridEvaluator, GridJob, build_disk_model, connect_scheduler, read_grid_observations,
+from ...errors import GridError
+from .spec import AXES, DEFAULT_MAX_POINTS, GridSpec
+from .store import GridStore, fraction_column, model_column
+from .workers import (GridEvaluator, GridJob, build_disk_model, connect_scheduler, read_grid_observations,
                           run_dask, run_processes, run_serial)
-from .observations import DiskPhotometry
+from ..observations import DiskPhotometry
 
 __all__ = [
     "GridRunSettings",
@@ -286,8 +286,8 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
     settings : GridRunSettings
     model_factory : callable, optional
         ``model_factory(spec, observations)`` returning the forward model (see
-        :class:`~motes.dust.gridworkers.GridEvaluator`); default
-        :func:`~motes.dust.gridworkers.build_disk_model`.
+        :class:`~motes.dust.grid.workers.GridEvaluator`); default
+        :func:`~motes.dust.grid.workers.build_disk_model`.
     echo : callable
         Where one-line status messages go.
 

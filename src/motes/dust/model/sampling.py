@@ -33,7 +33,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from ..errors import InputError
+from ...errors import InputError
 
 __all__ = ["SizeSampling", "bin_rule", "size_parameter_rule", "weighted_gauss_nodes"]
 

@@ -26,8 +26,8 @@ from typing import Callable
 
 import numpy as np
 
-from ..errors import FitError
-from .scale import ScalePrior
+from ...errors import FitError
+from ..likelihood import ScalePrior
 
 __all__ = [
     "Prior",
@@ -138,7 +138,7 @@ def parse_prior(entry, name: str, path=None, allow_relative: bool = False) -> Pr
     motes.errors.InputError
         Naming the file and ``[parameters] <name>``.
     """
-    from ..errors import InputError
+    from ...errors import InputError
 
     where = f"[parameters] {name}"
     if isinstance(entry, bool):

@@ -2,7 +2,7 @@
 
 A grid description is a TOML file. The sections that describe the star, the
 materials, the mixing rule and the scattering geometry are the same as in a fit
-description and are read by :mod:`motes.dust.description`; the data to compare
+description and are read by :mod:`motes.dust.model.description`; the data to compare
 against are named in ``[data]``; the grid axes are in ``[grid]``::
 
     [data]
@@ -33,7 +33,7 @@ against are named in ``[data]``; the grid axes are in ``[grid]``::
     water_ice = [0.0, 0.5]
 
 Every point has an integer key in ``0 .. n_points - 1``: the composition rank
-(see :mod:`motes.dust.compositions`) is the slowest digit, then porosity,
+(see :mod:`motes.dust.grid.compositions`) is the slowest digit, then porosity,
 a_min, q and a_max (fastest), so ``key = ((((c * n_p + i_p) * n_amin + i_amin)
 * n_q + i_q) * n_amax + i_amax)``. Keys are the same on every machine and in
 every run of the same description; chunks of consecutive keys are the units of
@@ -53,7 +53,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import GridError, InputError
+from ...errors import GridError, InputError
 from .compositions import SimplexGrid
 
 __all__ = [
@@ -110,7 +110,7 @@ class GridSpec:
     ----------
     description : dict
         The whole parsed TOML document (model sections are handed on to
-        :mod:`motes.dust.description`).
+        :mod:`motes.dust.model.description`).
     base_dir : pathlib.Path
         Folder against which relative paths in the description are resolved.
     materials : tuple of str
@@ -294,7 +294,7 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
     axes = {name: _axis(grid, name, source) for name in AXES if name != "a_max"}
     if "a_max" in grid:
         axes["a_max"] = _axis(grid, "a_max", source)
-    else:   # the description's single value, checked by motes.dust.description
+    else:   # the description's single value, checked by motes.dust.model.description
         a_max = model.get("a_max", 1000.0) if isinstance(model, dict) else 1000.0
         axes["a_max"] = (float(a_max),) if isinstance(a_max, (int, float)) and not isinstance(a_max, bool) else (1000.0,)
     if max(axes["a_min"]) >= min(axes["a_max"]):

@@ -1,7 +1,7 @@
 """Fast path of the disk-colour model: cached lookup tables of size integrals.
 
 For ``n(a) ∝ a^-q`` the substitution ``a = t lambda / 2 pi`` turns the size
-integral into (GUIDE section 9; :mod:`motes.dust.model`)::
+integral into (GUIDE section 9; :mod:`motes.dust.model.colours`)::
 
     integral_{a_min}^{a_max} a^-q pi a^2 Q_sca p da = (lambda/2pi)^(3-q) [C(x_max) - C(x_min)]
     C(x; m, q) = 1/2 integral_0^x t^-q s(t; m) dt,   s = mean over angles of |S1|^2 + |S2|^2
@@ -23,7 +23,7 @@ How the table is made
   above its top a geometric-optics tail with the mean ``s / t^2`` of the top
   decade (a note is added to the model's notes when it is used).
 * Per (n, k) node the integrand is sampled by
-  :func:`motes.dust.sampling.bin_rule` inside every ``ln x`` bin (the same rule
+  :func:`motes.dust.model.sampling.bin_rule` inside every ``ln x`` bin (the same rule
   as the exact path) and stored as five moments per bin,
   ``M_j = sum w s (ln t - ln t_c)^j``, so that the bin integral for any q is
   ``t_c^-q sum_j (-q)^j M_j / j!`` (truncation error below 1e-6).
@@ -53,9 +53,9 @@ from pathlib import Path
 import numba
 import numpy as np
 
-from .. import __version__
-from ..errors import InputError, ModelError
-from ..optics import mie
+from ... import __version__
+from ...errors import InputError, ModelError
+from ...optics import mie
 from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, TableSpec, build_tile, cache_directory,
                          channel_key, rayleigh_exponents, tile_path, write_atomic_npz)
 
@@ -265,7 +265,7 @@ class LookupTable:
         self._write_spec()
         bar = None
         if self.progress:
-            from ..progress import progress_bar
+            from ...progress import progress_bar
 
             bar = progress_bar(total=len(todo), desc="motes: building optics lookup tiles", unit="tile",
                                leave=False)
@@ -474,7 +474,7 @@ _CAUSTIC_DN, _CAUSTIC_K = 0.02, 2e-3
 
 
 class ModelTable:
-    """The fast path bound to one :class:`~motes.dust.model.DiskColourModel`."""
+    """The fast path bound to one :class:`~motes.dust.model.colours.DiskColourModel`."""
 
     def __init__(self, model, table: LookupTable):
         self.model = model
@@ -484,7 +484,7 @@ class ModelTable:
 
     def node_values(self, m, wavelength, a_min, q, a_max) -> np.ndarray:
         """Monochromatic flux ratios R at the band nodes, ``ndarray[N, L]``."""
-        from ..optics.sizes import power_law_cross_section
+        from ...optics.sizes import power_law_cross_section
 
         m = np.asarray(m, dtype=complex)
         n_pts, n_lam = m.shape

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import GridError
+from ...errors import GridError
 
 __all__ = ["SimplexGrid", "count_compositions"]
 

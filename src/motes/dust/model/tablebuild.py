@@ -1,8 +1,8 @@
 """Building the fast path's lookup tables: axes, cache folder, per-node moments.
 
-See :mod:`motes.dust.tables` for what the tables hold and how they are used.
+See :mod:`motes.dust.model.tables` for what the tables hold and how they are used.
 Each (n, k) node samples the size-parameter integrand with the exact path's
-rule (:func:`motes.dust.sampling.bin_rule`) inside every ``ln x`` bin and
+rule (:func:`motes.dust.model.sampling.bin_rule`) inside every ``ln x`` bin and
 keeps five moments per bin, ``M_j = sum w s (ln t - ln t_c)^j / 2``, from
 which the bin integral of ``t^-q s / 2`` follows for any q as
 ``t_c^-q sum_j (-q)^j M_j / j!`` (``|q ln(t/t_c)| <= 0.17``: truncation
@@ -21,7 +21,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..optics import mie
+from ...optics import mie
 from .sampling import SizeSampling, bin_rule
 
 __all__ = [

@@ -30,8 +30,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import FitError
-from .fitspec import SamplerSettings
+from ...errors import FitError
+from .spec import SamplerSettings
 
 __all__ = ["NestedRun", "run_nested_model", "open_pool"]
 
@@ -111,7 +111,7 @@ class _Progress:
     def __init__(self, label: str, enabled: bool, initial: int = 0):
         self.bar = None
         if enabled:
-            from ..progress import progress_bar
+            from ...progress import progress_bar
 
             self.bar = progress_bar(desc=label, initial=initial, unit=" it", leave=True)
 

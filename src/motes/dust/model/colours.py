@@ -17,7 +17,7 @@ the angles of the :class:`ScatteringGeometry`. Per band b the model returns::
 with the band's weight ``w_b`` (:meth:`motes.photometry.bands.Band.weight`,
 photon counting by default) and the stellar F_lambda (a blackbody of
 ``star_teff`` or a user spectrum), integrated by Gauss quadrature against
-``w_b F*`` (:func:`motes.dust.sampling.weighted_gauss_nodes`).
+``w_b F*`` (:func:`motes.dust.model.sampling.weighted_gauss_nodes`).
 
 Substituting a = t lambda / 2 pi (GUIDE section 9)::
 
@@ -26,8 +26,8 @@ Substituting a = t lambda / 2 pi (GUIDE section 9)::
 
 (Bohren & Huffman amplitudes; ``pi a^2 Q_sca p = a^2 (|S1|^2+|S2|^2) / 2 x^2``).
 ``method="exact"`` evaluates this with miepython at every quadrature node
-(:mod:`motes.dust.sampling`); ``method="fast"`` interpolates tabulated G
-(:mod:`motes.dust.tables`). With ``phase="hg"`` the phase function is
+(:mod:`motes.dust.model.sampling`); ``method="fast"`` interpolates tabulated G
+(:mod:`motes.dust.model.tables`). With ``phase="hg"`` the phase function is
 Henyey-Greenstein with the cross-section-weighted Mie asymmetry g of the size
 distribution at that wavelength::
 
@@ -44,13 +44,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import InputError, ModelError, OpticalConstantsError
-from ..optics import mie
-from ..optics.constants import Material, load_material
-from ..optics.mixing import mix_refractive_index, mixture_density
-from ..optics.sizes import power_law_cross_section, find_blowout_size, BlowoutResult
-from ..photometry.bands import Band, get_band
-from ..photometry.spectra import blackbody_flux_lambda
+from ...errors import InputError, ModelError, OpticalConstantsError
+from ...optics import mie
+from ...optics.constants import Material, load_material
+from ...optics.mixing import mix_refractive_index, mixture_density
+from ...optics.sizes import power_law_cross_section, find_blowout_size, BlowoutResult
+from ...photometry.bands import Band, get_band
+from ...photometry.spectra import blackbody_flux_lambda
 from .geometry import PHASES, ScatteringGeometry
 from .sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
 
@@ -149,7 +149,7 @@ class DiskColourModel:
         Maxwell Garnett matrix: a component index or name, or ``"vacuum"``.
     geometry : ScatteringGeometry
     method : {"fast", "exact"}
-        Lookup tables (:mod:`motes.dust.tables`) or miepython at every node.
+        Lookup tables (:mod:`motes.dust.model.tables`) or miepython at every node.
     a_max : float [um]
         Default largest grain radius.
     wavelength_nodes : int
@@ -498,7 +498,7 @@ class DiskColourModel:
             raise InputError("band_optics takes one mixture (fractions of shape (K,))", where="fractions")
         ratio = (self.node_values_exact(self.effective_index(f, p), self.node_wavelength, a_min, q, a_max)
                  @ self._band_matrix)[0]
-        from ..optics.sizes import PowerLaw
+        from ...optics.sizes import PowerLaw
 
         a, w = PowerLaw(float(a_min[0]), float(a_max[0]), float(q[0])).quadrature(n_per_efold)
         m = self.effective_index(f, p)[0]  # [L]

@@ -20,11 +20,12 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import FitError, MotesError
-from .fitspec import FitSpec, ModelSpec
-from .observations import DiskPhotometry, chi_square_with_best_scale, effective_errors, ln_likelihood, read_disk_photometry
+from ...errors import FitError, MotesError
+from .spec import FitSpec, ModelSpec
+from ..likelihood import chi_square_with_best_scale, effective_errors, ln_likelihood
+from ..observations import DiskPhotometry, read_disk_photometry
 from .priors import ParameterSpace
-from .scale import draw_scale, ln_marginal_likelihood
+from ..likelihood import draw_scale, ln_marginal_likelihood
 
 __all__ = [
     "FitProblem",
@@ -48,7 +49,7 @@ def read_fit_photometry(spec: FitSpec) -> DiskPhotometry:
 
 
 def _model_description(spec: FitSpec, materials=None):
-    from .description import parse_model_description
+    from ..model.description import parse_model_description
 
     doc = dict(spec.description)
     if materials is not None:
@@ -69,8 +70,8 @@ def build_colour_model(spec: FitSpec, materials, bands):
 
     Returns
     -------
-    motes.dust.model.DiskColourModel
-        Built by :mod:`motes.dust.description` from the description with only
+    motes.dust.model.colours.DiskColourModel
+        Built by :mod:`motes.dust.model.description` from the description with only
         these ``[[materials]]`` tables.
     """
     return _model_description(spec, materials).build_model(bands=bands)
@@ -83,8 +84,8 @@ def _blowout_function(spec: FitSpec, colour_model):
     mass = star.get("mass", star.get("mass_msun"))
     if lum is None or mass is None:
         return None
-    from ..optics.mixing import mixture_density
-    from ..optics.sizes import blowout_size
+    from ...optics.mixing import mixture_density
+    from ...optics.sizes import blowout_size
 
     densities = np.array([m.density for m in colour_model.materials], dtype=float)
     if not np.all(np.isfinite(densities) & (densities > 0)):

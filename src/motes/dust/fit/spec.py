@@ -2,13 +2,13 @@
 
 A fit description is a TOML file. The sections describing the star, the
 materials, the mixing rule, the scattering geometry and user bands are shared
-with grid descriptions and read by :mod:`motes.dust.description`; the fit adds
+with grid descriptions and read by :mod:`motes.dust.model.description`; the fit adds
 ``[data]``, ``[parameters]``, ``[scale]``, ``[models]`` and ``[sampler]``::
 
     [data]
     photometry = "disk_photometry.csv"      # read by motes.dust.observations
 
-    [star]                                  # see motes.dust.description
+    [star]                                  # see motes.dust.model.description
     teff = 5400.0
     luminosity = 0.8                        # [L_sun], for a_min tied to the blow-out size
     mass = 0.9                              # [M_sun]
@@ -58,9 +58,9 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..errors import FitError, InputError
+from ...errors import FitError, InputError
 from .priors import ParameterSpace, Prior, parse_prior
-from .scale import ScalePrior
+from ..likelihood import ScalePrior
 
 __all__ = [
     "SamplerSettings",
@@ -241,7 +241,7 @@ class FitSpec:
     Parameters
     ----------
     description : dict
-        The whole TOML document (model sections go to :mod:`motes.dust.description`).
+        The whole TOML document (model sections go to :mod:`motes.dust.model.description`).
     base_dir : pathlib.Path
         Folder against which relative paths are resolved.
     materials : tuple of str

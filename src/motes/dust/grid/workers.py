@@ -33,11 +33,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import __version__
-from ..errors import GridError, MotesError
-from .grid import AXES, GridSpec
-from .gridstore import GridStore, fraction_column, model_column
-from .observations import DiskPhotometry, chi_square_with_best_scale, read_disk_photometry
+from ... import __version__
+from ...errors import GridError, MotesError
+from .spec import AXES, GridSpec
+from .store import GridStore, fraction_column, model_column
+from ..likelihood import chi_square_with_best_scale
+from ..observations import DiskPhotometry, read_disk_photometry
 
 __all__ = [
     "GridEvaluator",
@@ -62,13 +63,13 @@ def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
 
     Returns
     -------
-    motes.dust.model.DiskColourModel
+    motes.dust.model.colours.DiskColourModel
         Built from the description's ``[star]``, ``[[materials]]``, ``[mixing]``,
-        ``[geometry]``, ``[model]`` sections (:mod:`motes.dust.description`), for
+        ``[geometry]``, ``[model]`` sections (:mod:`motes.dust.model.description`), for
         the bands of the disk photometry in their order, with its lookup tables
         loaded (fast path).
     """
-    from .description import parse_model_description
+    from ..model.description import parse_model_description
 
     description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
     model = description.build_model(bands=observations.bands)
@@ -78,7 +79,7 @@ def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
 
 def read_grid_observations(spec: GridSpec) -> DiskPhotometry:
     """The disk photometry a grid compares to (``[data] photometry``), with the description's user bands."""
-    from .description import parse_model_description
+    from ..model.description import parse_model_description
 
     description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
     return read_disk_photometry(spec.photometry, custom_bands=description.custom_bands)
@@ -216,7 +217,7 @@ def _motes_version() -> str:
 
 
 def _progress(store: GridStore, progress: bool):
-    from ..progress import progress_bar
+    from ...progress import progress_bar
 
     return progress_bar(total=store.n_points, initial=store.completed_points(), unit="pt",
                         desc="grid", smoothing=0.05, disable=not progress)

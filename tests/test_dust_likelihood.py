@@ -9,8 +9,8 @@ import pytest
 from scipy.optimize import minimize_scalar
 from scipy.special import log_ndtr
 
-from motes.dust.observations import (DiskPhotometry, chi_square, chi_square_with_best_scale, effective_errors,
-                                     ln_likelihood, read_disk_photometry)
+from motes.dust.likelihood import chi_square, chi_square_with_best_scale, effective_errors, ln_likelihood
+from motes.dust.observations import DiskPhotometry, read_disk_photometry
 from motes.errors import InputError
 from motes.photometry.bands import top_hat_band
 

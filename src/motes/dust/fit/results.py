@@ -30,8 +30,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import __version__
-from ..errors import FitError
+from ... import __version__
+from ...errors import FitError
 from .evidence import VERDICT_RULE, Verdict
 
 __all__ = [
@@ -114,7 +114,7 @@ class ModelResult:
     best_ln_l : float
         ln L at ``best`` (normalised).
     summary : astropy.table.Table
-        Posterior summary (see :func:`motes.dust.evidence.summarise_posterior`).
+        Posterior summary (see :func:`motes.dust.fit.evidence.summarise_posterior`).
     colours : astropy.table.Table
         Data and posterior model ratios per band.
     sessions : tuple of dict

@@ -41,8 +41,8 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from .. import __version__
-from ..errors import GridError
+from ... import __version__
+from ...errors import GridError
 
 __all__ = ["GridStore", "STORE_FORMAT", "STORE_FORMAT_VERSION", "fraction_column", "model_column"]
 

@@ -8,8 +8,9 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from motes.dust.observations import DiskPhotometry, ln_likelihood
-from motes.dust.scale import ScalePrior, draw_scale, ln_marginal_likelihood
+from motes.dust.observations import DiskPhotometry
+from motes.dust.likelihood import ln_likelihood
+from motes.dust.likelihood import ScalePrior, draw_scale, ln_marginal_likelihood
 from motes.errors import FitError
 from motes.photometry.bands import top_hat_band
 

@@ -1,9 +1,9 @@
 """``motes fit``: nested-sampling fits of disk colours and evidence ranking of compositions.
 
-:func:`run_fit` takes a fit description (:mod:`motes.dust.fitspec`), runs one
-nested-sampling fit per model of the comparison (:mod:`motes.dust.nested`),
+:func:`run_fit` takes a fit description (:mod:`motes.dust.fit.spec`), runs one
+nested-sampling fit per model of the comparison (:mod:`motes.dust.fit.sampler`),
 and writes per-model results, a ranking by evidence and per-material verdicts
-(:mod:`motes.dust.evidence`) into a run folder (:mod:`motes.dust.fitresults`).
+(:mod:`motes.dust.fit.evidence`) into a run folder (:mod:`motes.dust.fit.results`).
 
 Resume: the run folder records the description's digest. Run again on the
 same folder, a fit skips finished models (``result.json`` present), resumes the
@@ -12,8 +12,8 @@ another description is refused (``fresh=True`` starts over).
 
 Likelihood (per model): Gaussian detections and normal-CDF upper limits
 (:mod:`motes.dust.observations`), the flux scale integrated out under a
-log-uniform prior that is the same in every model (:mod:`motes.dust.scale`),
-priors as in :mod:`motes.dust.priors`.
+log-uniform prior that is the same in every model (:mod:`motes.dust.likelihood`),
+priors as in :mod:`motes.dust.fit.priors`.
 """
 
 from __future__ import annotations
@@ -27,14 +27,14 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import __version__
-from ..errors import FitError, MotesError
+from ... import __version__
+from ...errors import FitError, MotesError
 from .evidence import ModelEvidence, material_verdicts, rank_models, summarise_posterior
-from .fitmodel import ProblemHandle, HandleLikelihood, HandlePriorTransform, read_fit_photometry, reset_traces
-from .fitresults import (FIT_CAVEATS, FIT_FORMAT_VERSION, FitResult, ModelResult, format_fit_report,
+from .problem import ProblemHandle, HandleLikelihood, HandlePriorTransform, read_fit_photometry, reset_traces
+from .results import (FIT_CAVEATS, FIT_FORMAT_VERSION, FitResult, ModelResult, format_fit_report,
                          read_model_result, write_json_atomic, write_table_atomic)
-from .fitspec import FitSpec, read_fit_description
-from .nested import open_pool, run_nested_model
+from .spec import FitSpec, read_fit_description
+from .sampler import open_pool, run_nested_model
 
 __all__ = ["FitRunSettings", "run_fit", "prepare_fit", "FitResult", "ModelResult"]
 
@@ -261,7 +261,7 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     settings : FitRunSettings
     model_factory : callable, optional
         ``model_factory(spec, materials, bands) -> colour model`` (picklable);
-        default: the description's :class:`~motes.dust.model.DiskColourModel`.
+        default: the description's :class:`~motes.dust.model.colours.DiskColourModel`.
     echo : callable
         Where progress lines go.
 
@@ -293,7 +293,7 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
                        priors=tuple(handles[0].space.describe()) if handles else (),
                        notes=tuple(dict.fromkeys(notes)), caveats=FIT_CAVEATS, files=())
     if settings.figures:
-        from ..report.fit_figures import write_fit_figures
+        from ...report.fit_figures import write_fit_figures
 
         files += list(write_fit_figures(result, run_dir))
     files += [m.folder for m in ordered]
