@@ -47,7 +47,7 @@ def _run(path: Path, out: Path, workers: int):
     from motes.dust.fit.run import FitRunSettings, run_fit
 
     start = time.perf_counter()
-    res = run_fit(path, FitRunSettings(output=out, workers=workers, progress=False, figures=False),
+    res = run_fit(path, FitRunSettings(output=out, workers=workers, progress=False),
                   echo=lambda *a: None)
     wall = time.perf_counter() - start
     calls = sum(m.n_calls for m in res.models)

@@ -92,7 +92,7 @@ def main(argv=None):
 
     from astropy.table import Table
 
-    from motes.dust.model.tables import cache_directory
+    from motes.files import cache_directory
     from motes.optics.mie import solver_summary
 
     print(f"Mie solver: {solver_summary()}")

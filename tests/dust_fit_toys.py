@@ -65,7 +65,8 @@ def write_toy_fit(folder, truth, materials=("alpha", "beta", "gamma"), *, rng, n
         else:
             lines.append(f"{name},{v:.6e},{e:.6e},")
     (folder / "toy.csv").write_text("\n".join(lines) + "\n")
-    mats = "\n".join(f'[[materials]]\nname = "{m}"\n' for m in materials)
+    # the toy model ignores the optical constants; the description still names real ones
+    mats = "\n".join(f'[[materials]]\nname = "{m}"\nsource = "silica_amorphous"\n' for m in materials)
     params = parameters or (
         'porosity = { prior = "uniform", lower = 0.0, upper = 0.8 }\n'
         'a_min = { prior = "log-uniform", lower = 0.5, upper = 10.0 }\n'

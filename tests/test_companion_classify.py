@@ -10,14 +10,13 @@ import pytest
 from motes.companion import (
     ClassifySettings,
     classify,
-    format_classification,
     load_dwarf_sequence,
     photometry_from_magnitudes,
     type_code,
-    write_classification,
 )
 from motes.errors import FitError, InputError
 from motes.photometry import top_hat_band
+from motes.report import format_classification, write_classification
 
 # Nearby dwarfs with 2MASS J, H, Ks [mag], 1-sigma [mag], trigonometric parallax [mas] and
 # spectral type. ALL VALUES FROM MEMORY (2MASS All-Sky Point Source Catalog, Skrutskie et al.

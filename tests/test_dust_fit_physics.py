@@ -68,7 +68,7 @@ def _fit(folder, text, value, error):
     (folder / "disk.csv").write_text("band,value,error\n" + "\n".join(
         f"{b},{v:.6e},{e:.6e}" for b, v, e in zip(BANDS, value, error)) + "\n")
     (folder / "fit.toml").write_text(text)
-    return run_fit(folder / "fit.toml", FitRunSettings(output=folder / "run", progress=False, figures=False),
+    return run_fit(folder / "fit.toml", FitRunSettings(output=folder / "run", progress=False),
                    echo=lambda *a: None)
 
 

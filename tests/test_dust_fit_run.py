@@ -12,6 +12,7 @@ from motes.cli import main as cli_main
 from motes.dust.fit.run import FitRunSettings, run_fit
 from motes.dust.fit.spec import parse_fit_description, read_fit_description
 from motes.errors import FitError, InputError
+from motes.report.fit_text import write_fit_report
 
 from dust_fit_toys import toy_factory, write_toy_fit
 
@@ -27,6 +28,7 @@ def toy_fit(tmp_path, rng):
 def test_outputs_and_skip_of_finished_models(tmp_path, toy_fit):
     out = tmp_path / "run"
     res = run_fit(toy_fit, FitRunSettings(output=out, progress=False), model_factory=toy_factory, **QUIET)
+    res = write_fit_report(res)
     names = {m.name for m in res.models}
     assert names == {"alpha+beta+gamma", "beta+gamma", "alpha+gamma", "alpha+beta"}
     for f in ("ranking.ecsv", "verdicts.ecsv", "summary.txt", "colours.png", "evidence.png", "fit_state.json"):
@@ -46,7 +48,7 @@ def test_outputs_and_skip_of_finished_models(tmp_path, toy_fit):
     for needle in ("Verdict rule", "Mie spheres", "hide water ice", "Files written", "95% upper limit"):
         assert needle in summary
     # a second run reads every model back without sampling
-    again = run_fit(toy_fit, FitRunSettings(output=out, progress=False, figures=False),
+    again = run_fit(toy_fit, FitRunSettings(output=out, progress=False),
                     model_factory=toy_factory, **QUIET)
     for a, b in zip(res.models, again.models):
         assert a.name == b.name and a.ln_z == b.ln_z and np.allclose(a.samples, b.samples)
@@ -55,7 +57,7 @@ def test_outputs_and_skip_of_finished_models(tmp_path, toy_fit):
 
 
 def test_absent_material_gets_a_small_upper_limit(tmp_path, toy_fit):
-    res = run_fit(toy_fit, FitRunSettings(output=tmp_path / "run", progress=False, figures=False),
+    res = run_fit(toy_fit, FitRunSettings(output=tmp_path / "run", progress=False),
                   model_factory=toy_factory, **QUIET)
     row = res.verdict_table[list(res.verdict_table["material"]).index("gamma")]
     # gamma is absent from the truth; its fraction in the full model is bounded well below 1
@@ -66,12 +68,12 @@ def test_absent_material_gets_a_small_upper_limit(tmp_path, toy_fit):
 def test_other_description_is_refused_and_fresh_restarts(tmp_path, toy_fit):
     toy_fit.write_text(toy_fit.read_text().replace('set = "each-removed"', 'set = "list"\nlist = [["alpha"]]'))
     out = tmp_path / "run"
-    run_fit(toy_fit, FitRunSettings(output=out, progress=False, figures=False), model_factory=toy_factory, **QUIET)
+    run_fit(toy_fit, FitRunSettings(output=out, progress=False), model_factory=toy_factory, **QUIET)
     toy_fit.write_text(toy_fit.read_text().replace("seed = 3", "seed = 4"))
     with pytest.raises(FitError, match="another description"):
-        run_fit(toy_fit, FitRunSettings(output=out, progress=False, figures=False), model_factory=toy_factory,
+        run_fit(toy_fit, FitRunSettings(output=out, progress=False), model_factory=toy_factory,
                 **QUIET)
-    res = run_fit(toy_fit, FitRunSettings(output=out, fresh=True, progress=False, figures=False),
+    res = run_fit(toy_fit, FitRunSettings(output=out, fresh=True, progress=False),
                   model_factory=toy_factory, **QUIET)
     assert json.loads((out / "fit_state.json").read_text())["digest"] == read_fit_description(toy_fit).digest
     assert len(res.models) == 1
@@ -90,9 +92,9 @@ def test_two_workers_evaluate_the_likelihood(tmp_path, toy_fit):
     """A process pool of 2: both worker processes evaluate the likelihood, same ln Z within errors."""
     text = toy_fit.read_text().replace('set = "each-removed"', 'set = "list"\nlist = [["alpha", "beta"]]')
     toy_fit.write_text(text)
-    one = run_fit(toy_fit, FitRunSettings(output=tmp_path / "one", progress=False, figures=False),
+    one = run_fit(toy_fit, FitRunSettings(output=tmp_path / "one", progress=False),
                   model_factory=toy_factory, **QUIET).models[0]
-    two = run_fit(toy_fit, FitRunSettings(output=tmp_path / "two", workers=2, progress=False, figures=False),
+    two = run_fit(toy_fit, FitRunSettings(output=tmp_path / "two", workers=2, progress=False),
                   model_factory=toy_factory, **QUIET).models[0]
     assert one.sessions[0]["processes"] == 1
     assert two.sessions[0]["processes"] == 2
@@ -128,7 +130,7 @@ def test_fewer_bands_than_free_parameters(tmp_path, rng):
 def test_bad_descriptions(tmp_path, snippet, error, message):
     (tmp_path / "d.csv").write_text("band,value,error\n2MASS.J,1e-4,1e-5\n")
     base = '[data]\nphotometry = "d.csv"\n[star]\nteff = 5000.0\n[[materials]]\nname = "alpha"\n' \
-           '[[materials]]\nname = "beta"\n'
+           'source = "silica_amorphous"\n[[materials]]\nname = "beta"\nsource = "carbon_amorphous"\n'
     with pytest.raises(error, match=message) as err:
         parse_fit_description(base + snippet, base_dir=tmp_path, source="fit.toml")
     assert "fit.toml" in str(err.value)
@@ -155,6 +157,7 @@ def test_cli_reports_errors_in_one_line(tmp_path, capsys):
     (tmp_path / "d.csv").write_text("band,value,error\n2MASS.J,1e-4,1e-5\n")
     path = tmp_path / "fit.toml"
     path.write_text('[data]\nphotometry = "d.csv"\n[star]\nteff = 5000.0\n[[materials]]\nname = "alpha"\n'
+                    'source = "silica_amorphous"\n'
                     '[parameters]\nq = { prior = "uniform", lower = 4.0, upper = 3.0 }\n')
     assert cli_main(["fit", str(path)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
@@ -170,7 +173,7 @@ def test_dynamic_sampler_runs_and_matches_static(tmp_path, rng):
         path = write_toy_fit(folder, TRUTH, rng=np.random.default_rng(9), model_set="list",
                              sampler=f'kind = "{kind}"\nnlive = 60\ndlogz = 0.3\nmaxbatch = 1\nnlive_batch = 30\n')
         path.write_text(path.read_text().replace('set = "list"', 'set = "list"\nlist = [["alpha", "beta"]]'))
-        out[kind] = run_fit(path, FitRunSettings(output=folder / "run", progress=False, figures=False),
+        out[kind] = run_fit(path, FitRunSettings(output=folder / "run", progress=False),
                             model_factory=toy_factory, **QUIET).models[0]
     a, b = out["static"], out["dynamic"]
     assert abs(a.ln_z - b.ln_z) < 3 * np.hypot(a.ln_z_err, b.ln_z_err)

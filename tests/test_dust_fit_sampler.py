@@ -121,7 +121,7 @@ def test_fit_evidence_matches_direct_integration_one_parameter(tmp_path, rng):
     ref = lnl(0.3)
     z = quad(lambda p: math.exp(lnl(p) - ref) / 0.8, 0.0, 0.8, epsrel=1e-10, limit=200)[0]
     ln_z_ref = ref + math.log(z)
-    result = run_fit(spec, FitRunSettings(output=tmp_path / "run", progress=False, figures=False),
+    result = run_fit(spec, FitRunSettings(output=tmp_path / "run", progress=False),
                      model_factory=toy_factory, echo=lambda *a: None)
     m = result.models[0]
     assert abs(m.ln_z - ln_z_ref) < 3 * m.ln_z_err, (m.ln_z, ln_z_ref, m.ln_z_err)
@@ -137,7 +137,7 @@ def test_fit_evidence_matches_direct_integration_two_fractions(tmp_path, rng):
     lnl = lambda f: float(problem.ln_likelihood(np.array([[f, 1 - f]]))[0])
     ref = lnl(0.7)
     z = quad(lambda f: math.exp(lnl(f) - ref), 0.0, 1.0, epsrel=1e-10, points=[0.7], limit=200)[0]
-    result = run_fit(spec, FitRunSettings(output=tmp_path / "run", progress=False, figures=False),
+    result = run_fit(spec, FitRunSettings(output=tmp_path / "run", progress=False),
                      model_factory=toy_factory, echo=lambda *a: None)
     m = result.models[0]
     assert abs(m.ln_z - (ref + math.log(z))) < 3 * m.ln_z_err
@@ -152,7 +152,7 @@ def test_sampled_scale_gives_the_same_evidence(tmp_path, rng):
     for treatment in ("marginalise", "sample"):
         p = tmp_path / f"{treatment}.toml"
         p.write_text(text + f'\n[scale]\nlower = 1e-7\nupper = 1e-1\ntreatment = "{treatment}"\n')
-        res = run_fit(p, FitRunSettings(output=tmp_path / treatment, progress=False, figures=False),
+        res = run_fit(p, FitRunSettings(output=tmp_path / treatment, progress=False),
                       model_factory=toy_factory, echo=lambda *a: None)
         runs.append(res.models[0])
     a, b = runs

@@ -24,6 +24,7 @@ from motes.dust.grid.workers import GridEvaluator
 from motes.dust.grid.store import GridStore
 from motes.dust.grid.summary import summarize_grid
 from motes.errors import GridError, InputError
+from motes.optics.constants import bundled_material_names
 
 BANDS = ("2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2")
 
@@ -69,7 +70,12 @@ SOURCES = {"silica": "silica_amorphous", "carbon": "carbon_amorphous", "ice": "w
 
 def grid_text(materials=("silica", "carbon", "ice"), step="0.1", porosity="[0.0, 0.3, 0.6]",
               a_min="[1.0, 2.0, 4.0]", extra=""):
-    mats = "\n".join(f'[[materials]]\nname = "{m}"\nsource = "{SOURCES.get(m, m)}"\n' for m in materials)
+    # labels without a bundled file (e.g. "m3" in counting tests) name silica's constants: the
+    # description is parsed whole, so every material must load
+    bundled = bundled_material_names()
+    mats = "\n".join(f'[[materials]]\nname = "{m}"\n'
+                      f'source = "{SOURCES.get(m, m if m in bundled else "silica_amorphous")}"\n'
+                      for m in materials)
     return textwrap.dedent(f"""\
         [data]
         photometry = "disk.csv"
@@ -100,10 +106,9 @@ TINY_SIZES = SizeSampling(c0=0.03, c_max=0.1, t_knee=10.0, t_knee2=10.0, growth=
 
 def tiny_real_factory(spec, observations):
     """The real DiskColourModel of the description, with the coarse size quadrature TINY_SIZES."""
-    from motes.dust.model.description import parse_model_description
     from motes.dust.model.colours import DiskColourModel
 
-    d = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
+    d = spec.description
     return DiskColourModel(d.materials, observations.bands, star_teff=d.star.teff, star_spectrum=d.star.spectrum,
                            mixing=d.mixing, matrix=d.matrix, geometry=d.geometry, method="exact", a_max=d.a_max,
                            wavelength_nodes=d.wavelength_nodes, size_sampling=TINY_SIZES)

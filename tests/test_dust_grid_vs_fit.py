@@ -81,7 +81,7 @@ def test_grid_best_chi2_brackets_the_nested_sampling_maximum(tmp_path, rng):
     fit_text = grid_text().split("[grid]")[0] + FIT_SECTIONS
     fit_path.write_text(fit_text)
     result = run_fit(read_fit_description(fit_path),
-                     FitRunSettings(output=tmp_path / "fit", workers=1, progress=False, figures=False),
+                     FitRunSettings(output=tmp_path / "fit", workers=1, progress=False),
                      model_factory=fit_standin_factory, echo=lambda *a: None)
     model = result.models[0]
     fit_best = model.best_chi2

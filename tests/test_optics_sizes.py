@@ -84,6 +84,30 @@ def test_no_blowout_size_is_reported():
     assert res.beta_max < 0.5
 
 
+
+def test_blowout_size_when_beta_crosses_one_half_more_than_once():
+    # A toy Q_pr with a resonance that lifts beta above 0.5 again in a band of larger
+    # grains: beta falls through 0.5 near 0.46 um (Q_pr = 1 there) and again near 1.5 um.
+    # The smallest falling crossing is the blow-out size; the message names both bands.
+    def q_pr(a):
+        a = np.asarray(a, dtype=float)
+        return 1.0 + 4.0 * np.exp(-0.5 * (np.log(a / 1.2) / 0.12) ** 2)
+
+    res = sizes.find_blowout_size(q_pr, 1.0, 1.0, 2.5)
+    assert res.exists
+    assert res.size == pytest.approx(sizes.blowout_size(1.0, 1.0, 2.5), rel=1e-3)
+    beta = sizes.radiation_pressure_beta(res.a, 1.0, 1.0, 2.5, res.q_pr)
+    larger_band = res.a[(beta >= 0.5) & (res.a > 2 * res.size)]
+    assert larger_band.size > 0          # the toy really has a second band above 0.5
+    assert "more than once" in res.message and any("more than once" in n for n in res.notes)
+
+
+def test_blowout_size_is_unchanged_for_a_single_crossing():
+    # one band with beta >= 0.5: no note about multiple crossings
+    res = sizes.find_blowout_size(lambda a: np.ones_like(a), 1.0, 1.0, 2.5)
+    assert res.size == pytest.approx(sizes.blowout_size(1.0, 1.0, 2.5), rel=1e-6)
+    assert "more than once" not in res.message
+
 @pytest.mark.parametrize("a_min,a_max", [(10.0, 10.0), (10.0, 1.0), (-1.0, 5.0)])
 def test_bad_size_limits(a_min, a_max):
     with pytest.raises(InputError, match="a_min"):

@@ -14,6 +14,10 @@ distance               parsec                   ``u.pc``
 density                g cm^-3                  ``u.g / u.cm**3``
 =====================  =======================  ==========================
 
+Luminosity [L_sun], mass [M_sun], parallax [mas] and angles [deg; rad for
+the Mie functions' ``theta``] follow from the argument names;
+:mod:`motes.parameters` declares every argument name with its unit.
+
 Refractive index: ``m = n + i k`` with ``k >= 0`` (absorbing media have a
 positive imaginary part). Phase functions are normalised to
 ``integral p dOmega = 1``.
@@ -53,18 +57,31 @@ _C_UM_PER_S = const.c.to_value(u.um / u.s)
 _FLAM_TO_FNU = 1e26 / _C_UM_PER_S
 
 
+def _bare(value, unit, name, equivalencies=None):
+    """``value`` in ``unit`` if it is a Quantity, else unchanged (bare numbers are in ``unit``)."""
+    return to_internal(value, unit, name, equivalencies) if isinstance(value, u.Quantity) else value
+
+
 def flam_to_fnu(flux_lambda, wavelength):
-    """Convert F_lambda [W m^-2 um^-1] at wavelength [um] to f_nu [Jy]."""
+    """Convert F_lambda [W m^-2 um^-1] at wavelength [um] to f_nu [Jy] (Quantities are converted first)."""
+    flux_lambda = _bare(flux_lambda, FLAM_UNIT, "flux_lambda")
+    wavelength = _bare(wavelength, WAVELENGTH_UNIT, "wavelength", u.spectral())
     return np.asarray(flux_lambda) * np.asarray(wavelength) ** 2 * _FLAM_TO_FNU
 
 
 def fnu_to_flam(flux_nu, wavelength):
-    """Convert f_nu [Jy] at wavelength [um] to F_lambda [W m^-2 um^-1]."""
+    """Convert f_nu [Jy] at wavelength [um] to F_lambda [W m^-2 um^-1] (Quantities are converted first)."""
+    flux_nu = _bare(flux_nu, FNU_UNIT, "flux_nu")
+    wavelength = _bare(wavelength, WAVELENGTH_UNIT, "wavelength", u.spectral())
     return np.asarray(flux_nu) / (np.asarray(wavelength) ** 2 * _FLAM_TO_FNU)
 
 
-def to_internal(value, unit, name: str = "value", equivalencies=None):
+def to_internal(value, unit, name: str = "value", equivalencies=None, kind: str | None = None,
+                where: str | None = None):
     """Strip a Quantity to the internal unit; pass bare numbers through.
+
+    The one conversion at the public boundary (:func:`motes.parameters.accepts_quantities`
+    calls it for every declared argument).
 
     Parameters
     ----------
@@ -74,6 +91,12 @@ def to_internal(value, unit, name: str = "value", equivalencies=None):
         The internal unit.
     name : str
         Argument name used in the error message.
+    equivalencies : list, optional
+        astropy equivalencies (e.g. ``u.spectral()`` for a wavelength).
+    kind : str, optional
+        Physical type expected, added to the error message (e.g. ``"length"``).
+    where : str, optional
+        The callable, put in front of the error message.
 
     Raises
     ------
@@ -84,9 +107,12 @@ def to_internal(value, unit, name: str = "value", equivalencies=None):
 
     if isinstance(value, u.Quantity):
         try:
-            return value.to_value(unit, equivalencies=equivalencies or [])
+            v = value.to_value(unit, equivalencies=equivalencies or [])
         except u.UnitConversionError as exc:
+            expected = f" ({kind})" if kind else ""
             raise InputError(
-                f"{name} has unit '{value.unit}', which does not convert to '{unit}'"
+                f"{name} has unit '{value.unit}', which does not convert to '{unit}'{expected}",
+                where=where,
             ) from exc
+        return float(v) if np.ndim(v) == 0 else v
     return np.asarray(value, dtype=float) if np.ndim(value) else float(value)

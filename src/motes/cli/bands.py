@@ -41,7 +41,8 @@ def register(subparsers) -> None:
 
 def _run(args) -> int:
     from ..errors import InputError
-    from ..photometry import band_table, format_band, format_band_table, get_band, plot_band, read_user_bands
+    from ..photometry import band_table, format_band, format_band_table, get_band, read_user_bands
+    from ..report.band_figures import plot_band
 
     custom = read_user_bands(args.target) if args.target else {}
     if args.name is None:

@@ -89,8 +89,8 @@ def register(subparsers) -> None:
     p.add_argument("--no-figures", action="store_true", help="do not draw the figures")
     p.add_argument("--top", metavar="N", type=int, default=8, help="rows printed per ranking (default 8)")
     p.add_argument("--cache", metavar="DIR", default=None,
-                   help="cache folder for synthetic library magnitudes (default: $MOTES_CACHE_DIR or "
-                        "~/.cache/motes); 'none' keeps it in memory")
+                   help="cache folder for synthetic library magnitudes (default: $MOTES_CACHE_DIR, else "
+                        "$XDG_CACHE_HOME/motes, else ~/.cache/motes); 'none' keeps it in memory")
     p.set_defaults(func=_run)
 
 
@@ -118,9 +118,10 @@ def _settings(args):
 
 
 def _run(args) -> int:
-    from ..companion import classify, format_classification, read_library, write_classification
+    from ..companion import classify, read_library
     from ..errors import InputError
     from ..photometry import calibrate, read_target
+    from ..report.companion_text import format_classification, write_classification
 
     if args.top < 1:
         raise InputError(f"--top must be at least 1, got {args.top}")

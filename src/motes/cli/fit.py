@@ -51,12 +51,11 @@ def register(subparsers) -> None:
 
 def _run(args) -> int:
     from ..dust.fit.run import FitRunSettings, run_fit
-    from ..dust.fit.results import format_fit_report
+    from ..report.fit_text import format_fit_report, write_fit_report
 
     settings = FitRunSettings(output=args.output, workers=args.workers, resume=True,
-                              fresh=(args.mode == "fresh"), progress=not args.quiet,
-                              figures=not args.no_figures)
+                              fresh=(args.mode == "fresh"), progress=not args.quiet)
     echo = (lambda *a, **k: None) if args.quiet else print
-    result = run_fit(args.description, settings, echo=echo)
+    result = write_fit_report(run_fit(args.description, settings, echo=echo), figures=not args.no_figures)
     print(format_fit_report(result))
     return 0

@@ -56,8 +56,8 @@ def register(subparsers) -> None:
 def _run(args) -> int:
     import dataclasses
 
-    from ..dust.model.mixture import (compute_mixture_optics, format_mixture_optics, read_mixture_file,
-                                write_mixture_outputs)
+    from ..dust.model.mixture import compute_mixture_optics, read_mixture_file
+    from ..report.optics_text import format_mixture_optics, write_mixture_outputs
 
     path = Path(args.mixture)
     description, mixture = read_mixture_file(path)

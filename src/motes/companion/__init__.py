@@ -4,8 +4,11 @@ Typical use::
 
     from motes.photometry import read_target, calibrate
     from motes.companion import classify, ClassifySettings
+    from motes.report import format_classification
     result = classify(calibrate(read_target("target.toml")), ClassifySettings(mode="both"))
     print(format_classification(result))
+
+The text and files of a classification are written by :mod:`motes.report`.
 """
 
 from __future__ import annotations
@@ -19,7 +22,6 @@ from .magnitude_cache import MagnitudeCache
 from .results import Classification, DistanceCheck, QuantityEstimate, RankedTemplate, Ranking, TypeEstimate
 from .sequence import SEQUENCE_BANDS, DwarfSequence, load_dwarf_sequence
 from .spectral_types import type_code, type_label
-from .summary import format_classification, write_classification
 from .templates import TemplateGrid, TemplateSource
 
 __all__ = [
@@ -50,8 +52,6 @@ __all__ = [
     "load_dwarf_sequence",
     "type_code",
     "type_label",
-    "format_classification",
-    "write_classification",
     "TemplateGrid",
     "TemplateSource",
 ]

@@ -21,6 +21,7 @@ import numpy as np
 from astropy import constants as const
 
 from ..errors import InputError
+from ..parameters import accepts_quantities
 from ..photometry.bands import Band
 from ..photometry.spectra import blackbody_flux_lambda
 from .magnitude_cache import band_key
@@ -39,6 +40,7 @@ DEFAULT_BLACKBODY_TEFFS = np.round(np.geomspace(250.0, 12000.0, 197), 1)
 _NODES = 1500
 
 
+@accepts_quantities
 def blackbody_magnitudes(teff, band: Band, radius_rjup: float = 1.0) -> np.ndarray:
     """Vega magnitudes of spheres of radius ``radius_rjup`` at 10 pc.
 
@@ -84,6 +86,7 @@ class BlackbodySet:
     # but not free to synthesise, and the same bands recur between calls.
     _memo: dict = {}
 
+    @accepts_quantities
     def __init__(self, teffs=None, radius_rjup: float | None = None):
         teffs = DEFAULT_BLACKBODY_TEFFS if teffs is None else np.asarray(teffs, dtype=float)
         if teffs.ndim != 1 or teffs.size < 2 or not np.all(np.isfinite(teffs)) or np.any(teffs <= 0):

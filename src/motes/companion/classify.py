@@ -41,6 +41,7 @@ import numpy as np
 from scipy.special import logsumexp
 
 from ..errors import FitError, InputError
+from ..tomlcheck import check_keys
 from .blackbody import BlackbodySet
 from .extinction import EXTINCTION_LAWS, av_prior_grid, extinction_coefficients
 from .likelihood import FlatOffset, GaussianOffset, offset_marginal
@@ -171,11 +172,7 @@ class ClassifySettings:
     @classmethod
     def from_mapping(cls, doc: dict, path=None) -> "ClassifySettings":
         """Settings from a dict (e.g. a TOML ``[classify]`` table)."""
-        known = {f.name for f in fields(cls)}
-        unknown = set(doc) - known
-        if unknown:
-            raise InputError(f"unknown setting(s) {', '.join(sorted(unknown))}; known: {', '.join(sorted(known))}",
-                             path, "[classify]")
+        check_keys(doc, {f.name for f in fields(cls)}, path=path, where="[classify]", noun="setting")
         doc = dict(doc)
         if isinstance(doc.get("band_map"), dict):
             doc["band_map"] = tuple(doc["band_map"].items())

@@ -12,6 +12,7 @@ import math
 from typing import Mapping
 
 from ..errors import InputError
+from ..parameters import accepts_quantities
 from ..photometry.bands import Band, get_band
 from ..photometry.measurements import BandPhotometry, CalibratedPhotometry
 
@@ -20,6 +21,7 @@ __all__ = ["photometry_from_magnitudes"]
 _MAG_PER_LN = 2.5 / math.log(10.0)
 
 
+@accepts_quantities
 def photometry_from_magnitudes(magnitudes: Mapping[str, tuple], *, distance_pc: float = math.nan,
                                distance_pc_error: float = 0.0, limits: Mapping[str, tuple] | None = None,
                                bands: Mapping[str, Band] | None = None, name: str = "companion",

@@ -68,9 +68,12 @@ import numpy as np
 import astropy.units as u
 
 from ..errors import BandError, InputError
+from ..files import cache_directory
+from ..parameters import accepts_quantities
+from ..tomlcheck import check_keys, check_tables, get_table
 from ..photometry.bands import Band
 from .blackbody import R_JUP_PC
-from .magnitude_cache import MagnitudeCache, band_key, default_cache_dir
+from .magnitude_cache import MagnitudeCache, band_key
 from .spectral_types import type_code, type_label
 from .templates import TemplateGrid
 
@@ -94,6 +97,7 @@ _FITS_KEYS = {"SPTYPE": "spectral_type", "TEFF": "teff_k", "MASS_SUN": "mass_msu
 _FLAM = u.W / u.m**2 / u.um
 
 
+@accepts_quantities
 @dataclass(frozen=True, eq=False)
 class LibrarySpectrum:
     """One labelled spectrum of a library.
@@ -455,17 +459,8 @@ def _index(folder: Path) -> tuple[dict, list[tuple[str, dict, str]]]:
         raise InputError(f"malformed TOML: {exc}", path) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(f"cannot read library index: {exc}", path) from None
-    unknown = set(doc) - {"library", "spectrum"}
-    if unknown:
-        raise InputError(f"unknown table(s) {', '.join(sorted(unknown))}; expected [library] and [[spectrum]]",
-                         path)
-    defaults = doc.get("library", {})
-    if not isinstance(defaults, dict):
-        raise InputError("[library] must be a table", path, "[library]")
-    bad = set(defaults) - set(_KEYS) - {"name"}
-    if bad:
-        raise InputError(f"unknown key(s) {', '.join(sorted(bad))}; allowed: name, {', '.join(_KEYS)}",
-                         path, "[library]")
+    check_tables(doc, ("library", "spectrum"), path=path, arrays=("spectrum",))
+    defaults = check_keys(get_table(doc, "library", path=path), ("name", *_KEYS), path=path, where="[library]")
     entries = doc.get("spectrum", [])
     if not isinstance(entries, list):
         raise InputError("spectra are listed as [[spectrum]] tables", path, "[[spectrum]]")
@@ -474,10 +469,7 @@ def _index(folder: Path) -> tuple[dict, list[tuple[str, dict, str]]]:
         where = f"[[spectrum]] #{i}"
         if not isinstance(entry, dict) or not isinstance(entry.get("file"), str):
             raise InputError('each [[spectrum]] needs file = "NAME"', path, where)
-        bad = set(entry) - set(_KEYS) - {"file"}
-        if bad:
-            raise InputError(f"unknown key(s) {', '.join(sorted(bad))}; allowed: file, {', '.join(_KEYS)}",
-                             path, where)
+        check_keys(entry, ("file", *_KEYS), path=path, where=where)
         out.append((entry["file"], {k: v for k, v in entry.items() if k != "file"}, where))
     return defaults, out
 
@@ -490,7 +482,7 @@ def read_library(folder, cache_dir="default") -> SpectralLibrary:
     folder : str or Path
     cache_dir : str, Path, None or "default"
         Folder of the synthetic-magnitude cache; ``"default"`` uses
-        :func:`~motes.companion.magnitude_cache.default_cache_dir`, None keeps
+        :func:`motes.files.cache_directory`, None keeps
         it in memory.
 
     Returns
@@ -526,5 +518,5 @@ def read_library(folder, cache_dir="default") -> SpectralLibrary:
     if not spectra:
         raise InputError(f"no spectra found (files ending in {', '.join(SPECTRUM_SUFFIXES)})", folder)
     cache = MagnitudeCache(None if cache_dir is None else
-                           (default_cache_dir() if cache_dir == "default" else cache_dir))
+                           (cache_directory() if cache_dir == "default" else cache_dir))
     return SpectralLibrary(spectra, name, cache)

@@ -22,29 +22,18 @@ from __future__ import annotations
 
 import hashlib
 import json
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
-from .. import __version__
+from ..files import format_stamp, stamp_problem, write_json_atomic
 from ..photometry.bands import VEGA_REFERENCE, Band
 
-__all__ = ["MagnitudeCache", "band_key", "default_cache_dir", "CACHE_FORMAT", "CACHE_VERSION"]
+__all__ = ["MagnitudeCache", "band_key", "CACHE_FORMAT", "CACHE_VERSION"]
 
 CACHE_FORMAT = "motes-synthetic-magnitudes"
 CACHE_VERSION = 1
 _FILE = "synthetic-magnitudes.json"
-
-
-def default_cache_dir() -> Path:
-    """``$MOTES_CACHE_DIR``, else ``$XDG_CACHE_HOME/motes``, else ``~/.cache/motes``."""
-    env = os.environ.get("MOTES_CACHE_DIR")
-    if env:
-        return Path(env)
-    base = os.environ.get("XDG_CACHE_HOME")
-    return (Path(base) if base else Path.home() / ".cache") / "motes"
 
 
 def band_key(band: Band) -> str:
@@ -85,7 +74,7 @@ class MagnitudeCache:
             return
         try:
             doc = json.loads(path.read_text())
-            if doc.get("format") != CACHE_FORMAT or doc.get("version") != CACHE_VERSION:
+            if stamp_problem(doc, CACHE_VERSION, CACHE_FORMAT, version_key="version"):
                 self.note = f"synthetic-magnitude cache {path} has another format version; rebuilt"
                 return
             data = doc["magnitudes"]
@@ -116,15 +105,6 @@ class MagnitudeCache:
         if self.folder is None or not self._dirty:
             return
         self.folder.mkdir(parents=True, exist_ok=True)
-        doc = {"format": CACHE_FORMAT, "version": CACHE_VERSION, "motes_version": __version__,
-               "magnitudes": self._data}
-        fd, tmp = tempfile.mkstemp(prefix=".synthetic-magnitudes-", suffix=".tmp", dir=self.folder)
-        try:
-            with os.fdopen(fd, "w") as handle:
-                json.dump(doc, handle)
-            os.replace(tmp, self.path)
-        except BaseException:
-            if os.path.exists(tmp):
-                os.unlink(tmp)
-            raise
+        doc = {**format_stamp(CACHE_VERSION, CACHE_FORMAT, version_key="version"), "magnitudes": self._data}
+        write_json_atomic(self.path, doc)
         self._dirty = False

@@ -21,6 +21,7 @@ import time
 from pathlib import Path
 
 from ..errors import InputError
+from ..files import write_bytes_atomic
 
 __all__ = ["DEMO_PARTS", "available_parts", "copy_demo_inputs", "run_demo"]
 
@@ -36,7 +37,7 @@ def copy_demo_inputs(folder, names) -> None:
     folder.mkdir(parents=True, exist_ok=True)
     data = resources.files(__name__) / "data"
     for name in names:
-        (folder / name).write_bytes((data / name).read_bytes())
+        write_bytes_atomic(folder / name, (data / name).read_bytes())
 
 
 def available_parts() -> list[str]:

@@ -26,9 +26,10 @@ def write_inputs(folder: Path) -> None:
 
 def run(folder: Path) -> None:
     """Classify the demo companion; print the summary and the paths written."""
-    from ..companion import ClassifySettings, classify, format_classification, write_classification
+    from ..companion import ClassifySettings, classify
     from ..photometry import calibrate, read_target
     from ..report.companion_figures import write_companion_figures
+    from ..report.companion_text import format_classification, write_classification
 
     folder = Path(folder)
     result = classify(calibrate(read_target(folder / TARGET_FILE)), ClassifySettings(mode="auto"))

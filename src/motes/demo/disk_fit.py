@@ -26,10 +26,12 @@ def write_inputs(folder: Path) -> None:
 def run(folder: Path) -> None:
     """Run the fit (resuming a previous demo run in the same folder) and print a short summary."""
     from ..dust.fit.run import FitRunSettings, run_fit
+    from ..report.fit_text import write_fit_report
 
     folder = Path(folder)
     out = folder / "disk_fit_run"
     result = run_fit(folder / "disk_fit.toml", FitRunSettings(output=out, workers=1, progress=True))
+    result = write_fit_report(result)          # summary.txt and the figures, as `motes fit` writes them
     print("Truth (invented): 65% silica, 30% water ice, 5% carbon, no iron; porosity 0.35, "
           "a_min 1.5 um, q 3.6")
     print("Models by evidence:")

@@ -27,8 +27,8 @@ def write_inputs(folder: Path) -> None:
 
 def run(folder: Path) -> None:
     """Compute the mixture's optics (exact Mie path), print them, write table and figures."""
-    from ..dust.model.mixture import (compute_mixture_optics, format_mixture_optics, read_mixture_file,
-                                write_mixture_outputs)
+    from ..dust.model.mixture import compute_mixture_optics, read_mixture_file
+    from ..report.optics_text import format_mixture_optics, write_mixture_outputs
 
     folder = Path(folder)
     description, mixture = read_mixture_file(folder / "optics_mixture.toml")

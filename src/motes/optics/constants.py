@@ -53,6 +53,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import OpticalConstantsError
+from ..parameters import accepts_quantities
 from .material import EXTRAPOLATION_RULES, VACUUM, IndexSample, Material
 
 __all__ = [
@@ -304,6 +305,7 @@ def _build(path: Path, wavelength_unit, name, density, extrapolation, columns,
     return material, problems
 
 
+@accepts_quantities
 def read_optical_constants(path, wavelength_unit=None, name=None, density=None,
                            extrapolation=None, *, columns=None, density_source=None) -> Material:
     """Read and validate an n,k (or eps1,eps2) file.

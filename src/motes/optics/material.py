@@ -34,6 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import OpticalConstantsError
+from ..parameters import accepts_quantities
 
 __all__ = ["Material", "IndexSample", "EXTRAPOLATION_RULES", "VACUUM"]
 
@@ -63,6 +64,7 @@ class IndexSample:
     notes: tuple[str, ...]
 
 
+@accepts_quantities
 @dataclass(frozen=True, eq=False)
 class Material:
     """Optical constants and bulk density of one material.
@@ -136,12 +138,14 @@ class Material:
         """Return a copy that uses extrapolation ``rule`` (``None`` refuses)."""
         return dataclasses.replace(self, extrapolation=rule)
 
+    @accepts_quantities
     def covers(self, wavelength) -> np.ndarray:
         """True where ``wavelength`` [um] lies inside the tabulated range."""
         w = np.asarray(wavelength, dtype=float)
         lo, hi = self.wavelength_range
         return (w >= lo) & (w <= hi)
 
+    @accepts_quantities
     def extrapolation_notes(self, wavelength) -> tuple[str, ...]:
         """Notes to print when ``wavelength`` [um] needs the extrapolation rule."""
         w = np.asarray(wavelength, dtype=float)
@@ -155,6 +159,7 @@ class Material:
                 f"'{self.extrapolation}' rule at {span} um "
                 f"(data cover {lo:.4g}-{hi:.4g} um)",)
 
+    @accepts_quantities
     def refractive_index(self, wavelength) -> np.ndarray:
         """Complex refractive index ``n + i k`` at ``wavelength``.
 
@@ -181,6 +186,7 @@ class Material:
         """
         return self.sample(wavelength).m
 
+    @accepts_quantities
     def sample(self, wavelength) -> IndexSample:
         """Refractive index at ``wavelength`` [um] with extrapolation flags and notes."""
         w = _wavelength_um(wavelength)

@@ -36,8 +36,8 @@ from dataclasses import dataclass  # noqa: E402
 import miepython  # noqa: E402
 import numpy as np  # noqa: E402
 
-from ..conventions import to_internal, WAVELENGTH_UNIT  # noqa: E402
 from ..errors import InputError  # noqa: E402
+from ..parameters import SCATTERING_ANGLE_RAD, accepts_quantities  # noqa: E402
 
 __all__ = [
     "MieEfficiencies",
@@ -253,6 +253,7 @@ def efficiencies(m, x) -> MieEfficiencies:
     return MieEfficiencies(q_ext=q_ext, q_sca=q_sca, q_abs=np.asarray(q_ext - q_sca), g=g, q_back=q_back)
 
 
+@accepts_quantities
 def efficiencies_at(m, radius, wavelength) -> MieEfficiencies:
     """Mie efficiencies for a grain radius and a wavelength.
 
@@ -275,13 +276,14 @@ def efficiencies_at(m, radius, wavelength) -> MieEfficiencies:
     >>> print(f"{float(e.q_ext):.4f}")
     3.1054
     """
-    a = np.asarray(to_internal(radius, WAVELENGTH_UNIT, "radius"), dtype=float)
-    lam = np.asarray(to_internal(wavelength, WAVELENGTH_UNIT, "wavelength"), dtype=float)
+    a = np.asarray(radius, dtype=float)
+    lam = np.asarray(wavelength, dtype=float)
     if (a <= 0).any() or (lam <= 0).any():
         raise InputError("radius and wavelength must be > 0")
     return efficiencies(m, 2.0 * np.pi * a / lam)
 
 
+@accepts_quantities(extra={"theta": SCATTERING_ANGLE_RAD})
 def scattering_amplitudes(m, x, theta) -> tuple[np.ndarray, np.ndarray]:
     """Bohren & Huffman amplitude functions S1, S2 (miepython's ``norm='wiscombe'``).
 
@@ -309,6 +311,7 @@ def scattering_amplitudes(m, x, theta) -> tuple[np.ndarray, np.ndarray]:
     return s1.reshape(out_shape), s2.reshape(out_shape)
 
 
+@accepts_quantities(extra={"theta": SCATTERING_ANGLE_RAD})
 def scattered_intensity(m, x, theta) -> np.ndarray:
     """Angle-averaged ``|S1|^2 + |S2|^2`` over the angles ``theta`` (equal weights).
 
@@ -330,6 +333,7 @@ def scattered_intensity(m, x, theta) -> np.ndarray:
     return _intensity_loop(mm, xx, mu).reshape(shape)
 
 
+@accepts_quantities(extra={"theta": SCATTERING_ANGLE_RAD})
 def phase_function(m, x, theta) -> np.ndarray:
     """Mie phase function normalised to one over the sphere [sr^-1].
 
@@ -369,6 +373,7 @@ def phase_function(m, x, theta) -> np.ndarray:
     return (np.abs(s1) ** 2 + np.abs(s2) ** 2) / denom
 
 
+@accepts_quantities(extra={"theta": SCATTERING_ANGLE_RAD})
 def polarised_phase_function(m, x, theta) -> np.ndarray:
     """Polarised part of the phase function, ``(|S1|^2 - |S2|^2) / (2 pi x^2 Q_sca)`` [sr^-1].
 

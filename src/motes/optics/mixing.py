@@ -73,6 +73,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError, ModelError
+from ..parameters import accepts_quantities
 
 __all__ = [
     "BRUGGEMAN_TOLERANCE",
@@ -454,6 +455,7 @@ def mix_refractive_index(indices, fractions, porosity=0.0, rule="bruggeman", mat
     return np.sqrt(eps_eff)
 
 
+@accepts_quantities
 def mixture_density(densities, fractions, porosity=0.0) -> np.ndarray:
     """Bulk density of a porous mixture [g cm^-3].
 

@@ -34,6 +34,7 @@ from astropy import constants as const
 import astropy.units as u
 
 from ..errors import InputError
+from ..parameters import accepts_quantities
 
 __all__ = [
     "PowerLaw",
@@ -50,6 +51,7 @@ __all__ = [
 _BLOWOUT_UM = (3 * const.L_sun / (8 * np.pi * const.G * const.M_sun * const.c * (1 * u.g / u.cm**3))).to_value(u.um)
 
 
+@accepts_quantities
 def gauss_legendre_log(a_min, a_max, n_per_efold: int = 8, min_nodes: int = 8):
     """Gauss-Legendre nodes and weights in ln a between two sizes.
 
@@ -81,6 +83,7 @@ def gauss_legendre_log(a_min, a_max, n_per_efold: int = 8, min_nodes: int = 8):
     return np.exp(ln_a), w
 
 
+@accepts_quantities
 def power_law_cross_section(a_min, a_max, q):
     """``integral_{a_min}^{a_max} a^(2-q) da`` [um^(3-q)], vectorised.
 
@@ -104,6 +107,7 @@ def _check_sizes(a_min, a_max):
                          where="a_min/a_max")
 
 
+@accepts_quantities
 @dataclass(frozen=True)
 class PowerLaw:
     """``dn/da ∝ a^-q`` on ``[a_min, a_max]`` [um], normalised to unit cross-section.
@@ -129,6 +133,7 @@ class PowerLaw:
         """Constant C in ``n(a) = C a^-q`` giving unit total cross-section [um^(q-3)]."""
         return float(1.0 / (np.pi * power_law_cross_section(self.a_min, self.a_max, self.q)))
 
+    @accepts_quantities
     def number_density(self, a) -> np.ndarray:
         """dn/da [um^-3 per unit cross-section], zero outside ``[a_min, a_max]``."""
         a = np.asarray(a, dtype=float)
@@ -145,6 +150,7 @@ class PowerLaw:
         return a, w
 
 
+@accepts_quantities
 @dataclass(frozen=True)
 class LogNormal:
     """``dn/d ln a ∝ exp(-(ln a - ln a_0)^2 / (2 sigma^2))``, normalised to unit cross-section.
@@ -182,6 +188,7 @@ class LogNormal:
         a, w = gauss_legendre_log(self.a_min, self.a_max, 16)
         return float(1.0 / np.sum(w * np.pi * a**3 * self._shape(a)))
 
+    @accepts_quantities
     def number_density(self, a) -> np.ndarray:
         """dn/da [um^-3 per unit cross-section], zero outside ``[a_min, a_max]``."""
         a = np.asarray(a, dtype=float)
@@ -202,6 +209,7 @@ def _check_star(luminosity_lsun, mass_msun, density):
             raise InputError(f"{name} must be finite and > 0, got {v!r}", where=name)
 
 
+@accepts_quantities
 def radiation_pressure_beta(a, luminosity_lsun, mass_msun, density, q_pr=1.0):
     """Ratio of radiation pressure to gravity, ``beta(a)``.
 
@@ -231,6 +239,7 @@ def radiation_pressure_beta(a, luminosity_lsun, mass_msun, density, q_pr=1.0):
     return 0.5 * _BLOWOUT_UM * luminosity_lsun * np.asarray(q_pr) / (mass_msun * density * a)
 
 
+@accepts_quantities
 def blowout_size(luminosity_lsun, mass_msun, density, q_pr=1.0) -> float:
     """Blow-out radius [um] for a size-independent Q_pr.
 
@@ -255,7 +264,8 @@ class BlowoutResult:
     Attributes
     ----------
     size : float or None [um]
-        Largest radius with beta = 1/2; ``None`` when beta < 1/2 at every size.
+        Radius where beta falls through 1/2 (the smallest such radius when it
+        does so more than once); ``None`` when beta < 1/2 at every size.
     beta_max : float
         Largest beta over the sizes searched.
     size_of_beta_max : float [um]
@@ -282,6 +292,7 @@ class BlowoutResult:
         return self.size is not None
 
 
+@accepts_quantities
 def find_blowout_size(q_pr_of_size, luminosity_lsun, mass_msun, density,
                       a_range=(0.01, 100.0), n_sizes: int = 121, notes=()) -> BlowoutResult:
     """Blow-out radius from a size-dependent, spectrum-averaged Q_pr(a).
@@ -310,9 +321,13 @@ def find_blowout_size(q_pr_of_size, luminosity_lsun, mass_msun, density,
     Notes
     -----
     beta(a) = 3 L <Q_pr>(a) / (16 pi G M c rho a) (Burns, Lamy & Soter 1979).
-    The largest a with beta >= 1/2 is bracketed on the grid and refined by
-    bisection in ln a (Q_pr interpolated linearly in ln a between 16 extra
-    evaluations).
+    The blow-out size is where beta falls through 1/2 with growing a: grains
+    just larger are bound. When beta crosses 1/2 downwards more than once
+    (Mie resonances can lift it above 1/2 again in a band of larger sizes),
+    ``size`` is the *smallest* such crossing and the message names every
+    size interval with beta >= 1/2. Each crossing is bracketed on the grid
+    and refined by bisection in ln a (Q_pr interpolated linearly in ln a
+    between 16 extra evaluations).
     """
     _check_star(luminosity_lsun, mass_msun, density)
     lo, hi = a_range
@@ -321,32 +336,43 @@ def find_blowout_size(q_pr_of_size, luminosity_lsun, mass_msun, density,
     q = np.asarray(q_pr_of_size(a), dtype=float)
     beta = radiation_pressure_beta(a, luminosity_lsun, mass_msun, density, q)
     i_max = int(np.argmax(beta))
-    above = np.flatnonzero(beta >= 0.5)
+    above = beta >= 0.5
     notes = tuple(notes)
-    if above.size == 0:
+    if not above.any():
         msg = (f"no blow-out size: beta stays below 0.5 at every radius {lo:g}-{hi:g} um "
                f"(largest beta {beta[i_max]:.3g} at {a[i_max]:.3g} um); all grains stay bound")
         return BlowoutResult(None, float(beta[i_max]), float(a[i_max]), a, beta, q, msg, notes)
-    j = int(above[-1])
-    if j == a.size - 1:
+    falls = np.flatnonzero(above[:-1] & ~above[1:])     # beta >= 0.5 at a[j], < 0.5 at a[j+1]
+    if falls.size == 0:
         msg = (f"beta >= 0.5 up to the largest radius searched ({hi:g} um): blow-out size "
                "lies beyond the search range")
         return BlowoutResult(float(hi), float(beta[i_max]), float(a[i_max]), a, beta, q, msg,
                              notes + (msg,))
-    # refine between a[j] (beta >= 0.5) and a[j+1] (beta < 0.5)
-    fine = np.geomspace(a[j], a[j + 1], 17)
-    qf = np.asarray(q_pr_of_size(fine), dtype=float)
-    bf = radiation_pressure_beta(fine, luminosity_lsun, mass_msun, density, qf)
-    k = int(np.flatnonzero(bf >= 0.5)[-1])
-    k = min(k, fine.size - 2)
-    l0, l1 = np.log(fine[k]), np.log(fine[k + 1])
-    for _ in range(60):
-        mid = 0.5 * (l0 + l1)
-        qm = np.interp(mid, np.log(fine), qf)
-        if radiation_pressure_beta(np.exp(mid), luminosity_lsun, mass_msun, density, qm) >= 0.5:
-            l0 = mid
-        else:
-            l1 = mid
-    size = float(np.exp(0.5 * (l0 + l1)))
+
+    def refine(j):
+        fine = np.geomspace(a[j], a[j + 1], 17)
+        qf = np.asarray(q_pr_of_size(fine), dtype=float)
+        bf = radiation_pressure_beta(fine, luminosity_lsun, mass_msun, density, qf)
+        k = min(int(np.flatnonzero(bf >= 0.5)[-1]), fine.size - 2)
+        l0, l1 = np.log(fine[k]), np.log(fine[k + 1])
+        for _ in range(60):
+            mid = 0.5 * (l0 + l1)
+            qm = np.interp(mid, np.log(fine), qf)
+            if radiation_pressure_beta(np.exp(mid), luminosity_lsun, mass_msun, density, qm) >= 0.5:
+                l0 = mid
+            else:
+                l1 = mid
+        return float(np.exp(0.5 * (l0 + l1)))
+
+    size = refine(int(falls[0]))
     msg = f"blow-out radius {size:.3g} um (beta = 0.5; largest beta {beta[i_max]:.3g} at {a[i_max]:.3g} um)"
+    if falls.size > 1 or above[-1]:
+        rises = np.flatnonzero(~above[:-1] & above[1:]) + 1
+        starts = ([0] if above[0] else []) + list(rises)
+        ends = list(falls + 1) + ([a.size - 1] if above[-1] else [])
+        spans = ", ".join(f"{a[s]:.3g}-{a[e]:.3g}" for s, e in zip(starts, ends))
+        note = (f"beta crosses 0.5 more than once (beta >= 0.5 over about {spans} um): the blow-out size "
+                f"given is the smallest radius where beta falls below 0.5, {size:.3g} um")
+        msg += f"; {note}"
+        notes = notes + (note,)
     return BlowoutResult(size, float(beta[i_max]), float(a[i_max]), a, beta, q, msg, notes)

@@ -22,7 +22,7 @@ from .bands import (
     top_hat_band,
     vega_spectrum,
 )
-from .catalogue import band_table, format_band, format_band_table, plot_band
+from .catalogue import band_table, format_band, format_band_table
 from .conversions import (
     MAG_PER_LN,
     ZERO_POINT_FRACTIONAL_ERROR,
@@ -68,7 +68,6 @@ __all__ = [
     "band_table",
     "format_band",
     "format_band_table",
-    "plot_band",
     # conversions
     "MAG_PER_LN",
     "ZERO_POINT_FRACTIONAL_ERROR",

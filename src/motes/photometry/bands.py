@@ -46,6 +46,7 @@ import numpy as np
 
 from ..conventions import AB_ZERO_POINT_JY, _FLAM_TO_FNU, flam_to_fnu
 from ..errors import BandError
+from ..parameters import accepts_quantities
 
 __all__ = [
     "Band",
@@ -67,6 +68,7 @@ COUNTING_MODES = ("photon", "energy")
 _RESPONSES = ("photon", "energy")
 
 
+@accepts_quantities
 @dataclass(frozen=True, eq=False)
 class Band:
     """A photometric band.
@@ -162,6 +164,7 @@ class Band:
     def _power(self) -> int:
         return int(self.counting == "photon") - int(self.response == "energy")
 
+    @accepts_quantities
     def weight(self, wavelength) -> np.ndarray:
         """Integration weight w(lambda) [arbitrary] for F_lambda averages.
 
@@ -253,6 +256,7 @@ class Band:
         return float(right - left)
 
     # ------------------------------------------------------ synthetic photometry
+    @accepts_quantities
     def average_flux_lambda(self, wavelength, flux_lambda) -> np.ndarray:
         """Band-averaged F_lambda of tabulated spectra.
 
@@ -293,10 +297,12 @@ class Band:
         w = self.weight(g)
         return float(np.trapezoid(np.asarray(function(g), dtype=float) * w, g) / np.trapezoid(w, g))
 
+    @accepts_quantities
     def flux_lambda_to_fnu(self, mean_flux_lambda):
         """Convert a band-averaged F_lambda [W m^-2 um^-1] to <f_nu> [Jy] at the pivot."""
         return flam_to_fnu(mean_flux_lambda, self.pivot_wavelength)
 
+    @accepts_quantities
     def fnu_to_flux_lambda(self, mean_fnu):
         """Convert a band-averaged f_nu [Jy] to <F_lambda> [W m^-2 um^-1]."""
         return np.asarray(mean_fnu) / (self.pivot_wavelength**2 * _FLAM_TO_FNU)
@@ -330,10 +336,12 @@ class Band:
         """m_AB - m_Vega for any source in this band [mag]."""
         return float(-2.5 * np.log10(self.vega_zero_point_jy / AB_ZERO_POINT_JY))
 
+    @accepts_quantities
     def vega_magnitude_of(self, mean_flux_lambda):
         """Vega magnitude of a band-averaged F_lambda [W m^-2 um^-1]."""
         return -2.5 * np.log10(np.asarray(mean_flux_lambda) / self.vega_flux_lambda) + self.vega_magnitude
 
+    @accepts_quantities
     def ab_magnitude_of(self, mean_flux_lambda):
         """AB magnitude of a band-averaged F_lambda [W m^-2 um^-1]."""
         return -2.5 * np.log10(self.flux_lambda_to_fnu(mean_flux_lambda) / AB_ZERO_POINT_JY)
@@ -510,6 +518,7 @@ def get_band(name: str, custom: dict[str, Band] | None = None, counting: str = "
 
 
 # ---------------------------------------------------------------- user bands
+@accepts_quantities
 def top_hat_band(name: str, centre: float, width: float, n: int = 401) -> Band:
     """An approximate top-hat band [um] with a short linear edge (1% of the width).
 
@@ -524,6 +533,7 @@ def top_hat_band(name: str, centre: float, width: float, n: int = 401) -> Band:
                 source=f"top-hat, centre {centre:g} um, width {width:g} um")
 
 
+@accepts_quantities
 def gaussian_band(name: str, centre: float, fwhm: float, n: int = 401) -> Band:
     """An approximate Gaussian band [um], truncated at +-3 FWHM. Marked ``approximate``."""
     _check_centre_width(name, centre, fwhm)
@@ -544,6 +554,7 @@ def _check_centre_width(name, centre, width):
         )
 
 
+@accepts_quantities
 def band_from_curve(name: str, wavelength, throughput, response: str = "photon", **kwargs) -> Band:
     """A user band from arrays (wavelength [um], throughput)."""
     wl = np.asarray(wavelength, dtype=float)

@@ -1,15 +1,13 @@
-"""The band catalogue: tables, descriptions and plots of bands (``motes bands``)."""
+"""The band catalogue: tables and descriptions of bands (``motes bands``).
+
+The plot of a band's curve is :func:`motes.report.band_figures.plot_band`.
+"""
 
 from __future__ import annotations
 
-import os
-import tempfile
-from pathlib import Path
-
-from ..errors import InputError
 from .bands import Band, get_band, standard_band_names
 
-__all__ = ["band_table", "format_band_table", "format_band", "plot_band"]
+__all__ = ["band_table", "format_band_table", "format_band"]
 
 
 def band_table(bands=None, counting: str | None = "photon"):
@@ -111,59 +109,3 @@ def format_band(band: Band) -> str:
     width = max(len(k) for k, _ in rows)
     return "\n".join(f"{k:<{width}}  {v}" for k, v in rows)
 
-
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
-
-
-def plot_band(band: Band, path) -> Path:
-    """Save a plot of a band's curve (normalised) to ``path`` (PNG, PDF, ...).
-
-    Parameters
-    ----------
-    band : Band
-    path : str or Path
-        Output file; the format follows the suffix.
-
-    Returns
-    -------
-    Path
-    """
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    path = Path(path)
-    if path.parent and not path.parent.exists():
-        raise InputError("output folder does not exist", path.parent)
-    fig, ax = plt.subplots(figsize=(6.0, 3.6))
-    t = band.throughput / band.throughput.max()
-    ax.plot(band.wavelength, t, color="#1f5f8b", lw=1.6, label=f"curve ({band.response} response)")
-    w = band.weight(band.wavelength)
-    ax.plot(band.wavelength, w / w.max(), color="#c0622f", lw=1.0, ls="--",
-            label=f"{band.counting}-counting weight")
-    ax.axvline(band.pivot_wavelength, color="0.3", lw=0.8, ls=":", label=f"pivot {band.pivot_wavelength:.4f} µm")
-    ax.set_xlabel("wavelength [µm]")
-    ax.set_ylabel("normalised throughput")
-    title = band.name + (" (approximate)" if band.approximate else "")
-    ax.set_title(title)
-    ax.set_ylim(0, 1.12)
-    ax.legend(fontsize=8, loc="lower center")
-    fig.tight_layout()
-    suffix = path.suffix or ".png"
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=suffix, dir=path.parent or ".")
-    os.close(fd)
-    try:
-        fig.savefig(tmp, dpi=130)
-        os.chmod(tmp, 0o666 & ~_umask())
-        os.replace(tmp, path)
-    except (OSError, ValueError) as exc:
-        raise InputError(f"cannot save plot: {exc}", path) from None
-    finally:
-        plt.close(fig)
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-    return path

@@ -39,6 +39,7 @@ import math
 
 import numpy as np
 
+from ..parameters import accepts_quantities
 from .bands import Band
 
 __all__ = [
@@ -94,6 +95,7 @@ def zero_point_error(band: Band, overrides: dict | None = None) -> float:
     return ZERO_POINT_FRACTIONAL_ERROR[system]
 
 
+@accepts_quantities
 def magnitude_to_flux(magnitude, zero_point_jy):
     """f_nu [Jy] of a magnitude: f = ZP 10^(-0.4 m).
 
@@ -112,6 +114,7 @@ def magnitude_to_flux(magnitude, zero_point_jy):
     return np.asarray(zero_point_jy) * 10.0 ** (-0.4 * np.asarray(magnitude, dtype=float))
 
 
+@accepts_quantities
 def flux_to_magnitude(flux_jy, zero_point_jy):
     """Magnitude of a flux density: m = -2.5 log10(f / ZP).
 
@@ -133,16 +136,19 @@ def delta_mag_to_ratio(delta_mag):
     return 10.0 ** (-0.4 * np.asarray(delta_mag, dtype=float))
 
 
+@accepts_quantities
 def distance_modulus(distance_pc):
     """Distance modulus mu = 5 log10(d / 10 pc) [mag] of a distance [pc]."""
     return 5.0 * np.log10(np.asarray(distance_pc, dtype=float) / 10.0)
 
 
+@accepts_quantities
 def distance_modulus_error(distance_pc, distance_pc_error):
     """1-sigma of the distance modulus [mag] by linear propagation: 5/ln10 σ_d/d."""
     return 2.0 * MAG_PER_LN * np.asarray(distance_pc_error, dtype=float) / np.asarray(distance_pc, dtype=float)
 
 
+@accepts_quantities
 def distance_from_parallax(parallax_mas, parallax_mas_error):
     """Distance and distance modulus from a parallax, with linear errors.
 

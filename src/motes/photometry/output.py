@@ -9,12 +9,11 @@ error never leaves a partial output.
 from __future__ import annotations
 
 import math
-import os
 import re
-import tempfile
 from pathlib import Path
 
 from ..errors import InputError
+from ..files import atomic_writes
 from .measurements import CalibratedPhotometry
 
 __all__ = ["format_photometry", "write_photometry", "photometry_file_stem", "target_slug"]
@@ -123,23 +122,11 @@ def write_photometry(result: CalibratedPhotometry, folder, csv: bool = False,
         flat.meta = {"comments": [f"{k}: {v}" for k, v in table.meta.items() if k != "notes"]
                      + [f"note: {n}" for n in table.meta["notes"]]}
         plans.append((folder / f"{stem}.csv", "ascii.csv", flat))
-    temps = []
-    umask = os.umask(0)
-    os.umask(umask)
     try:
-        for final, fmt, tab in plans:
-            fd, tmp = tempfile.mkstemp(prefix=f".{final.name}.", suffix=".tmp", dir=folder)
-            os.close(fd)
-            temps.append((Path(tmp), final))
-            kw = {"comment": "# "} if fmt == "ascii.csv" else {}
-            tab.write(tmp, format=fmt, overwrite=True, **kw)
-            os.chmod(tmp, 0o666 & ~umask)
-        for tmp, final in temps:
-            os.replace(tmp, final)
+        with atomic_writes([final for final, _, _ in plans]) as temps:
+            for tmp, (_, fmt, tab) in zip(temps, plans):
+                kw = {"comment": "# "} if fmt == "ascii.csv" else {}
+                tab.write(tmp, format=fmt, overwrite=True, **kw)
     except OSError as exc:
         raise InputError(f"cannot write output: {exc}", folder) from None
-    finally:
-        for tmp, _ in temps:
-            if tmp.exists():
-                tmp.unlink()
-    return [final for _, final in temps]
+    return [final for final, _, _ in plans]

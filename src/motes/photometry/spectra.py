@@ -10,12 +10,15 @@ import numpy as np
 from astropy import constants as const
 import astropy.units as u
 
+from ..parameters import accepts_quantities
+
 __all__ = ["blackbody_flux_lambda"]
 
 _HC_OVER_K_UM_K = (const.h * const.c / const.k_B).to_value(u.um * u.K)
 _TWO_HC2 = (2 * const.h * const.c**2).to_value(u.W * u.um**4 / u.m**2)  # W m^-2 um^4 (per sr)
 
 
+@accepts_quantities
 def blackbody_flux_lambda(wavelength, temperature):
     """Planck surface brightness B_lambda(T) [W m^-2 um^-1 sr^-1].
 

@@ -29,6 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import PhotometryError
+from ..parameters import accepts_quantities
 from .bands import Band
 from .spectra import blackbody_flux_lambda
 
@@ -86,6 +87,7 @@ def _band_mean_flux(band: Band, teff: float | None, spectrum) -> float:
     return band.average_flux_lambda_of(lambda wl: blackbody_flux_lambda(wl, teff))
 
 
+@accepts_quantities
 def spectrum_colour(band: Band, reference: Band, *, teff: float | None = None, spectrum=None,
                     system: str = "Vega") -> float:
     """Synthetic colour m(band) - m(reference) of a spectrum [mag].

@@ -26,6 +26,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import BandError, InputError
+from ..parameters import accepts_quantities
+from ..tomlcheck import check_keys, check_tables, get_table, read_number
 from .bands import COUNTING_MODES, Band, gaussian_band, read_band_curve, top_hat_band
 from .measurement_table import Measurement, _lookup_band, read_photometry_table
 
@@ -68,6 +70,7 @@ class HostMagnitude:
     system: str = "Vega"
 
 
+@accepts_quantities
 @dataclass(frozen=True)
 class HostSpectrum:
     """A host-star spectrum for synthesising magnitudes.
@@ -81,6 +84,7 @@ class HostSpectrum:
     source: str = ""
 
 
+@accepts_quantities
 @dataclass(frozen=True)
 class HostStar:
     """The host star: catalogue photometry, distance and spectrum model.
@@ -149,32 +153,15 @@ class Target:
 
 
 # ----------------------------------------------------------------- helpers
-def _number(value, path, where, what="a number") -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise InputError(f"expected {what}, got {value!r}", path, where)
-    value = float(value)
-    if not math.isfinite(value):
-        raise InputError(f"expected {what}, got {value!r}", path, where)
-    return value
-
-
 def _pair(value, path, where, what) -> tuple[float, float]:
     """A ``[value, error]`` pair with a positive error."""
     if not isinstance(value, list) or len(value) != 2:
         raise InputError(f"expected [{what}, uncertainty] (two numbers), got {value!r}", path, where)
-    v = _number(value[0], path, where, what)
-    e = _number(value[1], path, where, "an uncertainty")
+    v = read_number(value[0], path=path, where=where, what=what)
+    e = read_number(value[1], path=path, where=where, what="an uncertainty")
     if e <= 0:
         raise InputError(f"uncertainty must be > 0, got {e!r}", path, where)
     return v, e
-
-
-def _check_keys(table: dict, allowed, path, where):
-    unknown = sorted(set(table) - set(allowed))
-    if unknown:
-        raise InputError(
-            f"unknown key(s) {', '.join(map(repr, unknown))}; allowed: {', '.join(allowed)}", path, where
-        )
 
 
 # ----------------------------------------------------------------- bands
@@ -190,16 +177,20 @@ def _read_user_bands(doc: dict, path: Path, counting: str) -> dict[str, Band]:
         shape = spec.get("shape")
         try:
             if shape == "top-hat":
-                _check_keys(spec, ("shape", "centre_um", "width_um", "counting", "note"), path, where)
-                band = top_hat_band(name, _number(spec.get("centre_um"), path, f"{where} centre_um", "centre_um [um]"),
-                                    _number(spec.get("width_um"), path, f"{where} width_um", "width_um [um]"))
+                check_keys(spec, ("shape", "centre_um", "width_um", "counting", "note"), path=path, where=where)
+                band = top_hat_band(name, read_number(spec.get("centre_um"), path=path, where=f"{where} centre_um",
+                                                      what="centre_um [um]"),
+                                    read_number(spec.get("width_um"), path=path, where=f"{where} width_um",
+                                                what="width_um [um]"))
             elif shape == "gaussian":
-                _check_keys(spec, ("shape", "centre_um", "fwhm_um", "counting", "note"), path, where)
-                band = gaussian_band(name, _number(spec.get("centre_um"), path, f"{where} centre_um", "centre_um [um]"),
-                                     _number(spec.get("fwhm_um"), path, f"{where} fwhm_um", "fwhm_um [um]"))
+                check_keys(spec, ("shape", "centre_um", "fwhm_um", "counting", "note"), path=path, where=where)
+                band = gaussian_band(name, read_number(spec.get("centre_um"), path=path, where=f"{where} centre_um",
+                                                       what="centre_um [um]"),
+                                     read_number(spec.get("fwhm_um"), path=path, where=f"{where} fwhm_um",
+                                                 what="fwhm_um [um]"))
             elif shape == "curve":
-                _check_keys(spec, ("shape", "file", "wavelength_unit", "response", "vega_magnitude",
-                                   "counting", "note"), path, where)
+                check_keys(spec, ("shape", "file", "wavelength_unit", "response", "vega_magnitude",
+                                  "counting", "note"), path=path, where=where)
                 file = spec.get("file")
                 if not isinstance(file, str):
                     raise InputError("a curve band needs file = \"PATH\" (relative to this file)", path, where)
@@ -214,7 +205,7 @@ def _read_user_bands(doc: dict, path: Path, counting: str) -> dict[str, Band]:
                                        wavelength_unit=str(spec.get("wavelength_unit", "um")),
                                        response=response)
                 if "vega_magnitude" in spec:
-                    vmag = _number(spec["vega_magnitude"], path, f"{where} vega_magnitude")
+                    vmag = read_number(spec["vega_magnitude"], path=path, where=f"{where} vega_magnitude")
                     band = Band(band.name, band.wavelength, band.throughput, band.response, band.system,
                                 vmag, band.native_system, band.approximate, band.counting, band.source,
                                 band.note)
@@ -295,7 +286,8 @@ def _read_host(doc, path, custom, counting) -> HostStar:
     host = doc.get("host")
     if not isinstance(host, dict):
         raise InputError("missing [host] table (host star photometry and distance)", path, "[host]")
-    _check_keys(host, ("name", "distance_pc", "parallax_mas", "teff_k", "magnitudes", "spectrum"), path, "[host]")
+    check_keys(host, ("name", "distance_pc", "parallax_mas", "teff_k", "magnitudes", "spectrum"),
+               path=path, where="[host]")
     name = host.get("name", "host")
     if not isinstance(name, str):
         raise InputError(f"expected a string, got {name!r}", path, "[host] name")
@@ -316,7 +308,7 @@ def _read_host(doc, path, custom, counting) -> HostStar:
             )
     teff = math.nan
     if "teff_k" in host:
-        teff = _number(host["teff_k"], path, "[host] teff_k", "Teff [K]")
+        teff = read_number(host["teff_k"], path=path, where="[host] teff_k", what="Teff [K]")
         if teff <= 0:
             raise InputError(f"Teff must be > 0 K, got {teff!r}", path, "[host] teff_k")
     spectrum = None
@@ -325,7 +317,7 @@ def _read_host(doc, path, custom, counting) -> HostStar:
         where = "[host.spectrum]"
         if not isinstance(spec, dict) or not isinstance(spec.get("file"), str):
             raise InputError('expected a table with file = "PATH" (and wavelength_unit, flux)', path, where)
-        _check_keys(spec, ("file", "wavelength_unit", "flux"), path, where)
+        check_keys(spec, ("file", "wavelength_unit", "flux"), path=path, where=where)
         spath = path.parent / spec["file"]
         if not spath.is_file():
             raise InputError(f"spectrum file {str(spath)!r} not found", path, f"{where} file")
@@ -342,7 +334,7 @@ def _read_host(doc, path, custom, counting) -> HostStar:
         seen[band.name] = key
         system = band.native_system
         if isinstance(val, dict):
-            _check_keys(val, ("mag", "error", "system"), path, where)
+            check_keys(val, ("mag", "error", "system"), path=path, where=where)
             system = val.get("system", system)
             if system not in ("Vega", "AB"):
                 raise InputError(f"system must be 'Vega' or 'AB', got {system!r}", path, where)
@@ -353,14 +345,13 @@ def _read_host(doc, path, custom, counting) -> HostStar:
 
 
 def _read_settings(doc, path) -> CalibrationSettings:
-    s = doc.get("settings", {})
-    if not isinstance(s, dict):
-        raise InputError("[settings] must be a table", path, "[settings]")
-    _check_keys(s, ("synthesis_systematic_mag", "synthesis_reference_band", "counting", "zero_point_errors"),
-                path, "[settings]")
+    s = get_table(doc, "settings", path=path)
+    check_keys(s, ("synthesis_systematic_mag", "synthesis_reference_band", "counting", "zero_point_errors"),
+               path=path, where="[settings]")
     kw = {}
     if "synthesis_systematic_mag" in s:
-        v = _number(s["synthesis_systematic_mag"], path, "[settings] synthesis_systematic_mag", "a magnitude")
+        v = read_number(s["synthesis_systematic_mag"], path=path, where="[settings] synthesis_systematic_mag",
+                        what="a magnitude")
         if v < 0:
             raise InputError(f"must be >= 0 mag, got {v!r}", path, "[settings] synthesis_systematic_mag")
         kw["synthesis_systematic_mag"] = v
@@ -380,7 +371,7 @@ def _read_settings(doc, path) -> CalibrationSettings:
                              "[settings.zero_point_errors]")
         clean = {}
         for k, v in zp.items():
-            v = _number(v, path, f"[settings.zero_point_errors] {k!r}", "a fractional error")
+            v = read_number(v, path=path, where=f"[settings.zero_point_errors] {k!r}", what="a fractional error")
             if v < 0:
                 raise InputError(f"must be >= 0, got {v!r}", path, f"[settings.zero_point_errors] {k!r}")
             clean[k] = v
@@ -452,12 +443,12 @@ def read_target(path) -> Target:
     """
     path = Path(path)
     doc = _load_toml(path)
-    _check_keys(doc, ("companion", "host", "bands", "settings"), path, "top level")
+    check_tables(doc, ("companion", "host", "bands", "settings"), path=path)
     settings = _read_settings(doc, path)
     comp = doc.get("companion")
     if not isinstance(comp, dict):
         raise InputError('missing [companion] table with name = "..." and photometry = "FILE"', path, "[companion]")
-    _check_keys(comp, ("name", "photometry"), path, "[companion]")
+    check_keys(comp, ("name", "photometry"), path=path, where="[companion]")
     name = comp.get("name")
     if not isinstance(name, str) or not name.strip():
         raise InputError("expected a non-empty name", path, "[companion] name")

@@ -2,7 +2,8 @@
 the probability of each spectral type.
 
 Both functions take a :class:`~motes.companion.Classification`, write a PNG
-(matplotlib, Agg backend) into a folder and return its path.
+into a folder and return its path. They draw with matplotlib's object-oriented
+API (no pyplot), so the user's plotting backend is never touched.
 """
 
 from __future__ import annotations
@@ -10,15 +11,12 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-import matplotlib
-
-matplotlib.use("Agg")
-
 import numpy as np
 
 from ..companion.results import Classification
 from ..companion.spectral_types import type_label
 from ..errors import BandError, InputError
+from ..files import atomic_write
 
 __all__ = ["plot_companion_sed", "plot_type_probability", "write_companion_figures"]
 
@@ -36,17 +34,12 @@ def _headline_ranking(result: Classification):
 
 
 def _save(fig, path: Path) -> Path:
-    import matplotlib.pyplot as plt
-
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_name(f".{path.name}.tmp.png")
-        fig.savefig(tmp, dpi=130)
-        tmp.replace(path)
+        with atomic_write(path, suffix=".png") as tmp:
+            fig.savefig(tmp, dpi=130)
     except OSError as exc:
         raise InputError(f"cannot write figure: {exc}", path) from None
-    finally:
-        plt.close(fig)
     return path
 
 
@@ -70,7 +63,7 @@ def plot_companion_sed(result: Classification, path, n_best: int = 3) -> Path:
     -------
     Path
     """
-    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
 
     from ..photometry.spectra import blackbody_flux_lambda
     from ..conventions import flam_to_fnu
@@ -78,7 +71,8 @@ def plot_companion_sed(result: Classification, path, n_best: int = 3) -> Path:
 
     phot = result.photometry
     rows = phot.rows
-    fig, ax = plt.subplots(figsize=(7.2, 4.8))
+    fig = Figure(figsize=(7.2, 4.8))
+    ax = fig.subplots()
     pivots = {r.band.name: r.band.pivot_wavelength for r in rows}
     zero_points = {}
     for r in rows:
@@ -171,9 +165,10 @@ def plot_type_probability(result: Classification, path) -> Path:
     -------
     Path
     """
-    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
 
-    fig, ax = plt.subplots(figsize=(7.2, 4.0))
+    fig = Figure(figsize=(7.2, 4.0))
+    ax = fig.subplots()
     plotted = False
     for k, r in enumerate(result.rankings):
         codes = r.grid["type_code"]
@@ -222,7 +217,7 @@ def plot_type_probability(result: Classification, path) -> Path:
 
 def write_companion_figures(result: Classification, folder, stem: str | None = None) -> list[Path]:
     """Write both figures into ``folder``; returns their paths."""
-    from ..companion.summary import classification_file_stem
+    from .companion_text import classification_file_stem
 
     folder = Path(folder)
     stem = stem or classification_file_stem(result.target)

@@ -2,18 +2,17 @@
 
 Only formatting: every number plotted comes from a
 :class:`motes.dust.fit.results.FitResult` (its per-model colour tables,
-posterior samples and ranking).
+posterior samples and ranking). Drawn with matplotlib's object-oriented API
+(no pyplot), so the user's plotting backend is never touched.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
-import matplotlib
+import numpy as np
 
-matplotlib.use("Agg")
-
-import numpy as np  # noqa: E402
+from ..files import atomic_write
 
 __all__ = ["write_fit_figures", "plot_colours", "plot_corner", "plot_evidence"]
 
@@ -23,12 +22,13 @@ _N_MODELS_SHOWN = 3
 
 def plot_colours(result, path: Path, n_models: int = _N_MODELS_SHOWN) -> Path:
     """Data and posterior model ratios (median, 68% band) of the best models vs wavelength."""
-    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
 
     obs = result.observations
     lam = obs.wavelength
     order = np.argsort(lam)
-    fig, ax = plt.subplots(figsize=(7.0, 4.6))
+    fig = Figure(figsize=(7.0, 4.6))
+    ax = fig.subplots()
     for i, m in enumerate(result.models[:n_models]):
         c = m.colours
         col = _COLOURS[i % len(_COLOURS)]
@@ -53,14 +53,14 @@ def plot_colours(result, path: Path, n_models: int = _N_MODELS_SHOWN) -> Path:
     ax.set_title("Disk colours: data and posterior models (Mie spheres)", fontsize=10)
     ax.legend(fontsize=7, loc="best")
     fig.tight_layout()
-    fig.savefig(path, dpi=130)
-    plt.close(fig)
+    with atomic_write(path) as tmp:
+        fig.savefig(tmp, dpi=130)
     return Path(path)
 
 
 def plot_corner(model, path: Path, max_points: int = 3000) -> Path:
     """Pairwise posterior of one model: histograms on the diagonal, 2-D densities below."""
-    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
 
     names = list(model.sample_names)
     x = np.array(model.samples, dtype=float)
@@ -78,7 +78,8 @@ def plot_corner(model, path: Path, max_points: int = 3000) -> Path:
         v = model.best.get(n, np.nan)
         best.append(np.log10(v) if n in ("scale", "a_min") and v > 0 else v)
     size = max(1.6 * p, 4.0)
-    fig, axes = plt.subplots(p, p, figsize=(size, size), squeeze=False)
+    fig = Figure(figsize=(size, size))
+    axes = fig.subplots(p, p, squeeze=False)
     lo = np.percentile(x, 0.5, axis=0)
     hi = np.percentile(x, 99.5, axis=0)
     span = np.where(hi > lo, hi - lo, 1.0)
@@ -113,19 +114,20 @@ def plot_corner(model, path: Path, max_points: int = 3000) -> Path:
                 ax.set_yticklabels([])
     fig.suptitle(f"Posterior of {model.name} (dashes: 16/84%; x: maximum likelihood)", fontsize=9)
     fig.tight_layout()
-    fig.savefig(path, dpi=110)
-    plt.close(fig)
+    with atomic_write(path) as tmp:
+        fig.savefig(tmp, dpi=110)
     return Path(path)
 
 
 def plot_evidence(result, path: Path) -> Path:
     """Bar chart of ln Z - ln Z(best) per model with 1-sigma errors and the 1/3/5 reading breaks."""
-    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
 
     names = [m.name for m in result.models]
     d = np.array([m.ln_z - result.best.ln_z for m in result.models])
     err = np.array([m.ln_z_err for m in result.models])
-    fig, ax = plt.subplots(figsize=(6.8, 0.45 * len(names) + 1.6))
+    fig = Figure(figsize=(6.8, 0.45 * len(names) + 1.6))
+    ax = fig.subplots()
     y = np.arange(len(names))[::-1]
     ax.barh(y, d, xerr=err, color=[_COLOURS[0] if v == 0 else "0.6" for v in d], capsize=3)
     for yi, v, e in zip(y, d, err):
@@ -141,8 +143,8 @@ def plot_evidence(result, path: Path) -> Path:
     ax.set_xlabel("ln Z - ln Z(best)   (dotted: -1, -3, -5, Kass & Raftery 1995 breaks)")
     ax.set_title("Evidence per model", fontsize=10)
     fig.tight_layout()
-    fig.savefig(path, dpi=130)
-    plt.close(fig)
+    with atomic_write(path) as tmp:
+        fig.savefig(tmp, dpi=130)
     return Path(path)
 
 

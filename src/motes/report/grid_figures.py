@@ -1,21 +1,21 @@
 """Figures of a grid summary: chi-square profiles per material and axis, best models vs data.
 
 Functions take a :class:`motes.dust.grid.summary.GridSummary` and a file path,
-draw with matplotlib's Agg backend, write the figure (temporary name, then
-rename) and return the path. :func:`write_grid_figures` writes all of them.
+draw with matplotlib's object-oriented API (no pyplot, so the user's plotting
+backend is never touched), write the figure (temporary name, then rename) and
+return the path. :func:`write_grid_figures` writes all of them.
 """
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import matplotlib
+from matplotlib.figure import Figure
+from matplotlib.ticker import NullFormatter, ScalarFormatter
+import numpy as np
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-from matplotlib.ticker import NullFormatter, ScalarFormatter  # noqa: E402
-import numpy as np  # noqa: E402
+from ..files import atomic_write
 
 __all__ = ["plot_fraction_profiles", "plot_axis_profiles", "plot_best_models", "write_grid_figures"]
 
@@ -28,18 +28,16 @@ _SHARE_COLOUR = "#d08c2f"
 def _save(fig, path) -> Path:
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name("." + path.stem + ".tmp" + path.suffix)
-    fig.savefig(tmp, dpi=120)
-    plt.close(fig)
-    os.replace(tmp, path)
+    with atomic_write(path) as tmp:
+        fig.savefig(tmp, dpi=120)
     return path
 
 
 def _profile_panels(columns, title, summary):
     """Figure with two rows per column: Delta chi2 profile (top), likelihood share (bottom)."""
     n = len(columns)
-    fig, axes = plt.subplots(2, n, figsize=(3.0 * n + 1.0, 5.2), squeeze=False, sharey="row",
-                             gridspec_kw={"height_ratios": [3, 2]})
+    fig = Figure(figsize=(3.0 * n + 1.0, 5.2))
+    axes = fig.subplots(2, n, squeeze=False, sharey="row", gridspec_kw={"height_ratios": [3, 2]})
     for i, (label, x, delta, share, log_x) in enumerate(columns):
         top, bottom = axes[0, i], axes[1, i]
         top.plot(x, delta, "o-", color=_PROFILE_COLOUR, ms=4, lw=1.4)
@@ -128,7 +126,8 @@ def plot_best_models(summary, path, n_models: int = 5) -> Path:
     value, error = np.asarray(obs["value"]), np.asarray(obs["error"])
     limit = np.asarray(obs["is_limit"], dtype=bool)
     order = np.argsort(wave)
-    fig, ax = plt.subplots(figsize=(6.4, 4.2))
+    fig = Figure(figsize=(6.4, 4.2))
+    ax = fig.subplots()
     det = ~limit
     ax.errorbar(wave[det], value[det], yerr=error[det], fmt="o", color="k", ms=5, capsize=2,
                 label="disk data", zorder=5)
@@ -136,7 +135,7 @@ def plot_best_models(summary, path, n_models: int = 5) -> Path:
         ax.errorbar(wave[limit], value[limit], yerr=0.3 * value[limit], uplims=True, fmt="v", color="k",
                     ms=5, zorder=5, label="upper limits")
     best = summary.best
-    cmap = plt.get_cmap("viridis")
+    cmap = matplotlib.colormaps["viridis"]
     for i in range(min(n_models, len(best))):
         row = best[i]
         model = np.array([row[f"model_{b}"] for b in summary.bands]) * row["scale"]

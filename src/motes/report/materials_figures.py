@@ -4,19 +4,19 @@
 marked along the bottom) for one or more :class:`~motes.optics.constants.Material`
 objects on a logarithmic wavelength axis, with the tabulated points shown,
 writes the figure to a temporary name and renames it, and returns the path.
+It draws with matplotlib's object-oriented API (no pyplot), so the user's
+plotting backend is never touched.
 """
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
-import matplotlib
+import matplotlib.ticker as ticker
+from matplotlib.figure import Figure
+import numpy as np
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-import matplotlib.ticker as ticker  # noqa: E402
-import numpy as np  # noqa: E402
+from ..files import atomic_write
 
 __all__ = ["plot_optical_constants"]
 
@@ -42,8 +42,8 @@ def plot_optical_constants(materials, path, *, wavelength_range=None, title=None
     """
     if not isinstance(materials, (list, tuple)):
         materials = [materials]
-    fig, (ax_n, ax_k) = plt.subplots(2, 1, sharex=True, figsize=(7.0, 6.0),
-                                     gridspec_kw={"hspace": 0.08})
+    fig = Figure(figsize=(7.0, 6.0))
+    ax_n, ax_k = fig.subplots(2, 1, sharex=True, gridspec_kw={"hspace": 0.08})
     k_floor = np.inf
     for mat in materials:
         positive = mat.k[mat.k > 0]
@@ -82,12 +82,6 @@ def plot_optical_constants(materials, path, *, wavelength_range=None, title=None
     ax_n.set_title(title or "optical constants m = n + ik (dots: tabulated points)", fontsize=10)
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name("." + path.stem + ".tmp" + path.suffix)
-    try:
+    with atomic_write(path) as tmp:
         fig.savefig(tmp, dpi=130, bbox_inches="tight")
-        os.replace(tmp, path)
-    finally:
-        plt.close(fig)
-        if tmp.exists():
-            tmp.unlink()
     return path

@@ -2,18 +2,17 @@
 
 Figure functions only draw what they are given (no physics here beyond
 calling the model's public methods to sample curves) and return the path
-written.
+written. They draw with matplotlib's object-oriented API (no pyplot), so the
+user's plotting backend is never touched.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
-import matplotlib
+import numpy as np
 
-matplotlib.use("Agg")
-
-import numpy as np  # noqa: E402
+from ..files import atomic_write
 
 __all__ = ["plot_reflectance", "plot_efficiencies"]
 
@@ -39,13 +38,15 @@ def plot_reflectance(path, wavelength, flux_ratio_curve, bands, band_flux_ratio,
     notes : sequence of str
         Printed small under the axes (e.g. "real grains are not Mie spheres").
     """
-    import matplotlib.pyplot as plt
+    import matplotlib
+    from matplotlib.figure import Figure
 
     path = Path(path)
-    with plt.rc_context(_STYLE):
-        fig, ax = plt.subplots(figsize=(7.0, 4.2))
+    with matplotlib.rc_context(_STYLE):
+        fig = Figure(figsize=(7.0, 4.2))
+        ax = fig.subplots()
         ax.plot(wavelength, flux_ratio_curve, color="0.2", lw=1.2, label="monochromatic R(λ)")
-        cmap = plt.get_cmap("viridis")
+        cmap = matplotlib.colormaps["viridis"]
         for i, (band, value) in enumerate(zip(bands, band_flux_ratio)):
             colour = cmap(i / max(len(bands) - 1, 1))
             lo, hi = band.wavelength_min, band.wavelength_max
@@ -62,8 +63,8 @@ def plot_reflectance(path, wavelength, flux_ratio_curve, bands, band_flux_ratio,
         if notes:
             fig.text(0.01, 0.005, "\n".join(notes), fontsize=6, color="0.35", va="bottom")
             fig.subplots_adjust(bottom=0.12 + 0.03 * len(notes))
-        fig.savefig(path, dpi=150, bbox_inches="tight")
-        plt.close(fig)
+        with atomic_write(path) as tmp:
+            fig.savefig(tmp, dpi=150, bbox_inches="tight")
     return path
 
 
@@ -83,12 +84,14 @@ def plot_efficiencies(path, radius, q_ext, q_sca, wavelengths, labels, title: st
     a_min, a_max : float, optional [um]
         Size-distribution limits, drawn as vertical lines.
     """
-    import matplotlib.pyplot as plt
+    import matplotlib
+    from matplotlib.figure import Figure
 
     path = Path(path)
-    with plt.rc_context(_STYLE):
-        fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(7.0, 5.6), sharex=True)
-        cmap = plt.get_cmap("viridis")
+    with matplotlib.rc_context(_STYLE):
+        fig = Figure(figsize=(7.0, 5.6))
+        ax1, ax2 = fig.subplots(2, 1, sharex=True)
+        cmap = matplotlib.colormaps["viridis"]
         n = len(wavelengths)
         for i in range(n):
             colour = cmap(i / max(n - 1, 1))
@@ -107,6 +110,6 @@ def plot_efficiencies(path, radius, q_ext, q_sca, wavelengths, labels, title: st
         ax2.set_ylim(0, 1.02)
         ax1.set_title(title, fontsize=9)
         ax1.legend(fontsize=7, ncol=2, frameon=False)
-        fig.savefig(path, dpi=150, bbox_inches="tight")
-        plt.close(fig)
+        with atomic_write(path) as tmp:
+            fig.savefig(tmp, dpi=150, bbox_inches="tight")
     return path

@@ -27,6 +27,8 @@ from typing import Callable
 import numpy as np
 
 from ...errors import FitError
+from ...parameters import PARAMETERS, PRIOR_PARAMETERS
+from ...tomlcheck import check_keys
 from ..likelihood import ScalePrior
 
 __all__ = [
@@ -147,10 +149,7 @@ def parse_prior(entry, name: str, path=None, allow_relative: bool = False) -> Pr
         entry = {"prior": "fixed", "value": float(entry)}
     if not isinstance(entry, dict):
         raise InputError(f"expected a number or a table {{prior, lower, upper}}, got {entry!r}", path, where)
-    known = {"prior", "lower", "upper", "value", "relative_to"}
-    extra = sorted(set(entry) - known)
-    if extra:
-        raise InputError(f"unknown key(s) {extra}; allowed: {sorted(known)}", path, where)
+    check_keys(entry, ("prior", "lower", "upper", "value", "relative_to"), path=path, where=where)
     kind = str(entry.get("prior", "fixed" if "value" in entry else "uniform")).strip().lower()
     kind = {"loguniform": "log-uniform", "log_uniform": "log-uniform"}.get(kind, kind)
     relative = entry.get("relative_to")
@@ -199,9 +198,9 @@ class ParameterSpace:
     porosity: Prior = Prior("uniform", 0.0, 0.9)
     a_min: Prior = Prior("log-uniform", 0.1, 20.0)
     q: Prior = Prior("uniform", 3.0, 4.5)
-    a_max: Prior = Prior("fixed", value=1000.0)
-    angle: Prior = Prior("fixed", value=90.0)
-    systematic: Prior = Prior("fixed", value=0.0)
+    a_max: Prior = Prior("fixed", value=PARAMETERS["a_max"].default)
+    angle: Prior = Prior("fixed", value=PARAMETERS["angle"].default)
+    systematic: Prior = Prior("fixed", value=PARAMETERS["systematic"].default)
     scale: ScalePrior = ScalePrior()
     sample_scale: bool = False
     blowout: Callable | None = field(default=None, compare=False, repr=False)
@@ -212,11 +211,11 @@ class ParameterSpace:
         if self.a_min.relative_to == "blowout" and self.blowout is None:
             raise FitError("a_min tied to the blow-out size needs the star's luminosity and mass")
         for name in ("porosity",):
-            p = getattr(self, name)
+            p, declared = getattr(self, name), PARAMETERS[name]
             lo = p.value if p.kind == "fixed" else p.lower
             hi = p.value if p.kind == "fixed" else p.upper
-            if lo < 0 or hi >= 1:
-                raise FitError(f"porosity must lie in [0, 1), got {p.describe()}")
+            if not declared.contains([lo, hi]).all():
+                raise FitError(f"{name} must lie in {declared.interval}, got {p.describe()}")
         if self.systematic.kind != "fixed" and self.systematic.lower < 0:
             raise FitError(f"the systematic error fraction must be >= 0, got {self.systematic.describe()}")
 
@@ -228,7 +227,7 @@ class ParameterSpace:
         return k if k > 1 else 0
 
     def _scalar_params(self):
-        out = [(n, getattr(self, n)) for n in ("porosity", "a_min", "q", "a_max", "angle", "systematic")]
+        out = [(n, getattr(self, n)) for n in PRIOR_PARAMETERS]
         return [(n, p) for n, p in out if p.free]
 
     @property
@@ -255,7 +254,7 @@ class ParameterSpace:
             rows.append(("fractions", f"uniform on the simplex (Dirichlet(1,...,1)) over {', '.join(self.materials)}"))
         else:
             rows.append(("fractions", f"{self.materials[0]} only (fraction 1)"))
-        for n in ("porosity", "a_min", "q", "a_max", "angle", "systematic"):
+        for n in PRIOR_PARAMETERS:
             rows.append((n, getattr(self, n).describe()))
         rows.append(("scale", f"log-uniform [{self.scale.lower:g}, {self.scale.upper:g}], "
                      + ("sampled" if self.sample_scale else "marginalised numerically")))
@@ -314,7 +313,7 @@ class ParameterSpace:
         kf = self.n_fraction_dims
         out = {"fractions": theta[:, :kf] if kf else np.ones((n, 1))}
         col = kf
-        for name in ("porosity", "a_min", "q", "a_max", "angle", "systematic"):
+        for name in PRIOR_PARAMETERS:
             prior = getattr(self, name)
             if prior.free:
                 out[name] = theta[:, col]

@@ -21,6 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from ...errors import FitError, MotesError
+from ...parameters import MIXTURE_PARAMETERS
 from .spec import FitSpec, ModelSpec
 from ..likelihood import chi_square_with_best_scale, effective_errors, ln_likelihood
 from ..observations import DiskPhotometry, read_disk_photometry
@@ -44,17 +45,7 @@ ZERO_LIKELIHOOD = -1e300
 
 def read_fit_photometry(spec: FitSpec) -> DiskPhotometry:
     """Read the disk photometry of a fit, with the description's user bands."""
-    custom = _model_description(spec).custom_bands if "bands" in spec.description else None
-    return read_disk_photometry(spec.photometry_path, custom_bands=custom)
-
-
-def _model_description(spec: FitSpec, materials=None):
-    from ..model.description import parse_model_description
-
-    doc = dict(spec.description)
-    if materials is not None:
-        doc["materials"] = [m for m in spec.description["materials"] if m["name"] in set(materials)]
-    return parse_model_description(doc, base_dir=spec.base_dir, source=spec.source)
+    return read_disk_photometry(spec.photometry_path, custom_bands=spec.description.custom_bands or None)
 
 
 def build_colour_model(spec: FitSpec, materials, bands):
@@ -71,31 +62,45 @@ def build_colour_model(spec: FitSpec, materials, bands):
     Returns
     -------
     motes.dust.model.colours.DiskColourModel
-        Built by :mod:`motes.dust.model.description` from the description with only
-        these ``[[materials]]`` tables.
+        Built from the description with only these materials
+        (:meth:`motes.dust.model.description.ModelDescription.subset`).
     """
-    return _model_description(spec, materials).build_model(bands=bands)
+    return spec.description.subset(materials).build_model(bands=bands)
 
 
 def _blowout_function(spec: FitSpec, colour_model):
-    """``blowout(fractions[N, K], porosity[N]) -> a_blow[N]`` [um], or None without L and M."""
-    star = spec.description.get("star", {}) if isinstance(spec.description.get("star"), dict) else {}
-    lum = star.get("luminosity", star.get("luminosity_lsun"))
-    mass = star.get("mass", star.get("mass_msun"))
-    if lum is None or mass is None:
-        return None
-    from ...optics.mixing import mixture_density
-    from ...optics.sizes import blowout_size
+    """``blowout(fractions[N, K], porosity[N]) -> a_blow[N]`` [um] of each mixture.
 
-    densities = np.array([m.density for m in colour_model.materials], dtype=float)
-    if not np.all(np.isfinite(densities) & (densities > 0)):
-        missing = [m.name for m in colour_model.materials if not (np.isfinite(m.density) and m.density > 0)]
+    The one blow-out computation of motes,
+    :meth:`motes.dust.model.colours.DiskColourModel.blowout_sizes` (Mie Q_pr
+    averaged over the stellar spectrum). Refuses before sampling when the
+    star has no luminosity and mass, when a density is unknown, or when a pure
+    component at the porosity bounds has no blow-out size (beta < 1/2 at
+    every size): a_min cannot then be tied to it.
+    """
+    star = spec.description.star
+    if not star.has_luminosity_and_mass:
+        raise FitError(f"{spec.source}: a_min tied to the blow-out size needs [star] luminosity and mass")
+    lum, mass = star.luminosity, star.mass
+    missing = [m.name for m in colour_model.materials if not (np.isfinite(m.density) and m.density > 0)]
+    if missing:
         raise FitError(f"a_min tied to the blow-out size needs the bulk density of {missing}")
-    per_unit_density = blowout_size(float(lum), float(mass), 1.0)
+    porosity = spec.parameters.get("porosity")
+    if porosity is None or not porosity.free:
+        ends = [0.0 if porosity is None else porosity.value]
+    else:
+        ends = [porosity.lower, porosity.upper]
+    k = len(colour_model.materials)
+    pure = np.repeat(np.eye(k), len(ends), axis=0)
+    sizes = colour_model.blowout_sizes(pure, np.tile(ends, k), lum, mass)
+    if not np.all(np.isfinite(sizes)):
+        bad = sorted({colour_model.materials[i // len(ends)].name for i in np.flatnonzero(~np.isfinite(sizes))})
+        raise FitError(f"{spec.source}: a_min is tied to the blow-out size, but grains of {bad} are never blown "
+                       f"out by this star (beta < 1/2 at every size, L = {lum:g} L_sun, M = {mass:g} M_sun); "
+                       "give a_min in um instead")
 
     def blowout(fractions, porosity):
-        rho = mixture_density(densities, np.asarray(fractions).T, np.asarray(porosity))
-        return per_unit_density / rho
+        return colour_model.blowout_sizes(fractions, porosity, lum, mass)
 
     return blowout
 
@@ -130,7 +135,7 @@ class FitProblem:
         kwargs = {"a_max": p["a_max"]}
         if self._angle_keyword is not None and (self.space.angle.free or self.space.angle.value != 90.0):
             kwargs[self._angle_keyword] = p["angle"]
-        flux = self.colour_model.flux_ratio(p["fractions"], p["porosity"], p["a_min"], p["q"], **kwargs)
+        flux = self.colour_model.flux_ratio(p["fractions"], *(p[n] for n in MIXTURE_PARAMETERS[:3]), **kwargs)
         return np.atleast_2d(np.asarray(flux, dtype=float))
 
     def ln_likelihood(self, theta) -> np.ndarray:

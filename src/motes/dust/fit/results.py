@@ -1,4 +1,4 @@
-"""Results of a fit: per-model results, the whole comparison, files and the text report.
+"""Results of a fit: per-model results, the whole comparison and their files.
 
 Per model, in ``RUN/models/<model>/``:
 
@@ -15,34 +15,33 @@ Per model, in ``RUN/models/<model>/``:
 ``sampler_state.dynesty``
     dynesty's checkpoint (its own pickle format; not a result).
 
-Whole run, in ``RUN/``: ``ranking.ecsv``, ``verdicts.ecsv``, ``summary.txt``,
-figures, and ``fit_state.json`` (format and package versions, description
-digest).
+Whole run, in ``RUN/``: ``ranking.ecsv``, ``verdicts.ecsv`` and
+``fit_state.json`` (format and package versions, description digest). The
+report, ``summary.txt`` and the figures, is written beside them by
+:func:`motes.report.fit_text.write_fit_report`.
 """
 
 from __future__ import annotations
 
 import json
 import math
-import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from ... import __version__
 from ...errors import FitError
-from .evidence import VERDICT_RULE, Verdict
+from ...files import atomic_write, format_stamp, stamp_problem, write_json_atomic
+from .evidence import Verdict
 
 __all__ = [
     "FIT_FORMAT_VERSION",
     "FIT_CAVEATS",
     "ModelResult",
     "FitResult",
-    "write_json_atomic",
-    "write_table_atomic",
+    "write_result_json",
+    "write_result_table",
     "read_model_result",
-    "format_fit_report",
 ]
 
 #: Version of the run-folder layout and result files.
@@ -59,12 +58,9 @@ FIT_CAVEATS = (
 )
 
 
-def write_json_atomic(path: Path, data: dict) -> None:
-    """Write JSON to a temporary file, then rename it over ``path``."""
-    path = Path(path)
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text(json.dumps(data, indent=2, sort_keys=False, default=_json_default))
-    os.replace(tmp, path)
+def write_result_json(path: Path, data: dict) -> None:
+    """Write a run file as indented JSON (numpy numbers and paths included), atomically."""
+    write_json_atomic(path, data, indent=2, sort_keys=False, default=_json_default)
 
 
 def _json_default(value):
@@ -77,12 +73,10 @@ def _json_default(value):
     raise TypeError(f"cannot write {type(value).__name__} to JSON")
 
 
-def write_table_atomic(table, path: Path) -> None:
-    """Write an astropy Table as ECSV through a temporary file and a rename."""
-    path = Path(path)
-    tmp = path.with_name(path.name + ".tmp")
-    table.write(tmp, format="ascii.ecsv", overwrite=True)
-    os.replace(tmp, path)
+def write_result_table(table, path: Path) -> None:
+    """Write an astropy Table as ECSV, atomically (:func:`motes.files.atomic_write`)."""
+    with atomic_write(path) as tmp:
+        table.write(tmp, format="ascii.ecsv", overwrite=True)
 
 
 @dataclass(frozen=True)
@@ -159,7 +153,7 @@ class ModelResult:
 
     def to_json(self) -> dict:
         return {
-            "format_version": FIT_FORMAT_VERSION, "motes_version": __version__,
+            **format_stamp(FIT_FORMAT_VERSION),
             "name": self.name, "materials": list(self.materials), "ln_z": self.ln_z,
             "ln_z_err": self.ln_z_err, "n_calls": self.n_calls, "n_iterations": self.n_iterations,
             "information": self.information, "parameter_names": list(self.parameter_names),
@@ -175,9 +169,9 @@ def read_model_result(folder: Path) -> ModelResult:
     folder = Path(folder)
     try:
         info = json.loads((folder / "result.json").read_text())
-        if info.get("format_version") != FIT_FORMAT_VERSION:
-            raise FitError(f"{folder}: result format {info.get('format_version')} is not "
-                           f"{FIT_FORMAT_VERSION}; start the fit afresh (--fresh)")
+        problem = stamp_problem(info, FIT_FORMAT_VERSION)
+        if problem:
+            raise FitError(f"{folder}: result.json has {problem}; start the fit afresh (--fresh)")
         samples_t = Table.read(folder / "samples.ecsv", format="ascii.ecsv")
         summary = Table.read(folder / "parameters.ecsv", format="ascii.ecsv")
         colours = Table.read(folder / "colours.ecsv", format="ascii.ecsv")
@@ -252,50 +246,3 @@ class FitResult:
             if v.material == material:
                 return v
         raise FitError(f"no verdict for {material!r}")
-
-
-def _fmt(x, digits=3):
-    if x is None or not np.isfinite(x):
-        return "-"
-    ax = abs(x)
-    if ax != 0 and (ax < 1e-2 or ax >= 1e4):
-        return f"{x:.{digits - 1}e}"
-    return f"{x:.{digits}g}" if ax < 1 else f"{x:.{max(digits - int(math.log10(ax)) - 1, 0) + 1}f}"
-
-
-def format_fit_report(result: FitResult) -> str:
-    """The text summary printed by ``motes fit`` and written to ``summary.txt``."""
-    obs = result.observations
-    lines = [f"motes fit of {result.source}",
-             f"data: {len(obs.bands)} bands ({obs.n_detections} detections), {obs.normalisation} "
-             f"from {obs.path}", ""]
-    lines.append("Models ranked by evidence (ln B = ln Z - ln Z(best), and vs the full set):")
-    lines.append(f"  {'rank':>4}  {'model':<40} {'ln Z':>9} {'±':>5}  {'ln B best':>9}  {'reading':<13}"
-                 f" {'ln B full':>9}  {'P(model)':>8}")
-    for row in result.ranking:
-        lines.append(f"  {row['rank']:>4}  {row['model']:<40} {row['ln_z']:9.2f} {row['ln_z_err']:5.2f}  "
-                     f"{row['ln_b_best']:9.2f}  {row['strength_vs_best']:<13} "
-                     f"{_fmt(row['ln_b_full']):>9}  {row['posterior_probability']:8.3f}")
-    lines += ["", "Verdicts per material:"]
-    for v, row in zip(result.verdicts, result.verdict_table):
-        text = "  " + v.sentence()
-        if v.verdict in ("not needed", "undecided") and np.isfinite(row["fraction_upper95"]):
-            text += f"; its fraction in {v.with_model}: 95% upper limit {row['fraction_upper95']:.3f}"
-        lines.append(text)
-    lines.append("  " + VERDICT_RULE)
-    for m in result.models[: min(2, len(result.models))]:
-        lines += ["", f"Model {m.name}: posterior median, 68% and 95% intervals"]
-        for row in m.summary:
-            lines.append(f"  {row['parameter']:<28} {_fmt(row['median']):>9}  "
-                         f"[{_fmt(row['lo68'])}, {_fmt(row['hi68'])}]  [{_fmt(row['lo95'])}, {_fmt(row['hi95'])}]"
-                         f"  95% upper {_fmt(row['upper95'])}")
-        best = ", ".join(f"{k} = {_fmt(v)}" for k, v in m.best.items())
-        lines.append(f"  maximum likelihood: chi2 = {m.best_chi2:.2f} for {m.dof} dof; {best}")
-    if result.priors:
-        lines += ["", "Priors:"] + [f"  {name}: {text}" for name, text in result.priors]
-    lines += ["", "Caveats:"] + [f"  - {c}" for c in result.caveats]
-    if result.notes:
-        lines += ["", "Notes:"] + [f"  - {n}" for n in result.notes]
-    if result.files:
-        lines += ["", "Files written:"] + [f"  {p}" for p in result.files]
-    return "\n".join(lines)

@@ -4,11 +4,14 @@
 nested-sampling fit per model of the comparison (:mod:`motes.dust.fit.sampler`),
 and writes per-model results, a ranking by evidence and per-material verdicts
 (:mod:`motes.dust.fit.evidence`) into a run folder (:mod:`motes.dust.fit.results`).
+It returns the results; the report (``summary.txt`` and the figures) is
+written by :func:`motes.report.fit_text.write_fit_report`.
 
 Resume: the run folder records the description's digest. Run again on the
 same folder, a fit skips finished models (``result.json`` present), resumes the
 interrupted one from its sampler checkpoint, and runs the rest. A folder from
-another description is refused (``fresh=True`` starts over).
+another description is refused (``fresh=True`` starts over, deleting the
+previous run's files, its report included).
 
 Likelihood (per model): Gaussian detections and normal-CDF upper limits
 (:mod:`motes.dust.observations`), the flux scale integrated out under a
@@ -18,7 +21,6 @@ priors as in :mod:`motes.dust.fit.priors`.
 
 from __future__ import annotations
 
-import dataclasses
 import json
 import math
 import shutil
@@ -27,12 +29,12 @@ from pathlib import Path
 
 import numpy as np
 
-from ... import __version__
 from ...errors import FitError, MotesError
+from ...files import format_stamp, stamp_problem, write_text_atomic
 from .evidence import ModelEvidence, material_verdicts, rank_models, summarise_posterior
 from .problem import ProblemHandle, HandleLikelihood, HandlePriorTransform, read_fit_photometry, reset_traces
-from .results import (FIT_CAVEATS, FIT_FORMAT_VERSION, FitResult, ModelResult, format_fit_report,
-                         read_model_result, write_json_atomic, write_table_atomic)
+from .results import (FIT_CAVEATS, FIT_FORMAT_VERSION, FitResult, ModelResult, read_model_result,
+                      write_result_json, write_result_table)
 from .spec import FitSpec, read_fit_description
 from .sampler import open_pool, run_nested_model
 
@@ -60,8 +62,6 @@ class FitRunSettings:
         Delete a previous run's files in ``output`` and start over.
     progress : bool
         Progress line per model on stderr.
-    figures : bool
-        Write the figures.
     """
 
     output: Path | None = None
@@ -69,7 +69,6 @@ class FitRunSettings:
     resume: bool = True
     fresh: bool = False
     progress: bool = True
-    figures: bool = True
 
     def __post_init__(self):
         if int(self.workers) < 1:
@@ -131,7 +130,7 @@ def _prepare_run_dir(run_dir: Path, spec: FitSpec, settings: FitRunSettings, ech
             state = json.loads(state_path.read_text())
         except (OSError, ValueError):
             state = {}
-        same = (state.get("digest") == spec.digest and state.get("format_version") == FIT_FORMAT_VERSION)
+        same = state.get("digest") == spec.digest and stamp_problem(state, FIT_FORMAT_VERSION) is None
         if settings.fresh:
             _clear_run(run_dir)
         elif not same:
@@ -147,9 +146,9 @@ def _prepare_run_dir(run_dir: Path, spec: FitSpec, settings: FitRunSettings, ech
     run_dir.mkdir(parents=True, exist_ok=True)
     (run_dir / "models").mkdir(exist_ok=True)
     if not state_path.exists():
-        (run_dir / "description.toml").write_text(spec.text)
-        write_json_atomic(state_path, {
-            "format_version": FIT_FORMAT_VERSION, "motes_version": __version__,
+        write_text_atomic(run_dir / "description.toml", spec.text)
+        write_result_json(state_path, {
+            **format_stamp(FIT_FORMAT_VERSION),
             "dynesty_version": _dynesty_version(), "digest": spec.digest, "source": spec.source,
             "models": [m.name for m in spec.models],
         })
@@ -212,10 +211,10 @@ def _postprocess(handle: ProblemHandle, run, spec: FitSpec, obs, folder: Path, s
     table = Table(samples, names=sample_names)
     table.meta["model"] = handle.model.name
     table.meta["note"] = "equally weighted posterior samples; scale drawn from p(scale | parameters, data)"
-    write_table_atomic(table, folder / "samples.ecsv")
-    write_table_atomic(summary, folder / "parameters.ecsv")
-    write_table_atomic(colours, folder / "colours.ecsv")
-    write_json_atomic(folder / "result.json", result.to_json())   # last: marks the model finished
+    write_result_table(table, folder / "samples.ecsv")
+    write_result_table(summary, folder / "parameters.ecsv")
+    write_result_table(colours, folder / "colours.ecsv")
+    write_result_json(folder / "result.json", result.to_json())   # last: marks the model finished
     return result
 
 
@@ -246,7 +245,7 @@ def _run_model(index, handle, spec, obs, run_dir, settings, echo) -> ModelResult
                                progress=settings.progress, label=model.name)
     n_proc = len(list(trace.glob("*"))) if trace.exists() else 0
     sessions = previous + [{"resumed": run.resumed, "wall_time": round(run.wall_time, 2), "processes": n_proc}]
-    write_json_atomic(folder / "sessions.json", sessions)
+    write_result_json(folder / "sessions.json", sessions)
     return _postprocess(handle, run, spec, obs, folder, sessions)
 
 
@@ -268,6 +267,8 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     Returns
     -------
     FitResult
+        Its ``files`` are the run's tables and per-model folders;
+        :func:`motes.report.fit_text.write_fit_report` adds the report's.
     """
     if not isinstance(spec, FitSpec):
         spec = read_fit_description(spec)
@@ -285,23 +286,14 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     ordered = tuple(by_name[n] for n in ranking["model"])
     notes = list(obs.notes) + _model_notes(handles) + _bound_notes(ordered, spec)
 
-    files = [run_dir / "ranking.ecsv", run_dir / "verdicts.ecsv", run_dir / "summary.txt"]
-    write_table_atomic(ranking, files[0])
-    write_table_atomic(verdict_table, files[1])
-    result = FitResult(source=spec.source, run_dir=run_dir, observations=obs, models=ordered,
-                       ranking=ranking, verdicts=verdicts, verdict_table=verdict_table, full_model=full,
-                       priors=tuple(handles[0].space.describe()) if handles else (),
-                       notes=tuple(dict.fromkeys(notes)), caveats=FIT_CAVEATS, files=())
-    if settings.figures:
-        from ...report.fit_figures import write_fit_figures
-
-        files += list(write_fit_figures(result, run_dir))
+    files = [run_dir / "ranking.ecsv", run_dir / "verdicts.ecsv"]
+    write_result_table(ranking, files[0])
+    write_result_table(verdict_table, files[1])
     files += [m.folder for m in ordered]
-    result = dataclasses.replace(result, files=tuple(files))
-    tmp = files[2].with_name("summary.txt.tmp")
-    tmp.write_text(format_fit_report(result) + "\n")
-    tmp.replace(files[2])
-    return result
+    return FitResult(source=spec.source, run_dir=run_dir, observations=obs, models=ordered,
+                     ranking=ranking, verdicts=verdicts, verdict_table=verdict_table, full_model=full,
+                     priors=tuple(handles[0].space.describe()) if handles else (),
+                     notes=tuple(dict.fromkeys(notes)), caveats=FIT_CAVEATS, files=tuple(files))
 
 
 def _verdict_table(verdicts, by_name):

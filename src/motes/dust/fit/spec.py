@@ -47,6 +47,8 @@ with grid descriptions and read by :mod:`motes.dust.model.description`; the fit 
 
 Defaults (every key is optional except ``[data] photometry`` and the model
 sections) are those of :class:`SamplerSettings` and :class:`ParameterSpace`.
+Any other table or key is refused with the nearest valid name (a misspelt
+``[sampeler]`` is an error, not ignored).
 """
 
 from __future__ import annotations
@@ -59,6 +61,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ...errors import FitError, InputError
+from ...parameters import PARAMETERS, PRIOR_PARAMETERS
+from ...tomlcheck import check_keys, check_tables, get_table
+from ..model.description import MODEL_TABLES, ModelDescription, parse_model_description
 from .priors import ParameterSpace, Prior, parse_prior
 from ..likelihood import ScalePrior
 
@@ -77,8 +82,8 @@ MODEL_SETS = ("all-subsets", "each-removed", "list")
 _SAMPLER_KINDS = ("static", "dynamic")
 _BOUNDS = ("none", "single", "multi", "balls", "cubes")
 _SAMPLES = ("auto", "unif", "rwalk", "slice", "rslice")
-_FIT_SECTIONS = {"data", "parameters", "scale", "models", "sampler"}
-_PARAMETERS = ("porosity", "a_min", "q", "a_max", "angle", "systematic")
+_FIT_TABLES = ("data", "parameters", "scale", "models", "sampler")
+_PARAMETERS = PRIOR_PARAMETERS   # declared once, in motes.parameters
 
 
 @dataclass(frozen=True)
@@ -240,8 +245,9 @@ class FitSpec:
 
     Parameters
     ----------
-    description : dict
-        The whole TOML document (model sections go to :mod:`motes.dust.model.description`).
+    description : ModelDescription
+        The parsed model sections (star, materials, mixing, geometry, bands,
+        ``[model]``); :meth:`ModelDescription.subset` gives one model's.
     base_dir : pathlib.Path
         Folder against which relative paths are resolved.
     materials : tuple of str
@@ -265,7 +271,7 @@ class FitSpec:
         folder only resumes a run with the same digest.
     """
 
-    description: dict
+    description: ModelDescription
     base_dir: Path
     materials: tuple[str, ...]
     photometry_path: Path
@@ -297,19 +303,6 @@ class FitSpec:
             raise FitError(f"{self.source}: model '{model.name}': {exc}") from None
 
 
-def _table(doc, key, path):
-    value = doc.get(key, {})
-    if not isinstance(value, dict):
-        raise InputError(f"[{key}] must be a table", path, f"[{key}]")
-    return value
-
-
-def _check_keys(table, allowed, path, section):
-    extra = sorted(set(table) - set(allowed))
-    if extra:
-        raise InputError(f"unknown key(s) {extra}; allowed: {sorted(allowed)}", path, f"[{section}]")
-
-
 def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> FitSpec:
     """Parse a fit description from TOML text.
 
@@ -337,11 +330,12 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", path) from None
+    check_tables(doc, _FIT_TABLES + MODEL_TABLES, path=path, arrays=("materials",))
     base_dir = Path(base_dir)
-    data = _table(doc, "data", path)
+    data = get_table(doc, "data", path=path)
     if "photometry" not in data or not isinstance(data["photometry"], str):
         raise InputError("needs photometry = \"FILE\" (the disk photometry table)", path, "[data]")
-    _check_keys(data, {"photometry"}, path, "data")
+    check_keys(data, ("photometry",), path=path, where="[data]")
     photometry_path = (base_dir / data["photometry"]).resolve()
 
     mats = doc.get("materials")
@@ -356,26 +350,24 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         materials.append(m["name"])
     materials = tuple(materials)
 
-    params = _table(doc, "parameters", path)
-    _check_keys(params, _PARAMETERS, path, "parameters")
+    params = check_keys(get_table(doc, "parameters", path=path), _PARAMETERS, path=path, where="[parameters]")
     parameters = {}
     for name in _PARAMETERS:
         if name in params:
             parameters[name] = parse_prior(params[name], name, path, allow_relative=(name == "a_min"))
+    description = parse_model_description(doc, base_dir=base_dir, source=source)
     if "a_max" not in parameters:
-        model_t = doc.get("model", {}) if isinstance(doc.get("model"), dict) else {}
-        a_max = model_t.get("a_max", 1000.0)
-        if isinstance(a_max, (int, float)) and not isinstance(a_max, bool):
-            parameters["a_max"] = Prior("fixed", value=float(a_max))
+        parameters["a_max"] = Prior("fixed", value=description.a_max)
     for name in ("a_min", "a_max"):
         p = parameters.get(name)
         if p is not None and p.relative_to is None:
             lo = p.value if p.kind == "fixed" else p.lower
-            if not lo > 0:
-                raise InputError(f"{name} must be > 0 um, got {p.describe()}", path, f"[parameters] {name}")
+            if not PARAMETERS[name].contains(lo):
+                raise InputError(f"{name} must be > 0 {PARAMETERS[name].unit_text}, got {p.describe()}", path,
+                                 f"[parameters] {name}")
 
-    scale_t = _table(doc, "scale", path)
-    _check_keys(scale_t, {"lower", "upper", "treatment"}, path, "scale")
+    scale_t = check_keys(get_table(doc, "scale", path=path), ("lower", "upper", "treatment"), path=path,
+                         where="[scale]")
     treatment = str(scale_t.get("treatment", "marginalise")).lower()
     treatment = {"marginalize": "marginalise"}.get(treatment, treatment)
     if treatment not in ("marginalise", "sample"):
@@ -387,8 +379,7 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     except (TypeError, ValueError):
         raise InputError("lower and upper must be numbers", path, "[scale]") from None
 
-    models_t = _table(doc, "models", path)
-    _check_keys(models_t, {"set", "keep", "list"}, path, "models")
+    models_t = check_keys(get_table(doc, "models", path=path), ("set", "keep", "list"), path=path, where="[models]")
     kind = str(models_t.get("set", "each-removed")).lower().replace("_", "-")
     keep = models_t.get("keep", [])
     if isinstance(keep, str):
@@ -400,18 +391,16 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         raise FitError(f"{path}: [models] set = \"list\" needs list = [[...], ...] with at least one model")
     if explicit is not None and not isinstance(explicit, list):
         raise InputError("list must be a list of lists of material names", path, "[models]")
-    mixing = doc.get("mixing", {}) if isinstance(doc.get("mixing"), dict) else {}
-    matrix = mixing.get("matrix")
-    if mixing.get("rule") == "maxwell_garnett" and matrix in materials and matrix not in keep:
+    matrix = description.matrix
+    if description.mixing == "maxwell_garnett" and matrix in materials and matrix not in keep:
         keep = list(keep) + [matrix]     # a Maxwell Garnett matrix cannot be removed from a model
     try:
         models = build_model_set(kind, materials, tuple(keep), explicit)
     except FitError as exc:
         raise FitError(f"{path}: {exc}") from None
 
-    sampler_t = _table(doc, "sampler", path)
-    allowed = set(SamplerSettings.__dataclass_fields__)
-    _check_keys(sampler_t, allowed, path, "sampler")
+    sampler_t = check_keys(get_table(doc, "sampler", path=path), tuple(SamplerSettings.__dataclass_fields__),
+                           path=path, where="[sampler]")
     try:
         sampler = SamplerSettings(**sampler_t)
     except TypeError as exc:
@@ -427,7 +416,7 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     for extra in _referenced_files(doc, base_dir):
         digest.update(extra.read_bytes())
     return FitSpec(
-        description=doc, base_dir=base_dir, materials=materials, photometry_path=photometry_path,
+        description=description, base_dir=base_dir, materials=materials, photometry_path=photometry_path,
         parameters=parameters, scale=scale, sample_scale=(treatment == "sample"), model_set=kind,
         keep=tuple(keep), models=models, sampler=sampler, source=source, text=text,
         digest=digest.hexdigest(),

@@ -32,6 +32,9 @@ against are named in ``[data]``; the grid axes are in ``[grid]``::
     [grid.fraction_bounds]                  # optional, per material, as fractions
     water_ice = [0.0, 0.5]
 
+Any other table or key is refused with the nearest valid name (a misspelt
+``[grdi]`` is an error, not ignored).
+
 Every point has an integer key in ``0 .. n_points - 1``: the composition rank
 (see :mod:`motes.dust.grid.compositions`) is the slowest digit, then porosity,
 a_min, q and a_max (fastest), so ``key = ((((c * n_p + i_p) * n_amin + i_amin)
@@ -54,6 +57,9 @@ from pathlib import Path
 import numpy as np
 
 from ...errors import GridError, InputError
+from ...parameters import MIXTURE_PARAMETERS, PARAMETERS, accepts_quantities
+from ...tomlcheck import check_keys, check_tables, get_table
+from ..model.description import MODEL_TABLES, ModelDescription, parse_model_description
 from .compositions import SimplexGrid
 
 __all__ = [
@@ -70,10 +76,11 @@ __all__ = [
 DEFAULT_MAX_POINTS = 1_000_000
 
 #: The non-composition axes, slowest first.
-AXES = ("porosity", "a_min", "q", "a_max")
+AXES = MIXTURE_PARAMETERS   # porosity, a_min, q, a_max (motes.parameters)
 
-_AXIS_DEFAULTS = {"q": (3.5,)}   # q = 3.5: Dohnanyi (1969) cascade; a_max defaults to [model] a_max
-_GRID_KEYS = {"fraction_step", "fraction_bounds", "chunk_size", *AXES}
+_AXIS_DEFAULTS = {"q": (PARAMETERS["q"].default,)}   # q = 3.5 (Dohnanyi 1969); a_max defaults to [model] a_max
+_GRID_KEYS = ("fraction_step", "fraction_bounds", *AXES, "chunk_size")
+_GRID_TABLES = ("data", "grid")
 _MAX_CHUNK = 1000
 _MIN_CHUNK = 16
 
@@ -108,9 +115,9 @@ class GridSpec:
 
     Attributes
     ----------
-    description : dict
-        The whole parsed TOML document (model sections are handed on to
-        :mod:`motes.dust.model.description`).
+    description : ModelDescription
+        The parsed model sections (star, materials, mixing, geometry, bands,
+        ``[model]``; :mod:`motes.dust.model.description`).
     base_dir : pathlib.Path
         Folder against which relative paths in the description are resolved.
     materials : tuple of str
@@ -132,7 +139,7 @@ class GridSpec:
         The description as written.
     """
 
-    description: dict
+    description: ModelDescription
     base_dir: Path
     materials: tuple[str, ...]
     simplex: SimplexGrid
@@ -206,6 +213,7 @@ class GridSpec:
             key = key * len(getattr(self, name)) + np.asarray(idx, dtype=np.int64)
         return np.asarray(key, dtype=np.int64)
 
+    @accepts_quantities
     def nearest_key(self, fractions, porosity, a_min, q=None, a_max=None) -> int:
         """Key of the grid point nearest to a parameter vector.
 
@@ -272,15 +280,11 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", path=source) from None
+    check_tables(doc, _GRID_TABLES + MODEL_TABLES, path=source, arrays=("materials",))
     base_dir = Path(base_dir)
     materials = _material_names(doc, source)
-    grid = doc.get("grid")
-    if not isinstance(grid, dict):
-        raise InputError("missing the [grid] table (fraction_step, porosity, a_min, ...)", path=source)
-    unknown = set(grid) - _GRID_KEYS
-    if unknown:
-        raise InputError(f"unknown key(s) {sorted(unknown)}; allowed: {sorted(_GRID_KEYS)}",
-                         path=source, where="[grid]")
+    grid = get_table(doc, "grid", path=source, required=True, expected="fraction_step, porosity, a_min, ...")
+    check_keys(grid, _GRID_KEYS, path=source, where="[grid]")
     divisions = _divisions(grid.get("fraction_step"), source)
     bounds = _bounds(grid.get("fraction_bounds", {}), materials, divisions, source)
     try:
@@ -294,13 +298,13 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
     axes = {name: _axis(grid, name, source) for name in AXES if name != "a_max"}
     if "a_max" in grid:
         axes["a_max"] = _axis(grid, "a_max", source)
-    else:   # the description's single value, checked by motes.dust.model.description
-        a_max = model.get("a_max", 1000.0) if isinstance(model, dict) else 1000.0
-        axes["a_max"] = (float(a_max),) if isinstance(a_max, (int, float)) and not isinstance(a_max, bool) else (1000.0,)
+    description = parse_model_description(doc, base_dir=base_dir, source=source)
+    if "a_max" not in grid:   # the description's single value
+        axes["a_max"] = (description.a_max,)
     if max(axes["a_min"]) >= min(axes["a_max"]):
         raise InputError(f"every a_min {list(axes['a_min'])} must be below every a_max {list(axes['a_max'])} [um]",
                          path=source, where="[grid] a_min")
-    spec_args = dict(description=doc, base_dir=base_dir, materials=materials, simplex=simplex, **axes)
+    spec_args = dict(description=description, base_dir=base_dir, materials=materials, simplex=simplex, **axes)
     n_points = simplex.size * math.prod(len(v) for v in axes.values())
     if n_points == 0:
         raise GridError(f"{source}: the grid has no points: no mixture satisfies the fraction bounds "
@@ -400,18 +404,17 @@ def _axis(grid, name, source) -> tuple[float, ...]:
     v = np.asarray(values)
     if not np.all(np.isfinite(v)):
         raise InputError(f"values must be finite, got {values}", path=source, where=where)
-    if name == "porosity" and (v.min() < 0 or v.max() >= 1):
-        raise InputError(f"porosity is the vacuum volume fraction, in [0, 1); got {values}", path=source, where=where)
-    if name in ("a_min", "a_max") and v.min() <= 0:
-        raise InputError(f"grain sizes [um] must be positive, got {values}", path=source, where=where)
+    declared = PARAMETERS[name]
+    if name == "porosity" and not declared.contains(v).all():
+        raise InputError(f"porosity is the vacuum volume fraction, in {declared.interval}; got {values}",
+                         path=source, where=where)
+    if declared.physical_type == "length" and not declared.contains(v).all():   # a_min, a_max
+        raise InputError(f"grain sizes [{declared.unit_text}] must be positive, got {values}", path=source, where=where)
     return tuple(values)
 
 
 def _axis_range(raw, source, where) -> list[float]:
-    allowed = {"start", "stop", "num", "spacing"}
-    if set(raw) - allowed or not {"start", "stop", "num"} <= set(raw):
-        raise InputError(f"a range needs start, stop, num and optionally spacing = \"linear\" or \"log\"; got {raw!r}",
-                         path=source, where=where)
+    check_keys(raw, ("start", "stop", "num", "spacing"), path=source, where=where, required=("start", "stop", "num"))
     start, stop, num = raw["start"], raw["stop"], raw["num"]
     spacing = raw.get("spacing", "linear")
     if not isinstance(num, int) or isinstance(num, bool) or num < 0 or spacing not in ("linear", "log"):
@@ -429,6 +432,7 @@ def _photometry_path(doc, base_dir, source) -> Path:
     if not isinstance(data, dict) or not isinstance(data.get("photometry"), str):
         raise InputError("missing [data] photometry = \"FILE\" (the disk photometry to compare against)",
                          path=source)
+    check_keys(data, ("photometry",), path=source, where="[data]")
     return (base_dir / data["photometry"]).resolve()
 
 

@@ -43,6 +43,7 @@ import pyarrow.parquet as pq
 
 from ... import __version__
 from ...errors import GridError
+from ...files import atomic_write, format_stamp, stamp_problem, temporary_target, write_bytes_atomic
 
 __all__ = ["GridStore", "STORE_FORMAT", "STORE_FORMAT_VERSION", "fraction_column", "model_column"]
 
@@ -53,7 +54,7 @@ _MANIFEST = "manifest.json"
 _PARTS = "parts"
 _LOCK = ".lock"
 _PART_RE = re.compile(r"^chunk-(\d{7})\.parquet$")
-_TMP_RE = re.compile(r"^\.chunk-\d{7}\.parquet\.tmp$")
+_OLD_TMP_RE = re.compile(r"^\.chunk-\d{7}\.parquet\.tmp$")   # temporary names written by earlier versions
 
 
 def fraction_column(material: str) -> str:
@@ -68,24 +69,6 @@ def model_column(band: str) -> str:
 
 def _part_name(chunk: int) -> str:
     return f"chunk-{chunk:07d}.parquet"
-
-
-def _fsync_dir(path: Path) -> None:
-    fd = os.open(path, os.O_RDONLY)
-    try:
-        os.fsync(fd)
-    finally:
-        os.close(fd)
-
-
-def _write_atomic(path: Path, data: bytes) -> None:
-    tmp = path.with_name(path.name + ".tmp")
-    with open(tmp, "wb") as fh:
-        fh.write(data)
-        fh.flush()
-        os.fsync(fh.fileno())
-    os.replace(tmp, path)
-    _fsync_dir(path.parent)
 
 
 class GridStore:
@@ -128,10 +111,10 @@ class GridStore:
             raise GridError(f"{path / _MANIFEST} cannot be read ({exc})") from None
         if manifest.get("format") != STORE_FORMAT:
             raise GridError(f"{path / _MANIFEST} is not a motes grid store manifest")
-        if manifest.get("format_version") != STORE_FORMAT_VERSION:
+        problem = stamp_problem(manifest, STORE_FORMAT_VERSION, STORE_FORMAT)
+        if problem:
             raise GridError(
-                f"{path} is a grid store of format version {manifest.get('format_version')}, this motes "
-                f"{__version__} reads version {STORE_FORMAT_VERSION}; summarise it with the motes version that "
+                f"{path} is a grid store of {problem}; summarise it with the motes version that "
                 "wrote it, or start the grid afresh in a new --output folder")
         return cls(path, manifest)
 
@@ -142,14 +125,12 @@ class GridStore:
         if path.exists() and (not path.is_dir() or any(path.iterdir())):
             raise GridError(f"{path} exists and is not empty; choose a new --output folder")
         full = {
-            "format": STORE_FORMAT,
-            "format_version": STORE_FORMAT_VERSION,
-            "motes_version": __version__,
+            **format_stamp(STORE_FORMAT_VERSION, STORE_FORMAT),
             "created": datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds"),
             **manifest,
         }
         (path / _PARTS).mkdir(parents=True, exist_ok=True)
-        _write_atomic(path / _MANIFEST, json.dumps(full, indent=1, sort_keys=True).encode())
+        write_bytes_atomic(path / _MANIFEST, json.dumps(full, indent=1, sort_keys=True).encode())
         return cls(path, full)
 
     @classmethod
@@ -227,7 +208,7 @@ class GridStore:
         self._lock_fd = fd
         # leftovers of a run killed while writing a part
         for tmp in (self.path / _PARTS).iterdir():
-            if _TMP_RE.match(tmp.name):
+            if _OLD_TMP_RE.match(tmp.name) or _PART_RE.match(temporary_target(tmp.name) or ""):
                 tmp.unlink()
 
     @property
@@ -276,13 +257,8 @@ class GridStore:
         if final.exists():
             raise GridError(f"chunk {chunk} is already in {self.path}; refusing to write it twice")
         table = pa.table({n: np.asarray(columns[n]) for n in names})
-        tmp = final.with_name("." + final.name + ".tmp")
-        with open(tmp, "wb") as fh:
-            pq.write_table(table, fh, compression="zstd")
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, final)
-        _fsync_dir(final.parent)
+        with atomic_write(final) as tmp:
+            pq.write_table(table, tmp, compression="zstd")
         return final
 
     # -- reading -----------------------------------------------------------------------------

@@ -24,7 +24,6 @@ errors are Gaussian and the model adequate (chi2_min near the degrees of freedom
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -32,6 +31,7 @@ import numpy as np
 from astropy.table import Table
 
 from ...errors import GridError
+from ...files import atomic_write
 from .spec import AXES
 from .store import GridStore, fraction_column, model_column
 
@@ -103,9 +103,8 @@ class GridSummary:
             table.meta.update({"store": self.store, "chi2_min": self.chi2_min, "dof": self.dof,
                                "n_rows": self.n_rows, "n_points": self.n_points, "notes": list(self.notes)})
             path = folder / f"{name}.ecsv"
-            tmp = folder / f".{name}.ecsv.tmp"
-            table.write(tmp, format="ascii.ecsv", overwrite=True)
-            os.replace(tmp, path)
+            with atomic_write(path) as tmp:
+                table.write(tmp, format="ascii.ecsv", overwrite=True)
             written.append(path)
         return written
 

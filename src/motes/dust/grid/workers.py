@@ -69,20 +69,14 @@ def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
         the bands of the disk photometry in their order, with its lookup tables
         loaded (fast path).
     """
-    from ..model.description import parse_model_description
-
-    description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
-    model = description.build_model(bands=observations.bands)
+    model = spec.description.build_model(bands=observations.bands)
     model.prepare()
     return model
 
 
 def read_grid_observations(spec: GridSpec) -> DiskPhotometry:
     """The disk photometry a grid compares to (``[data] photometry``), with the description's user bands."""
-    from ..model.description import parse_model_description
-
-    description = parse_model_description(spec.description, base_dir=spec.base_dir, source=spec.source)
-    return read_disk_photometry(spec.photometry, custom_bands=description.custom_bands)
+    return read_disk_photometry(spec.photometry, custom_bands=spec.description.custom_bands)
 
 
 class GridEvaluator:

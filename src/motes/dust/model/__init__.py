@@ -17,6 +17,7 @@ from __future__ import annotations
 
 from .colours import FRACTIONS_NOTE, METHODS, MIE_SPHERES_NOTE, BandOptics, DiskColourModel
 from .description import (
+    MODEL_TABLES,
     ModelDescription,
     StarDescription,
     model_from_description,
@@ -35,6 +36,7 @@ __all__ = [
     "LookupTable",
     "METHODS",
     "MIE_SPHERES_NOTE",
+    "MODEL_TABLES",
     "MixtureOptics",
     "MixtureParameters",
     "ModelDescription",

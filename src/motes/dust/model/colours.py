@@ -45,6 +45,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ...errors import InputError, ModelError, OpticalConstantsError
+from ...parameters import PARAMETERS, accepts_quantities
 from ...optics import mie
 from ...optics.constants import Material, load_material
 from ...optics.mixing import mix_refractive_index, mixture_density
@@ -166,6 +167,7 @@ class DiskColourModel:
     geometry) to compare with data.
     """
 
+    @accepts_quantities
     def __init__(self, materials, bands, *, star_teff=None, star_spectrum=None,
                  mixing="bruggeman", matrix=None, geometry=ScatteringGeometry(),
                  method="fast", a_max=1000.0, wavelength_nodes: int = 8,
@@ -236,6 +238,7 @@ class DiskColourModel:
             raise InputError(f"star_teff must be a positive temperature in K, got {teff!r}", where="star_teff")
         return float(teff), None
 
+    @accepts_quantities
     def star_flux(self, wavelength) -> np.ndarray:
         """Stellar F_lambda at ``wavelength`` [um] (arbitrary scale)."""
         wavelength = np.asarray(wavelength, dtype=float)
@@ -333,10 +336,11 @@ class DiskColourModel:
                                          for v in (porosity, a_min, q, a_max))
         except ValueError:
             raise InputError(f"porosity, a_min, q and a_max must be scalars or arrays of length {n}") from None
-        if not np.isfinite(porosity).all() or (porosity < 0).any() or (porosity >= 1).any():
-            raise InputError("porosity (vacuum fraction of the whole grain) must be in [0, 1)", where="porosity")
-        if not (np.isfinite(a_min).all() and np.isfinite(a_max).all()) or (a_min <= 0).any():
-            raise InputError("a_min and a_max must be finite and > 0 um", where="a_min")
+        por, size = PARAMETERS["porosity"], PARAMETERS["a_min"]
+        if not por.contains(porosity).all():
+            raise InputError(f"porosity ({por.meaning}) must be in {por.interval}", where="porosity")
+        if not (np.isfinite(a_min).all() and np.isfinite(a_max).all()) or not size.contains(a_min).all():
+            raise InputError(f"a_min and a_max must be finite and > {size.lo:g} {size.unit_text}", where="a_min")
         if (a_min >= a_max).any():
             i = int(np.flatnonzero(a_min >= a_max)[0])
             raise InputError(f"a_min must be smaller than a_max; row {i}: a_min = {a_min[i]:g} um, "
@@ -345,6 +349,7 @@ class DiskColourModel:
             raise InputError("q must be finite", where="q")
         return f, porosity, a_min, q, a_max
 
+    @accepts_quantities
     def effective_index(self, fractions, porosity, wavelength=None) -> np.ndarray:
         """Effective index ``n + ik`` of the mixtures.
 
@@ -375,6 +380,7 @@ class DiskColourModel:
         return mixture_density(rho, f.T, porosity)
 
     # ------------------------------------------------------------ outputs
+    @accepts_quantities
     def flux_ratio(self, fractions, porosity, a_min, q, a_max=None) -> np.ndarray:
         """Disk/star flux ratio per band for dust of unit total cross-section.
 
@@ -424,6 +430,7 @@ class DiskColourModel:
 
         self._table = table_for_model(self, fractions=fractions, porosity=porosity)
 
+    @accepts_quantities
     def node_values_exact(self, m, wavelength, a_min, q, a_max, sampling: SizeSampling | None = None):
         """Monochromatic flux ratio R(lambda) by direct Mie quadrature.
 
@@ -470,6 +477,7 @@ class DiskColourModel:
             out[i] = (wavelength / (2 * np.pi)) ** (3.0 - q[i]) * integral / norm[i]
         return out
 
+    @accepts_quantities
     def monochromatic_flux_ratio(self, wavelength, fractions, porosity, a_min, q, a_max=None) -> np.ndarray:
         """R(lambda) [sr^-1] at given wavelengths (no band average), exact path.
 
@@ -482,6 +490,7 @@ class DiskColourModel:
         m = self.effective_index(f, p, wavelength)
         return self.node_values_exact(m, wavelength, a_min, q, a_max)
 
+    @accepts_quantities
     def band_optics(self, fractions, porosity, a_min, q, a_max=None, n_per_efold: int = 24) -> BandOptics:
         """Flux ratio, albedo, g and Q_ext per band for ONE mixture (exact path).
 
@@ -515,6 +524,7 @@ class DiskColourModel:
                           q_ext=cext @ bm, m_pivot=m_piv, pivot=pivots,
                           density=float(np.ravel(self.density(f, p))[0]), notes=self.notes)
 
+    @accepts_quantities
     def radiation_pressure_efficiency(self, fractions, porosity, a, n_wavelengths: int = 64):
         """Q_pr = Q_ext - g Q_sca averaged over the stellar F_lambda, for radii ``a`` [um].
 
@@ -546,6 +556,7 @@ class DiskColourModel:
         wts = np.gradient(lam) * flux
         return (e.q_pr * wts).sum(axis=1) / wts.sum(), covered
 
+    @accepts_quantities
     def blowout(self, fractions, porosity, luminosity_lsun, mass_msun) -> BlowoutResult:
         """Blow-out radius of this mixture around a star (Burns, Lamy & Soter 1979).
 
@@ -571,6 +582,29 @@ class DiskColourModel:
             result = BlowoutResult(result.size, result.beta_max, result.size_of_beta_max, result.a,
                                    result.beta, result.q_pr, result.message, result.notes + (note,))
         return result
+
+    @accepts_quantities
+    def blowout_sizes(self, fractions, porosity, luminosity_lsun, mass_msun) -> np.ndarray:
+        """Blow-out radius [um] of each mixture: :meth:`blowout` row by row.
+
+        Parameters
+        ----------
+        fractions : ndarray[N, K]
+        porosity : ndarray[N] or float
+        luminosity_lsun, mass_msun : float
+
+        Returns
+        -------
+        ndarray[N] [um]
+            nan where beta < 1/2 at every size (no grain is blown out).
+        """
+        f = np.atleast_2d(np.asarray(fractions, dtype=float))
+        p = np.broadcast_to(np.asarray(porosity, dtype=float), (f.shape[0],))
+        out = np.empty(f.shape[0])
+        for i in range(f.shape[0]):
+            size = self.blowout(f[i:i + 1], p[i], luminosity_lsun, mass_msun).size
+            out[i] = np.nan if size is None else size
+        return out
 
     def describe(self) -> str:
         """Short multi-line summary of the model's set-up."""

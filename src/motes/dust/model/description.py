@@ -1,9 +1,10 @@
 """Dust-model descriptions in TOML: star, materials, mixing, geometry, bands.
 
-The same sections are shared by ``motes optics`` (a mixture file), ``motes fit``
-and ``motes grid`` descriptions; each command adds its own sections (data,
-priors, grid axes) and ignores the others'. Relative paths are resolved
-against the folder of the description file::
+The same sections (:data:`MODEL_TABLES`) are shared by ``motes optics`` (a
+mixture file), ``motes fit`` and ``motes grid`` descriptions; each command adds
+its own sections (data, priors, grid axes) and refuses a table it does not
+know, naming the nearest valid one. Relative paths are resolved against the
+folder of the description file::
 
     [star]
     teff = 5800.0                   # [K] blackbody (or give a spectrum)
@@ -51,14 +52,15 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
-import numpy as np
-
 from ...errors import InputError, MotesError
+from ...parameters import PARAMETERS, accepts_quantities
 from ...optics.constants import Material, load_material
 from ...photometry.bands import Band, get_band
+from ...tomlcheck import check_keys, check_tables, read_number
 from .colours import METHODS, PHASES, DiskColourModel, ScatteringGeometry
 
 __all__ = [
+    "MODEL_TABLES",
     "StarDescription",
     "ModelDescription",
     "parse_model_description",
@@ -73,7 +75,12 @@ _MIXING_KEYS = {"rule", "matrix"}
 _GEOMETRY_KEYS = {"angles_deg", "inclination_deg", "n_azimuths", "phase"}
 _MODEL_KEYS = {"bands", "a_max", "method", "wavelength_nodes"}
 
+#: Top-level tables of a model description; the file of each command adds its own
+#: (``[mixture]``, ``[data]``, ``[grid]``, ...) and refuses any other.
+MODEL_TABLES = ("star", "materials", "mixing", "geometry", "model", "bands")
 
+
+@accepts_quantities
 @dataclass(frozen=True)
 class StarDescription:
     """The star of a dust-model description.
@@ -97,6 +104,7 @@ class StarDescription:
         return self.luminosity is not None and self.mass is not None
 
 
+@accepts_quantities
 @dataclass(frozen=True)
 class ModelDescription:
     """A parsed dust-model description (see the module docstring for the format).
@@ -136,6 +144,31 @@ class ModelDescription:
     def material_names(self) -> tuple[str, ...]:
         return tuple(m.name for m in self.materials)
 
+    def subset(self, names) -> "ModelDescription":
+        """The same description with only the materials ``names``, in description order.
+
+        Parameters
+        ----------
+        names : iterable of str
+            Labels of ``[[materials]]`` tables (e.g. one model of a fit).
+
+        Raises
+        ------
+        motes.errors.InputError
+            An unknown name, an empty subset, or a Maxwell Garnett matrix left out.
+        """
+        wanted = set(names)
+        unknown = sorted(wanted - set(self.material_names))
+        if unknown:
+            raise InputError(f"unknown material(s) {unknown}; the description has {list(self.material_names)}",
+                             path=self.source, where="[[materials]]")
+        if not wanted:
+            raise InputError("a model needs at least one material", path=self.source, where="[[materials]]")
+        if self.matrix not in (None, "vacuum") and self.matrix not in wanted:
+            raise InputError(f"the Maxwell Garnett matrix '{self.matrix}' cannot be left out of a model",
+                             path=self.source, where="[mixing] matrix")
+        return dataclasses.replace(self, materials=tuple(m for m in self.materials if m.name in wanted))
+
     def build_model(self, bands=None, method: str | None = None) -> DiskColourModel:
         """The :class:`DiskColourModel` described.
 
@@ -166,22 +199,6 @@ class ModelDescription:
             raise InputError(exc.reason, path=self.source, where=exc.where) from None
 
 
-def _check_keys(table, allowed, source, where):
-    if not isinstance(table, dict):
-        raise InputError("expected a table", path=source, where=where)
-    unknown = set(table) - set(allowed)
-    if unknown:
-        raise InputError(f"unknown key(s) {sorted(unknown)}; allowed: {sorted(allowed)}", path=source, where=where)
-
-
-def _number(value, source, where, positive=True) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value) \
-            or (positive and value <= 0):
-        raise InputError(f"expected a {'positive ' if positive else ''}number, got {value!r}",
-                         path=source, where=where)
-    return float(value)
-
-
 def _band(name, custom, source, where) -> Band:
     if not isinstance(name, str):
         raise InputError(f"band names must be strings, got {name!r}", path=source, where=where)
@@ -193,8 +210,8 @@ def _band(name, custom, source, where) -> Band:
 
 def _read_star(doc, source, base_dir) -> StarDescription:
     star = doc.get("star", {})
-    _check_keys(star, _STAR_KEYS, source, "[star]")
-    teff = _number(star["teff"], source, "[star] teff") if "teff" in star else None
+    check_keys(star, _STAR_KEYS, path=source, where="[star]")
+    teff = read_number(star["teff"], path=source, where="[star] teff", positive=True) if "teff" in star else None
     spectrum = None
     if "spectrum" in star:
         from ...photometry.targets import read_host_spectrum
@@ -202,7 +219,7 @@ def _read_star(doc, source, base_dir) -> StarDescription:
         spec = star["spectrum"]
         if isinstance(spec, str):
             spec = {"file": spec}
-        _check_keys(spec, {"file", "wavelength_unit", "flux"}, source, "[star] spectrum")
+        check_keys(spec, {"file", "wavelength_unit", "flux"}, path=source, where="[star] spectrum")
         if not isinstance(spec.get("file"), str):
             raise InputError('expected spectrum = "PATH" or { file = "PATH", wavelength_unit = "um", '
                              'flux = "f_lambda" }', path=source, where="[star] spectrum")
@@ -213,8 +230,11 @@ def _read_star(doc, source, base_dir) -> StarDescription:
         spectrum = (s.wavelength, s.flux_lambda)
     if teff is None and spectrum is None:
         raise InputError("the star needs teff = ... [K] or a spectrum file", path=source, where="[star]")
-    lum = _number(star["luminosity"], source, "[star] luminosity") if "luminosity" in star else None
-    mass = _number(star["mass"], source, "[star] mass") if "mass" in star else None
+    lum = mass = None
+    if "luminosity" in star:
+        lum = read_number(star["luminosity"], path=source, where="[star] luminosity", positive=True)
+    if "mass" in star:
+        mass = read_number(star["mass"], path=source, where="[star] mass", positive=True)
     return StarDescription(teff, spectrum, lum, mass)
 
 
@@ -225,7 +245,7 @@ def _read_materials(doc, source, base_dir) -> tuple[Material, ...]:
     out, names = [], []
     for i, entry in enumerate(mats):
         where = f"[[materials]] #{i + 1}"
-        _check_keys(entry, _MATERIAL_KEYS, source, where)
+        check_keys(entry, _MATERIAL_KEYS, path=source, where=where)
         name = entry.get("name")
         if not isinstance(name, str) or not _NAME_RE.fullmatch(name):
             raise InputError(f'name must be a label of letters, digits, _ . + - (got {name!r})',
@@ -243,7 +263,7 @@ def _read_materials(doc, source, base_dir) -> tuple[Material, ...]:
             if key in entry:
                 kw[key] = entry[key]
         if "density" in entry:
-            kw["density"] = _number(entry["density"], source, f"{where} density")
+            kw["density"] = read_number(entry["density"], path=source, where=f"{where} density", positive=True)
         try:
             mat = load_material(candidate if candidate.is_file() else src, **kw)
         except MotesError as exc:
@@ -254,7 +274,7 @@ def _read_materials(doc, source, base_dir) -> tuple[Material, ...]:
 
 def _read_geometry(doc, source) -> ScatteringGeometry:
     geo = doc.get("geometry", {})
-    _check_keys(geo, _GEOMETRY_KEYS, source, "[geometry]")
+    check_keys(geo, _GEOMETRY_KEYS, path=source, where="[geometry]")
     phase = geo.get("phase", "mie")
     if phase not in PHASES:
         raise InputError(f"phase must be one of {PHASES}, got {phase!r}", path=source, where="[geometry] phase")
@@ -262,15 +282,13 @@ def _read_geometry(doc, source) -> ScatteringGeometry:
         if "inclination_deg" in geo:
             if "angles_deg" in geo:
                 raise InputError("give angles_deg or inclination_deg, not both", path=source, where="[geometry]")
-            n = geo.get("n_azimuths", 8)
-            if isinstance(n, bool) or not isinstance(n, int) or n < 1:
-                raise InputError(f"n_azimuths must be a positive integer, got {n!r}", path=source,
-                                 where="[geometry] n_azimuths")
-            inc = _number(geo["inclination_deg"], source, "[geometry] inclination_deg", positive=False)
+            n = read_number(geo.get("n_azimuths", 8), path=source, where="[geometry] n_azimuths",
+                            integer=True, positive=True)
+            inc = read_number(geo["inclination_deg"], path=source, where="[geometry] inclination_deg")
             return ScatteringGeometry.ring(inc, n, phase)
         angles = geo.get("angles_deg", [90.0])
         angles = angles if isinstance(angles, list) else [angles]
-        angles = [_number(a, source, "[geometry] angles_deg") for a in angles]
+        angles = [read_number(a, path=source, where="[geometry] angles_deg", positive=True) for a in angles]
         return ScatteringGeometry(tuple(angles), phase)
     except InputError as exc:
         if exc.path is not None:
@@ -300,7 +318,7 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
     star = _read_star(doc, source, base_dir)
     materials = _read_materials(doc, source, base_dir)
     mixing = doc.get("mixing", {})
-    _check_keys(mixing, _MIXING_KEYS, source, "[mixing]")
+    check_keys(mixing, _MIXING_KEYS, path=source, where="[mixing]")
     rule = mixing.get("rule", "bruggeman")
     if rule not in ("bruggeman", "maxwell_garnett"):
         raise InputError(f"rule must be 'bruggeman' or 'maxwell_garnett', got {rule!r}",
@@ -321,24 +339,32 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
     except MotesError as exc:
         raise InputError(getattr(exc, "reason", str(exc)), path=source, where=getattr(exc, "where", None)) from None
     model = doc.get("model", {})
-    _check_keys(model, _MODEL_KEYS, source, "[model]")
+    check_keys(model, _MODEL_KEYS, path=source, where="[model]")
     band_names = model.get("bands", [])
     if not isinstance(band_names, list):
         raise InputError("bands must be a list of band names", path=source, where="[model] bands")
     bands = tuple(_band(b, custom, source, "[model] bands") for b in band_names)
-    a_max = _number(model.get("a_max", 1000.0), source, "[model] a_max")
+    a_max = read_number(model.get("a_max", PARAMETERS["a_max"].default), path=source, where="[model] a_max",
+                        positive=True)
     method = model.get("method", "fast")
     if method not in METHODS:
         raise InputError(f"method must be one of {METHODS}, got {method!r}", path=source, where="[model] method")
-    nodes = model.get("wavelength_nodes", 8)
-    if isinstance(nodes, bool) or not isinstance(nodes, int) or not 1 <= nodes <= 64:
-        raise InputError(f"wavelength_nodes must be an integer in 1..64, got {nodes!r}",
-                         path=source, where="[model] wavelength_nodes")
+    nodes = read_number(model.get("wavelength_nodes", 8), path=source, where="[model] wavelength_nodes",
+                        integer=True, lo=1, hi=64)
     return ModelDescription(star, materials, rule, matrix, geometry, bands, custom, a_max, method, nodes, source)
 
 
-def read_model_description(path) -> ModelDescription:
-    """Read a dust-model (mixture) description from a TOML file."""
+def read_model_description(path, extra_tables=None) -> ModelDescription:
+    """Read a dust-model (mixture) description from a TOML file.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+    extra_tables : sequence of str, optional
+        The file's tables besides :data:`MODEL_TABLES` (e.g. ``("mixture",)``):
+        any other table is refused, naming the nearest valid one. None reads
+        the model sections of any file and ignores its other tables.
+    """
     path = Path(path)
     try:
         text = path.read_text()
@@ -350,6 +376,8 @@ def read_model_description(path) -> ModelDescription:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", path=path) from None
+    if extra_tables is not None:
+        check_tables(doc, MODEL_TABLES + tuple(extra_tables), path=path, arrays=("materials",))
     return parse_model_description(doc, base_dir=path.parent, source=str(path))
 
 

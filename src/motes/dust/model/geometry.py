@@ -7,12 +7,14 @@ from dataclasses import dataclass
 import numpy as np
 
 from ...errors import InputError
+from ...parameters import PARAMETERS, accepts_quantities
 
 __all__ = ["ScatteringGeometry", "PHASES"]
 
 PHASES = ("mie", "hg")
 
 
+@accepts_quantities
 @dataclass(frozen=True)
 class ScatteringGeometry:
     """Scattering angles at which the disk is seen, and the phase-function model.
@@ -34,13 +36,16 @@ class ScatteringGeometry:
             angles = tuple(float(a) for a in np.atleast_1d(self.angles_deg))
         except (TypeError, ValueError):
             raise InputError(f"angles_deg must be numbers, got {self.angles_deg!r}", where="angles_deg") from None
-        if not angles or not all(np.isfinite(a) and 0 < a <= 180 for a in angles):
-            raise InputError(f"scattering angles must be in (0, 180] deg, got {angles!r}", where="angles_deg")
+        declared = PARAMETERS["angle"]
+        if not angles or not declared.contains(angles).all():
+            raise InputError(f"scattering angles must be in {declared.interval} {declared.unit_text}, got {angles!r}",
+                             where="angles_deg")
         if self.phase not in PHASES:
             raise InputError(f"phase must be one of {PHASES}, got {self.phase!r}", where="phase")
         object.__setattr__(self, "angles_deg", angles)
 
     @classmethod
+    @accepts_quantities
     def ring(cls, inclination_deg: float, n_azimuths: int = 8, phase: str = "mie") -> "ScatteringGeometry":
         """Angles sampled by a circular ring at inclination i (0 = face-on).
 

@@ -17,14 +17,14 @@ mixture is cheaper to compute directly than to tabulate.
 
 from __future__ import annotations
 
-import os
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from ...errors import InputError
+from ...tomlcheck import check_keys, get_table, read_number
+from ...parameters import MIXTURE_PARAMETERS, PARAMETERS, accepts_quantities
 from ...optics import mie
 from ...optics.sizes import BlowoutResult
 from .description import ModelDescription, read_model_description
@@ -37,13 +37,12 @@ __all__ = [
     "read_mixture_file",
     "parse_mixture",
     "compute_mixture_optics",
-    "format_mixture_optics",
-    "write_mixture_outputs",
 ]
 
-_MIXTURE_KEYS = {"fractions", "porosity", "a_min", "q", "a_max", "reference_band"}
+_MIXTURE_KEYS = {"fractions", *MIXTURE_PARAMETERS, "reference_band"}
 
 
+@accepts_quantities
 @dataclass(frozen=True)
 class MixtureParameters:
     """Composition and size distribution of one mixture.
@@ -89,27 +88,42 @@ class MixtureOptics:
         """Magnitudes relative to the reference band."""
         return self.optics.colours(self.reference)
 
+    def to_table(self):
+        """The per-band numbers as a table (what ``motes optics`` writes as ECSV).
 
-def _number(value, source, where, lo=None, hi=None, open_hi=False):
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
-        raise InputError(f"expected a number, got {value!r}", path=source, where=where)
-    v = float(value)
-    if (lo is not None and v < lo) or (hi is not None and (v >= hi if open_hi else v > hi)):
-        raise InputError(f"{v:g} is outside the allowed range [{lo}, {hi}{')' if open_hi else ']'}",
-                         path=source, where=where)
-    return v
+        Returns
+        -------
+        astropy.table.Table
+            Columns ``band, pivot [um], n_eff, k_eff, flux_ratio [1/sr], colour [mag],
+            albedo, g, q_ext``; the mixture and the notes in ``meta``.
+        """
+        from astropy.table import Table
+        import astropy.units as u
+
+        o = self.optics
+        t = Table()
+        t["band"] = list(o.bands)
+        t["pivot"] = o.pivot * u.um
+        t["n_eff"] = o.m_pivot.real
+        t["k_eff"] = o.m_pivot.imag
+        t["flux_ratio"] = o.flux_ratio / u.sr
+        t["colour"] = self.colours * u.mag
+        t["albedo"] = o.albedo
+        t["g"] = o.g
+        t["q_ext"] = o.q_ext
+        p = self.parameters
+        t.meta.update({"materials": list(self.description.material_names), "fractions": list(p.fractions),
+                       "porosity": p.porosity, "a_min_um": p.a_min, "a_max_um": p.a_max, "q": p.q,
+                       "reference_band": o.bands[self.reference], "density_g_cm3": o.density,
+                       "notes": list(self.notes), "mie_solver": mie.solver_summary()})
+        return t
 
 
 def parse_mixture(doc: dict, description: ModelDescription) -> MixtureParameters:
     """Read the ``[mixture]`` section against the description's materials."""
     src = description.source
-    mix = doc.get("mixture")
-    if not isinstance(mix, dict):
-        raise InputError("missing the [mixture] table (fractions, porosity, a_min, q)", path=src)
-    unknown = set(mix) - _MIXTURE_KEYS
-    if unknown:
-        raise InputError(f"unknown key(s) {sorted(unknown)}; allowed: {sorted(_MIXTURE_KEYS)}",
-                         path=src, where="[mixture]")
+    mix = get_table(doc, "mixture", path=src, required=True, expected="fractions, porosity, a_min, q")
+    check_keys(mix, _MIXTURE_KEYS, path=src, where="[mixture]", required=("porosity", "a_min", "q"))
     names = description.material_names
     fr = mix.get("fractions")
     if not isinstance(fr, dict):
@@ -119,17 +133,17 @@ def parse_mixture(doc: dict, description: ModelDescription) -> MixtureParameters
     if extra:
         raise InputError(f"unknown material(s) {sorted(extra)}; the materials are {list(names)}",
                          path=src, where="[mixture] fractions")
-    fractions = tuple(_number(fr.get(n, 0.0), src, f"[mixture] fractions.{n}", 0.0, 1.0) for n in names)
+    fractions = tuple(read_number(fr.get(n, 0.0), path=src, where=f"[mixture] fractions.{n}", lo=0.0, hi=1.0)
+                      for n in names)
     if abs(sum(fractions) - 1.0) > 1e-6:
         raise InputError(f"fractions are volume fractions of the solid and must sum to 1; they sum to "
                          f"{sum(fractions):.6g}", path=src, where="[mixture] fractions")
-    for key in ("porosity", "a_min", "q"):
-        if key not in mix:
-            raise InputError(f"missing {key}", path=src, where="[mixture]")
-    porosity = _number(mix["porosity"], src, "[mixture] porosity", 0.0, 1.0, open_hi=True)
-    a_min = _number(mix["a_min"], src, "[mixture] a_min", 0.0)
-    q = _number(mix["q"], src, "[mixture] q")
-    a_max = _number(mix.get("a_max", description.a_max), src, "[mixture] a_max", 0.0)
+    por = PARAMETERS["porosity"]
+    porosity = read_number(mix["porosity"], path=src, where="[mixture] porosity", lo=por.lo, hi=por.hi,
+                           open_hi=por.open_hi)
+    a_min = read_number(mix["a_min"], path=src, where="[mixture] a_min", lo=0.0)
+    q = read_number(mix["q"], path=src, where="[mixture] q")
+    a_max = read_number(mix.get("a_max", description.a_max), path=src, where="[mixture] a_max", lo=0.0)
     if not 0 < a_min < a_max:
         raise InputError(f"need 0 < a_min < a_max, got a_min = {a_min:g} um, a_max = {a_max:g} um",
                          path=src, where="[mixture] a_min")
@@ -144,7 +158,7 @@ def read_mixture_file(path) -> tuple[ModelDescription, MixtureParameters]:
     import tomllib
 
     path = Path(path)
-    desc = read_model_description(path)
+    desc = read_model_description(path, extra_tables=("mixture",))
     doc = tomllib.loads(path.read_text())
     return desc, parse_mixture(doc, desc)
 
@@ -195,84 +209,3 @@ def compute_mixture_optics(description: ModelDescription, mixture: MixtureParame
     return MixtureOptics(description, mixture, model.bands, model.describe(), optics, reference, blow, lam, curve,
                          radius, e.q_ext, e.q_sca, tuple(dict.fromkeys(notes)))
 
-
-def format_mixture_optics(result: MixtureOptics) -> str:
-    """The text ``motes optics`` prints."""
-    o, p = result.optics, result.parameters
-    mats = result.description.material_names
-    ref = o.bands[result.reference]
-    lines = [result.model_summary,
-             "mixture: " + ", ".join(f"{n} {f:.3g}" for n, f in zip(mats, p.fractions))
-             + f"; porosity {p.porosity:.3g}; sizes {p.a_min:g}-{p.a_max:g} um, q = {p.q:g}",
-             f"mixture density: {o.density:.4g} g cm^-3" if np.isfinite(o.density)
-             else "mixture density: unknown (a material has no bulk density)",
-             "",
-             f"{'band':<14}{'pivot um':>9}  {'m_eff (n + ik)':<22}{'R [1/sr]':>11}"
-             f"{'colour':>9}{'albedo':>8}{'g':>7}{'Q_ext':>7}"]
-    colours = result.colours
-    for i, band in enumerate(o.bands):
-        m = o.m_pivot[i]
-        lines.append(f"{band:<14}{o.pivot[i]:9.4f}  {m.real:7.4f} + {m.imag:9.3e}i   {o.flux_ratio[i]:11.4e}"
-                     f"{colours[i]:9.4f}{o.albedo[i]:8.4f}{o.g[i]:7.3f}{o.q_ext[i]:7.3f}")
-    lines.append(f"(R: disk/star flux ratio per unit total grain cross-section; colour: mag relative to {ref}; "
-                 "albedo and g: cross-section weighted, band averaged; exact Mie path)")
-    if result.blowout is not None:
-        lines.append("")
-        lines.append(result.blowout.message)
-    lines.append("")
-    lines.extend(f"Note: {n}" for n in result.notes)
-    return "\n".join(lines)
-
-
-def _table(result: MixtureOptics):
-    from astropy.table import Table
-    import astropy.units as u
-
-    o = result.optics
-    t = Table()
-    t["band"] = list(o.bands)
-    t["pivot"] = o.pivot * u.um
-    t["n_eff"] = o.m_pivot.real
-    t["k_eff"] = o.m_pivot.imag
-    t["flux_ratio"] = o.flux_ratio / u.sr
-    t["colour"] = result.colours * u.mag
-    t["albedo"] = o.albedo
-    t["g"] = o.g
-    t["q_ext"] = o.q_ext
-    p = result.parameters
-    t.meta.update({"materials": list(result.description.material_names), "fractions": list(p.fractions),
-                   "porosity": p.porosity, "a_min_um": p.a_min, "a_max_um": p.a_max, "q": p.q,
-                   "reference_band": o.bands[result.reference], "density_g_cm3": o.density,
-                   "notes": list(result.notes), "mie_solver": mie.solver_summary()})
-    return t
-
-
-def write_mixture_outputs(result: MixtureOptics, folder, stem: str = "optics", figures: bool = True) -> list[Path]:
-    """Write the per-band table (ECSV) and the two figures; return the paths."""
-    from ...report.optics_figures import plot_efficiencies, plot_reflectance
-
-    folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    out = []
-    table_path = folder / f"{stem}_bands.ecsv"
-    fd, tmp = tempfile.mkstemp(dir=folder, suffix=".ecsv.tmp")
-    os.close(fd)
-    try:
-        _table(result).write(tmp, format="ascii.ecsv", overwrite=True)
-        os.replace(tmp, table_path)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-    out.append(table_path)
-    if figures:
-        p = result.parameters
-        title = ", ".join(f"{n} {f:.2g}" for n, f in zip(result.description.material_names, p.fractions)) \
-            + f"; porosity {p.porosity:.2g}; a = {p.a_min:g}-{p.a_max:g} um, q = {p.q:g}"
-        out.append(plot_reflectance(folder / f"{stem}_reflectance.png", result.spectrum_wavelength,
-                                    result.spectrum_flux_ratio, result.bands, result.optics.flux_ratio, title,
-                                    notes=("Mie spheres at the stated scattering angles; real grains are not "
-                                           "Mie spheres.",)))
-        out.append(plot_efficiencies(folder / f"{stem}_efficiencies.png", result.radius, result.q_ext,
-                                     result.q_sca, result.optics.pivot, list(result.optics.bands),
-                                     title, p.a_min, p.a_max))
-    return out

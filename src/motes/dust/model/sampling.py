@@ -34,6 +34,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ...errors import InputError
+from ...parameters import accepts_quantities
 
 __all__ = ["SizeSampling", "bin_rule", "size_parameter_rule", "weighted_gauss_nodes"]
 
@@ -173,6 +174,7 @@ def size_parameter_rule(x_lo: float, x_hi: float, sampling: SizeSampling = SizeS
     return t, w
 
 
+@accepts_quantities
 def weighted_gauss_nodes(wavelength, weight, n: int) -> tuple[np.ndarray, np.ndarray]:
     """Gauss nodes for a tabulated weight function.
 

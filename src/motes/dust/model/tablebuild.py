@@ -1,4 +1,4 @@
-"""Building the fast path's lookup tables: axes, cache folder, per-node moments.
+"""Building the fast path's lookup tables: axes, per-node moments.
 
 See :mod:`motes.dust.model.tables` for what the tables hold and how they are used.
 Each (n, k) node samples the size-parameter integrand with the exact path's
@@ -14,8 +14,6 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import os
-import tempfile
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
@@ -30,22 +28,14 @@ __all__ = [
     "TableSpec",
     "build_node",
     "build_tile",
-    "cache_directory",
     "channel_key",
     "rayleigh_exponents",
     "tile_path",
-    "write_atomic_npz",
 ]
 
 FORMAT_VERSION = 1
 N_MOMENTS = 5
 FACTORIALS = np.array([math.factorial(j) for j in range(N_MOMENTS)], dtype=float)
-
-
-def cache_directory() -> Path:
-    """Folder of motes' caches: ``$MOTES_CACHE_DIR`` or ``~/.cache/motes``."""
-    env = os.environ.get("MOTES_CACHE_DIR")
-    return Path(env).expanduser() if env else Path.home() / ".cache" / "motes"
 
 
 @dataclass(frozen=True)
@@ -165,17 +155,6 @@ def build_node(spec: TableSpec, geometry, m: complex):
 
 def tile_path(folder: Path, i: int, j: int) -> Path:
     return folder / f"tile_{i:03d}_{j:03d}.npz"
-
-
-def write_atomic_npz(path: Path, **arrays) -> None:
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=path.stem + ".", suffix=".tmp.npz")
-    os.close(fd)
-    try:
-        np.savez(tmp, **arrays)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
 
 
 def build_tile(spec: TableSpec, geometry, i: int, j: int):

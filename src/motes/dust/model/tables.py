@@ -30,7 +30,8 @@ How the table is made
 * Nodes are built in tiles of 4 x 4 (n, k) nodes, only where the model's
   mixtures can reach (pure components, mixtures on a 10% simplex lattice,
   porosity 0-0.95, at every band node, plus an interpolation margin), and
-  cached on disk under ``$MOTES_CACHE_DIR`` (default ``~/.cache/motes``),
+  cached on disk under :func:`motes.files.cache_directory` (``$MOTES_CACHE_DIR``,
+  else ``$XDG_CACHE_HOME/motes``, else ``~/.cache/motes``) ``/tables``,
   keyed by a hash of the geometry, the axes, the sampling rule, the format
   version and the miepython version. Files are written to a temporary name
   and renamed. A tile missing at evaluation time is built then.
@@ -46,7 +47,6 @@ from __future__ import annotations
 
 import json
 import os
-import tempfile
 from dataclasses import asdict
 from pathlib import Path
 
@@ -55,9 +55,11 @@ import numpy as np
 
 from ... import __version__
 from ...errors import InputError, ModelError
+from ...parameters import accepts_quantities
+from ...files import atomic_write, cache_directory, write_text_atomic
 from ...optics import mie
-from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, TableSpec, build_tile, cache_directory,
-                         channel_key, rayleigh_exponents, tile_path, write_atomic_npz)
+from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, TableSpec, build_tile, channel_key,
+                         rayleigh_exponents, tile_path)
 
 __all__ = [
     "FORMAT_VERSION",
@@ -238,10 +240,7 @@ class LookupTable:
             payload = json.dumps({"spec": asdict(self.spec), "geometry": channel_key(self.geometry),
                                   "format": FORMAT_VERSION, "motes": __version__,
                                   "miepython": mie.miepython.__version__}, indent=1, sort_keys=True)
-            fd, tmp = tempfile.mkstemp(dir=self.folder, suffix=".tmp")
-            with os.fdopen(fd, "w") as fh:
-                fh.write(payload)
-            os.replace(tmp, meta)
+            write_text_atomic(meta, payload)
 
     def _load_or_build(self, tiles) -> None:
         import time
@@ -271,8 +270,8 @@ class LookupTable:
                                leave=False)
         t0 = time.perf_counter()
         for ij, (moments, start, tail) in self._built(todo):
-            write_atomic_npz(tile_path(self.folder, *ij), moments=moments, start=start, tail=tail,
-                              format=np.int64(FORMAT_VERSION))
+            with atomic_write(tile_path(self.folder, *ij)) as tmp:
+                np.savez(tmp, moments=moments, start=start, tail=tail, format=np.int64(FORMAT_VERSION))
             self._tiles[ij] = (moments, start, tail)
             self.tiles_built += 1
             if bar is not None:
@@ -439,6 +438,7 @@ class LookupTable:
         return out
 
 
+@accepts_quantities
 def rainbow_indices(angles_deg, p_max: int = 6) -> np.ndarray:
     """Real refractive indices at which a geometric-optics rainbow sits at one of the angles.
 
@@ -482,6 +482,7 @@ class ModelTable:
         self._rainbows = rainbow_indices(model.geometry.angles_deg) if model.geometry.phase == "mie" \
             else np.array([])
 
+    @accepts_quantities
     def node_values(self, m, wavelength, a_min, q, a_max) -> np.ndarray:
         """Monochromatic flux ratios R at the band nodes, ``ndarray[N, L]``."""
         from ...optics.sizes import power_law_cross_section

@@ -1,4 +1,4 @@
-"""Text summary and table files of a classification.
+"""Text summary and table files of a companion classification.
 
 :func:`format_classification` renders a :class:`~motes.companion.Classification`
 for the terminal; :func:`write_classification` writes its rankings as ECSV
@@ -8,13 +8,12 @@ for the terminal; :func:`write_classification` writes its rankings as ECSV
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 
+from ..companion.results import Classification, Ranking
 from ..errors import InputError
+from ..files import atomic_writes
 from ..photometry.output import target_slug
-from .results import Classification, Ranking
 
 __all__ = ["format_classification", "write_classification", "classification_file_stem"]
 
@@ -143,23 +142,10 @@ def write_classification(result: Classification, folder, csv: bool = False) -> l
                 comments.append(f"{key}: {item}")
         flat.meta = {"comments": comments}
         plans.append((folder / f"{stem}.csv", "ascii.csv", flat, {"comment": "# "}))
-    written, temps = [], []
     try:
-        for final, fmt, tab, kw in plans:
-            fd, tmp = tempfile.mkstemp(prefix=f".{final.name}.", suffix=".tmp", dir=folder)
-            os.close(fd)
-            umask = os.umask(0)
-            os.umask(umask)
-            os.chmod(tmp, 0o666 & ~umask)
-            temps.append((Path(tmp), final))
-            tab.write(tmp, format=fmt, overwrite=True, **kw)
-        for tmp, final in temps:
-            os.replace(tmp, final)
-            written.append(final)
+        with atomic_writes([final for final, _, _, _ in plans]) as temps:
+            for tmp, (_, fmt, tab, kw) in zip(temps, plans):
+                tab.write(tmp, format=fmt, overwrite=True, **kw)
     except OSError as exc:
         raise InputError(f"cannot write output: {exc}", folder) from None
-    finally:
-        for tmp, _ in temps:
-            if tmp.exists():
-                tmp.unlink()
-    return written
+    return [final for final, _, _, _ in plans]

@@ -1,0 +1,56 @@
+"""The figure of ``motes bands NAME --plot FILE``: one band's curve and its counting weight.
+
+Drawn with matplotlib's object-oriented API (a :class:`matplotlib.figure.Figure`,
+no pyplot), so it never touches the user's plotting backend.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..errors import InputError
+from ..files import atomic_write
+from ..photometry.bands import Band
+
+__all__ = ["plot_band"]
+
+
+def plot_band(band: Band, path) -> Path:
+    """Save a plot of a band's curve (normalised) to ``path`` (PNG, PDF, ...).
+
+    Parameters
+    ----------
+    band : Band
+    path : str or Path
+        Output file; the format follows the suffix.
+
+    Returns
+    -------
+    Path
+    """
+    from matplotlib.figure import Figure
+
+    path = Path(path)
+    if path.parent and not path.parent.exists():
+        raise InputError("output folder does not exist", path.parent)
+    fig = Figure(figsize=(6.0, 3.6))
+    ax = fig.subplots()
+    t = band.throughput / band.throughput.max()
+    ax.plot(band.wavelength, t, color="#1f5f8b", lw=1.6, label=f"curve ({band.response} response)")
+    w = band.weight(band.wavelength)
+    ax.plot(band.wavelength, w / w.max(), color="#c0622f", lw=1.0, ls="--",
+            label=f"{band.counting}-counting weight")
+    ax.axvline(band.pivot_wavelength, color="0.3", lw=0.8, ls=":", label=f"pivot {band.pivot_wavelength:.4f} µm")
+    ax.set_xlabel("wavelength [µm]")
+    ax.set_ylabel("normalised throughput")
+    title = band.name + (" (approximate)" if band.approximate else "")
+    ax.set_title(title)
+    ax.set_ylim(0, 1.12)
+    ax.legend(fontsize=8, loc="lower center")
+    fig.tight_layout()
+    try:
+        with atomic_write(path, suffix=path.suffix or ".png") as tmp:
+            fig.savefig(tmp, dpi=130)
+    except (OSError, ValueError) as exc:
+        raise InputError(f"cannot save plot: {exc}", path) from None
+    return path

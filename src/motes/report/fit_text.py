@@ -1,0 +1,101 @@
+"""Text report of a disk-colour fit: what ``motes fit`` prints and writes to ``summary.txt``.
+
+:func:`format_fit_report` renders a :class:`motes.dust.fit.results.FitResult`;
+:func:`write_fit_report` writes a run's report files into its run folder (the
+figures of :mod:`motes.report.fit_figures`, then ``summary.txt``, which lists
+every file of the run).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from pathlib import Path
+
+import numpy as np
+
+from ..dust.fit.evidence import VERDICT_RULE
+from ..dust.fit.results import FitResult
+from ..files import write_text_atomic
+
+__all__ = ["format_fit_report", "write_fit_report"]
+
+
+def _fmt(x, digits=3):
+    if x is None or not np.isfinite(x):
+        return "-"
+    ax = abs(x)
+    if ax != 0 and (ax < 1e-2 or ax >= 1e4):
+        return f"{x:.{digits - 1}e}"
+    return f"{x:.{digits}g}" if ax < 1 else f"{x:.{max(digits - int(math.log10(ax)) - 1, 0) + 1}f}"
+
+
+def format_fit_report(result: FitResult) -> str:
+    """The text summary printed by ``motes fit`` and written to ``summary.txt``."""
+    obs = result.observations
+    lines = [f"motes fit of {result.source}",
+             f"data: {len(obs.bands)} bands ({obs.n_detections} detections), {obs.normalisation} "
+             f"from {obs.path}", ""]
+    lines.append("Models ranked by evidence (ln B = ln Z - ln Z(best), and vs the full set):")
+    lines.append(f"  {'rank':>4}  {'model':<40} {'ln Z':>9} {'±':>5}  {'ln B best':>9}  {'reading':<13}"
+                 f" {'ln B full':>9}  {'P(model)':>8}")
+    for row in result.ranking:
+        lines.append(f"  {row['rank']:>4}  {row['model']:<40} {row['ln_z']:9.2f} {row['ln_z_err']:5.2f}  "
+                     f"{row['ln_b_best']:9.2f}  {row['strength_vs_best']:<13} "
+                     f"{_fmt(row['ln_b_full']):>9}  {row['posterior_probability']:8.3f}")
+    lines += ["", "Verdicts per material:"]
+    for v, row in zip(result.verdicts, result.verdict_table):
+        text = "  " + v.sentence()
+        if v.verdict in ("not needed", "undecided") and np.isfinite(row["fraction_upper95"]):
+            text += f"; its fraction in {v.with_model}: 95% upper limit {row['fraction_upper95']:.3f}"
+        lines.append(text)
+    lines.append("  " + VERDICT_RULE)
+    for m in result.models[: min(2, len(result.models))]:
+        lines += ["", f"Model {m.name}: posterior median, 68% and 95% intervals"]
+        for row in m.summary:
+            lines.append(f"  {row['parameter']:<28} {_fmt(row['median']):>9}  "
+                         f"[{_fmt(row['lo68'])}, {_fmt(row['hi68'])}]  [{_fmt(row['lo95'])}, {_fmt(row['hi95'])}]"
+                         f"  95% upper {_fmt(row['upper95'])}")
+        best = ", ".join(f"{k} = {_fmt(v)}" for k, v in m.best.items())
+        lines.append(f"  maximum likelihood: chi2 = {m.best_chi2:.2f} for {m.dof} dof; {best}")
+    if result.priors:
+        lines += ["", "Priors:"] + [f"  {name}: {text}" for name, text in result.priors]
+    lines += ["", "Caveats:"] + [f"  - {c}" for c in result.caveats]
+    if result.notes:
+        lines += ["", "Notes:"] + [f"  - {n}" for n in result.notes]
+    if result.files:
+        lines += ["", "Files written:"] + [f"  {p}" for p in result.files]
+    return "\n".join(lines)
+
+
+def write_fit_report(result: FitResult, folder=None, figures: bool = True) -> FitResult:
+    """Write a fit's report files: the figures (optional), then ``summary.txt``.
+
+    Parameters
+    ----------
+    result : FitResult
+        As returned by :func:`motes.dust.fit.run.run_fit`.
+    folder : path-like, optional
+        Where the files go; default the run folder, ``result.run_dir``.
+    figures : bool
+        Write the colour, corner and evidence figures.
+
+    Returns
+    -------
+    FitResult
+        ``result`` with ``files`` listing the run's tables, ``summary.txt``,
+        the figures and the per-model folders (the list ``summary.txt`` ends
+        with).
+    """
+    folder = Path(folder) if folder is not None else Path(result.run_dir)
+    model_folders = [m.folder for m in result.models]
+    files = [p for p in result.files if p not in model_folders] + [folder / "summary.txt"]
+    summary = files[-1]
+    if figures:
+        from .fit_figures import write_fit_figures
+
+        files += list(write_fit_figures(result, folder))
+    files += model_folders
+    result = dataclasses.replace(result, files=tuple(files))
+    write_text_atomic(summary, format_fit_report(result) + "\n")
+    return result
