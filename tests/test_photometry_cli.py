@@ -71,7 +71,7 @@ def test_exported_names_exist_in_a_fresh_interpreter():
     code = (
         "import importlib\n"
         "for mod in ['motes.photometry', 'motes.photometry.measurements', 'motes.photometry.targets',"
-        " 'motes.photometry.conversions', 'motes.photometry.synthesis', 'motes.photometry.output',"
+        " 'motes.photometry.conversions', 'motes.photometry.synthesis', 'motes.report.photometry_text',"
         " 'motes.photometry.catalogue', 'motes.demo.photometry']:\n"
         "    m = importlib.import_module(mod)\n"
         "    missing = [n for n in m.__all__ if not hasattr(m, n)]\n"

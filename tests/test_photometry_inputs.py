@@ -12,13 +12,12 @@ from motes.cli import main
 from motes.errors import BandError, InputError
 from motes.photometry import (
     calibrate,
-    format_photometry,
     gaussian_band,
     read_band_curve,
     read_target,
     top_hat_band,
-    write_photometry,
 )
+from motes.report.photometry_text import format_photometry, write_photometry
 
 TOML = """\
 [companion]

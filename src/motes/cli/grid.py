@@ -131,6 +131,7 @@ def _run(path: Path, args) -> int:
 def _summarize(store: Path, args, default_folder: Path | None = None) -> int:
     from ..dust.grid.summary import summarize_grid
     from ..report.grid_figures import write_grid_figures
+    from ..report.grid_text import format_grid_verdicts
 
     summary = summarize_grid(store, top=args.top or 10)
     folder = Path(args.output) if (args.output and default_folder is None) else (default_folder or store / "summary")
@@ -144,7 +145,7 @@ def _summarize(store: Path, args, default_folder: Path | None = None) -> int:
         print(f"  #{row['rank']:<3d} Δχ² = {row['delta_chi2']:7.3f}  {mix}; porosity {row['porosity']:.3g}, "
               f"a_min {row['a_min']:.3g} µm, q {row['q']:.3g}, a_max {row['a_max']:.4g} µm")
     print("materials (chi-square profile over everything else):")
-    for line in summary.material_verdicts():
+    for line in format_grid_verdicts(summary):
         print(f"  {line}")
     for note in summary.notes:
         print(f"note: {note}")

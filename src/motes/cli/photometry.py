@@ -39,7 +39,8 @@ def register(subparsers) -> None:
 
 
 def _run(args) -> int:
-    from ..photometry import calibrate, format_photometry, read_target, write_photometry
+    from ..photometry import calibrate, read_target
+    from ..report.photometry_text import format_photometry, write_photometry
 
     result = calibrate(read_target(args.target))
     print(format_photometry(result))

@@ -33,6 +33,7 @@ def run(folder: Path) -> None:
     from ..dust.grid.run import GridRunSettings, run_grid
     from ..dust.grid.summary import summarize_grid
     from ..report.grid_figures import write_grid_figures
+    from ..report.grid_text import format_grid_verdicts
 
     folder = Path(folder)
     spec = read_grid_description(folder / "disk_grid.toml")
@@ -52,7 +53,7 @@ def run(folder: Path) -> None:
         print(f"  #{row['rank']} Δχ² = {row['delta_chi2']:6.2f}: {mix}; porosity {row['porosity']:.2f}, "
               f"a_min {row['a_min']:.1f} um")
     print("Per material (best chi2 over everything else, against its fraction):")
-    for line in summary.material_verdicts():
+    for line in format_grid_verdicts(summary):
         print("  " + line)
     for note in summary.notes:
         print(f"Note: {note}")

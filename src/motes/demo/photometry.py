@@ -27,7 +27,8 @@ def write_inputs(folder: Path) -> None:
 
 def run(folder: Path) -> None:
     """Calibrate the demo target, print the table and write it as ECSV and CSV."""
-    from ..photometry import calibrate, format_photometry, read_target, write_photometry
+    from ..photometry import calibrate, read_target
+    from ..report.photometry_text import format_photometry, write_photometry
 
     folder = Path(folder)
     result = calibrate(read_target(folder / TARGET_FILE))

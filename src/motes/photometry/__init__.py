@@ -2,7 +2,8 @@
 
 Typical use::
 
-    from motes.photometry import read_target, calibrate, write_photometry
+    from motes.photometry import read_target, calibrate
+    from motes.report import format_photometry, write_photometry
     result = calibrate(read_target("companion_target.toml"))
     print(format_photometry(result))
     write_photometry(result, "out/")
@@ -37,7 +38,6 @@ from .conversions import (
 )
 from .measurement_table import INPUT_KINDS, Measurement, parse_flux_unit, read_photometry_table
 from .measurements import BandPhotometry, CalibratedPhotometry, calibrate
-from .output import format_photometry, write_photometry
 from .spectra import blackbody_flux_lambda
 from .synthesis import SynthesisedMagnitude, nearest_reference_band, spectrum_colour, synthesise_host_magnitude
 from .targets import (
@@ -97,8 +97,6 @@ __all__ = [
     "BandPhotometry",
     "CalibratedPhotometry",
     "calibrate",
-    "format_photometry",
-    "write_photometry",
     # spectra and synthesis
     "blackbody_flux_lambda",
     "SynthesisedMagnitude",

@@ -3,7 +3,8 @@
 Fitters and models return results; the command line and the demo call this
 package for every figure and every formatted text. Modules are named for their
 job: ``*_text`` renders a result as text and writes its tables
-(``companion_text``, ``fit_text``, ``optics_text``), ``*_figures`` draws it
+(``photometry_text``, ``companion_text``, ``fit_text``, ``optics_text``,
+``grid_text``), ``*_figures`` draws it
 (``band_figures``, ``companion_figures``, ``optics_figures``, ``fit_figures``,
 ``grid_figures``, ``materials_figures``). Nothing here computes physics.
 
@@ -39,10 +40,15 @@ _EXPORTS = {
     "plot_best_models": "grid_figures",
     "plot_fraction_profiles": "grid_figures",
     "write_grid_figures": "grid_figures",
+    "format_grid_verdicts": "grid_text",
     "plot_optical_constants": "materials_figures",
     "plot_efficiencies": "optics_figures",
     "plot_reflectance": "optics_figures",
     "format_mixture_optics": "optics_text",
+    "format_photometry": "photometry_text",
+    "photometry_file_stem": "photometry_text",
+    "target_slug": "photometry_text",
+    "write_photometry": "photometry_text",
     "write_mixture_outputs": "optics_text",
 }
 

@@ -13,7 +13,7 @@ from pathlib import Path
 from ..companion.results import Classification, Ranking
 from ..errors import InputError
 from ..files import atomic_writes
-from ..photometry.output import target_slug
+from .photometry_text import target_slug
 
 __all__ = ["format_classification", "write_classification", "classification_file_stem"]
 

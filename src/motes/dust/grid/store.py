@@ -23,7 +23,21 @@ Guarantees
   the files it names), one store format and one motes version; opening it for
   anything else is refused, and nothing in it is changed.
 * Only one process writes a store at a time (an advisory lock); readers
-  need no lock because they see finished parts only.
+  need no lock because they see finished parts only. Overwriting a store
+  (``--overwrite``) takes the same lock first, so it is refused while a run
+  writes the store.
+* Overwriting is all-or-nothing: a folder holding anything but the store's
+  own entries (``manifest.json``, ``parts/``, ``summary/``, ``.lock``) is
+  refused before anything is touched; otherwise the old parts and summary are
+  first renamed aside in one step each, the new manifest replaces the old one
+  atomically, and only then is the old content deleted. A run killed at any
+  instant leaves either the old store (without its parts) or the new one,
+  never a mixture.
+* Parts are verified when a run resumes and when a store is summarised:
+  each must be a readable Parquet file of exactly its chunk's keys (and, for
+  parts written with page checksums, pass them). A damaged part is named;
+  a resuming run moves it aside (``parts/chunk-NNNNNNN.parquet.damaged``)
+  and computes the chunk again.
 """
 
 from __future__ import annotations
@@ -54,6 +68,9 @@ _MANIFEST = "manifest.json"
 _PARTS = "parts"
 _LOCK = ".lock"
 _PART_RE = re.compile(r"^chunk-(\d{7})\.parquet$")
+_SUMMARY = "summary"
+_DISCARDED = (".parts-discarded", ".summary-discarded")     # old content being deleted by an overwrite
+_OWN_ENTRIES = {_MANIFEST, _PARTS, _SUMMARY, _LOCK, *_DISCARDED}
 _OLD_TMP_RE = re.compile(r"^\.chunk-\d{7}\.parquet\.tmp$")   # temporary names written by earlier versions
 
 
@@ -69,6 +86,40 @@ def model_column(band: str) -> str:
 
 def _part_name(chunk: int) -> str:
     return f"chunk-{chunk:07d}.parquet"
+
+
+def _take_lock(folder: Path) -> int:
+    """Open and flock ``folder/.lock``; return the descriptor, or refuse when another process holds it."""
+    fd = os.open(folder / _LOCK, os.O_RDWR | os.O_CREAT, 0o644)
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except BlockingIOError:
+        os.close(fd)
+        raise GridError(f"another motes grid run is writing to {folder}; nothing was changed. Wait for it, "
+                        "or stop it, before starting a second one on the same store") from None
+    os.ftruncate(fd, 0)
+    os.write(fd, f"{os.getpid()}\n".encode())
+    return fd
+
+
+def _release_lock(fd: int) -> None:
+    fcntl.flock(fd, fcntl.LOCK_UN)
+    os.close(fd)
+
+
+def _read_manifest(path: Path) -> dict:
+    try:
+        return json.loads((path / _MANIFEST).read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise GridError(f"{path / _MANIFEST} cannot be read ({exc})") from None
+
+
+def _full_manifest(manifest: dict) -> dict:
+    return {
+        **format_stamp(STORE_FORMAT_VERSION, STORE_FORMAT),
+        "created": datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds"),
+        **manifest,
+    }
 
 
 class GridStore:
@@ -105,10 +156,7 @@ class GridStore:
         path = Path(path)
         if not cls.is_store(path):
             raise GridError(f"{path} is not a motes grid store (no {_MANIFEST})")
-        try:
-            manifest = json.loads((path / _MANIFEST).read_text(encoding="utf-8"))
-        except (OSError, ValueError) as exc:
-            raise GridError(f"{path / _MANIFEST} cannot be read ({exc})") from None
+        manifest = _read_manifest(path)
         if manifest.get("format") != STORE_FORMAT:
             raise GridError(f"{path / _MANIFEST} is not a motes grid store manifest")
         problem = stamp_problem(manifest, STORE_FORMAT_VERSION, STORE_FORMAT)
@@ -124,11 +172,7 @@ class GridStore:
         path = Path(path)
         if path.exists() and (not path.is_dir() or any(path.iterdir())):
             raise GridError(f"{path} exists and is not empty; choose a new --output folder")
-        full = {
-            **format_stamp(STORE_FORMAT_VERSION, STORE_FORMAT),
-            "created": datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds"),
-            **manifest,
-        }
+        full = _full_manifest(manifest)
         (path / _PARTS).mkdir(parents=True, exist_ok=True)
         write_bytes_atomic(path / _MANIFEST, json.dumps(full, indent=1, sort_keys=True).encode())
         return cls(path, full)
@@ -143,14 +187,18 @@ class GridStore:
         manifest : dict
             The manifest a new store would get; must contain ``grid_digest``.
         overwrite : bool
-            Delete an existing store of another description first (only a
-            folder that *is* a grid store is ever deleted).
+            Replace an existing store of another description (only a folder
+            that *is* a grid store, holding nothing else, is ever replaced;
+            see the module docstring). The returned store then already holds
+            the writer lock.
 
         Raises
         ------
         motes.errors.GridError
             When the folder holds a store of another description, format or
-            motes version (and ``overwrite`` is false), or holds other files.
+            motes version (and ``overwrite`` is false), or holds other files;
+            when overwriting a store that another process is writing, or one
+            whose folder holds other files. Nothing is changed in these cases.
         """
         path = Path(path)
         if cls.is_store(path):
@@ -165,7 +213,7 @@ class GridStore:
                 raise GridError(
                     f"{path} holds a grid store that does not match: {problem}. Nothing was changed. "
                     "To start fresh, give a new --output folder, or pass --overwrite to delete that store")
-            cls._delete(path)
+            return cls._overwrite(path, manifest)
         elif path.exists() and (not path.is_dir() or any(path.iterdir())):
             raise GridError(f"{path} exists and is not a motes grid store; nothing was changed. "
                             "Choose a new --output folder")
@@ -181,31 +229,61 @@ class GridStore:
                     "and model values may differ between versions")
         return None
 
+    @classmethod
+    def _overwrite(cls, path: Path, manifest: dict) -> "GridStore":
+        """Replace the store at ``path`` by a new, empty one, holding the writer lock throughout."""
+        stray = sorted(p.name for p in path.iterdir() if p.name not in _OWN_ENTRIES)
+        if stray:
+            raise GridError(
+                f"{path} holds files that are not part of its grid store ({', '.join(stray[:5])}"
+                f"{', ...' if len(stray) > 5 else ''}); nothing was changed. Move them out, or give a new "
+                "--output folder, before overwriting")
+        fd = _take_lock(path)
+        try:
+            cls._remove_discarded(path)
+            # one rename each moves the old content aside: the folder is at every instant either the
+            # old store (manifest, no parts) or the new one (new manifest, no parts)
+            for name, aside in zip((_PARTS, _SUMMARY), _DISCARDED):
+                with contextlib.suppress(FileNotFoundError):
+                    os.rename(path / name, path / aside)
+            full = _full_manifest(manifest)
+            write_bytes_atomic(path / _MANIFEST, json.dumps(full, indent=1, sort_keys=True).encode())
+            (path / _PARTS).mkdir(exist_ok=True)
+            cls._remove_discarded(path)
+        except BaseException:
+            _release_lock(fd)
+            raise
+        store = cls(path, full)
+        store._lock_fd = fd
+        return store
+
     @staticmethod
-    def _delete(path: Path) -> None:
-        with contextlib.suppress(FileNotFoundError):
-            (path / _MANIFEST).unlink()
-        shutil.rmtree(path / _PARTS, ignore_errors=True)
-        shutil.rmtree(path / "summary", ignore_errors=True)
-        with contextlib.suppress(FileNotFoundError):
-            (path / _LOCK).unlink()
+    def _remove_discarded(path: Path) -> None:
+        for aside in _DISCARDED:
+            shutil.rmtree(path / aside, ignore_errors=True)
 
     # -- writing -----------------------------------------------------------------------------
     def lock(self) -> None:
         """Take the writer lock; refuse when another process holds it.
 
-        The lock is released when the process ends, however it ends.
+        The lock is released when the process ends, however it ends. Taking
+        it again while held (a store returned by an overwrite) does nothing
+        more. Once locked, the manifest on disk must still be the one this
+        store was opened with (another run may have overwritten it since).
         """
-        fd = os.open(self.path / _LOCK, os.O_RDWR | os.O_CREAT, 0o644)
-        try:
-            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-        except BlockingIOError:
-            os.close(fd)
-            raise GridError(f"another motes grid run is writing to {self.path}; wait for it, "
-                            "or stop it, before starting a second one on the same store") from None
-        os.ftruncate(fd, 0)
-        os.write(fd, f"{os.getpid()}\n".encode())
-        self._lock_fd = fd
+        if self._lock_fd is None:
+            fd = _take_lock(self.path)
+            try:
+                on_disk = _read_manifest(self.path)
+            except GridError:
+                _release_lock(fd)
+                raise
+            if on_disk != self.manifest:
+                _release_lock(fd)
+                raise GridError(f"the store {self.path} was replaced by another motes grid run after it was "
+                                "opened; nothing was written. Run the command again")
+            self._lock_fd = fd
+        self._remove_discarded(self.path)
         # leftovers of a run killed while writing a part
         for tmp in (self.path / _PARTS).iterdir():
             if _OLD_TMP_RE.match(tmp.name) or _PART_RE.match(temporary_target(tmp.name) or ""):
@@ -218,8 +296,7 @@ class GridStore:
 
     def unlock(self) -> None:
         if self._lock_fd is not None:
-            fcntl.flock(self._lock_fd, fcntl.LOCK_UN)
-            os.close(self._lock_fd)
+            _release_lock(self._lock_fd)
             self._lock_fd = None
 
     def __enter__(self):

@@ -108,27 +108,6 @@ class GridSummary:
             written.append(path)
         return written
 
-    def material_verdicts(self) -> list[str]:
-        """One plain-language line per material from its chi2 profile."""
-        lines = []
-        prof = self.fraction_profiles
-        for name in self.materials:
-            rows = prof[prof["material"] == name]
-            f, d = np.asarray(rows["fraction"]), np.asarray(rows["delta_chi2"])
-            ok = f[d <= 1.0]
-            best = f[np.argmin(d)]
-            text = f"{name}: best fraction {best:.3g}"
-            if ok.size:
-                text += f" (Δχ² ≤ 1 for {ok.min():.3g}–{ok.max():.3g})"
-            if f[0] == 0.0:
-                absent = d[0]
-                word = f"disfavoured: > {ABSENCE_DELTA_CHI2:g}" if absent > ABSENCE_DELTA_CHI2 else "allowed"
-                text += f"; leaving it out costs Δχ² = {absent:.2f} ({word})"
-            else:
-                text += "; the grid does not include 0 for this material"
-            lines.append(text)
-        return lines
-
 
 def summarize_grid(store, top: int = 10) -> GridSummary:
     """Summarise a grid store (finished or not) by streaming its parts.

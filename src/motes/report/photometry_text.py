@@ -14,7 +14,7 @@ from pathlib import Path
 
 from ..errors import InputError
 from ..files import atomic_writes
-from .measurements import CalibratedPhotometry
+from ..photometry.measurements import CalibratedPhotometry
 
 __all__ = ["format_photometry", "write_photometry", "photometry_file_stem", "target_slug"]
 
