@@ -59,11 +59,11 @@ def main(argv=None) -> None:
 
     rng = np.random.default_rng(20261201)
     seq = load_dwarf_sequence()
-    bands = ("Cousins.R", "Cousins.I", "Gaia.G", "Gaia.RP", "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1",
-             "WISE.W2")
+    bands = ("cousins_r", "cousins_i", "gaia_g", "gaia_rp", "2mass_j", "2mass_h", "2mass_ks", "wise_w1",
+             "wise_w2")
     mu = 5 * math.log10(18.0 / 10)
     mags = {b: (float(seq.value(b, "M6.5")) + mu + rng.normal(0, 0.03), 0.03) for b in bands}
-    mags["Lp"] = (float(seq.value("WISE.W1", "M6.5")) + mu - 0.05, 0.08)
+    mags["Lp"] = (float(seq.value("wise_w1", "M6.5")) + mu - 0.05, 0.08)
     phot = photometry_from_magnitudes(mags, distance_pc=18.0, distance_pc_error=0.1,
                                       bands={"Lp": top_hat_band("Lp", 3.75, 0.7)})
     settings = ClassifySettings(mode="both", type_range=("M0", "T9"), blackbody="always")

@@ -53,7 +53,7 @@ MODELS = {
     "C": ("silica_amorphous", "methane_ice", "carbon_soot", "iron"),
 }
 #: standard bands plus three approximate top-hat bands on and beside the water-ice feature
-BANDS = ("Cousins.R", "Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "NB3p1", "NB3p3", "Lp")
+BANDS = ("cousins_r", "cousins_i", "2mass_j", "2mass_h", "2mass_ks", "NB3p1", "NB3p3", "Lp")
 TOP_HATS = {"NB3p1": (3.1, 0.1), "NB3p3": (3.3, 0.1), "Lp": (3.78, 0.7)}
 #: Gauss nodes per band of the fast path in the tests and the benchmark (motes' default)
 FAST_NODES = 8

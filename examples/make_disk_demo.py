@@ -59,8 +59,8 @@ MATERIALS = {"silica": "silica_amorphous", "water_ice": "water_ice_crystalline",
              "carbon": "carbon_amorphous", "iron": "iron"}
 
 #: (band, kind) in wavelength order; user bands are defined in USER_BANDS
-BANDS = (("Cousins.R", "ratio"), ("Cousins.I", "ratio"), ("2MASS.J", "ratio"), ("2MASS.H", "delta_mag"),
-         ("2MASS.Ks", "ratio"), ("NB3p1", "ratio"), ("NB3p3", "delta_mag"), ("Lp", "ratio"))
+BANDS = (("cousins_r", "ratio"), ("cousins_i", "ratio"), ("2mass_j", "ratio"), ("2mass_h", "delta_mag"),
+         ("2mass_ks", "ratio"), ("NB3p1", "ratio"), ("NB3p3", "delta_mag"), ("Lp", "ratio"))
 USER_BANDS = {"NB3p1": (3.10, 0.10), "NB3p3": (3.30, 0.10), "Lp": (3.78, 0.70)}   # centre, width [um]
 
 

@@ -51,7 +51,7 @@ rule = "bruggeman"
 angles_deg = [90.0]
 
 [model]
-bands = ["Cousins.R", "Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "NB3p1", "NB3p3", "Lp"]
+bands = ["cousins_r", "cousins_i", "2mass_j", "2mass_h", "2mass_ks", "NB3p1", "NB3p3", "Lp"]
 
 [bands.NB3p1]
 shape = "top-hat"
@@ -74,7 +74,7 @@ porosity = {POROSITY}          # vacuum fraction of the whole grain
 a_min = {A_MIN}             # [um]
 q = {Q}
 a_max = {A_MAX}          # [um]
-reference_band = "2MASS.J"
+reference_band = "2mass_j"
 '''
 
 

@@ -18,8 +18,9 @@ How the truth is made
   Gaussian noise of the quoted errors; its parallax is 1000/d plus noise.
   (A real star is not a blackbody; here it is, so motes' blackbody synthesis of
   the host magnitude in L′ and the narrow band is exact up to noise.)
-* Companion: an invented late-M/early-L dwarf whose absolute magnitudes are in
-  the ``TRUTH`` dict below (the one place to change them). Contrasts are
+* Companion: an invented early-L dwarf whose absolute magnitudes are in
+  the ``TRUTH`` dict below (the one place to change them), taken from motes'
+  built-in dwarf sequence at ``COMPANION_TYPE``. Contrasts are
   (companion - host) apparent magnitudes plus Gaussian noise from a seeded rng.
 
 Run from the repository root::
@@ -37,6 +38,7 @@ from pathlib import Path
 
 import numpy as np
 
+from motes.companion import load_dwarf_sequence
 from motes.photometry import (
     distance_modulus,
     get_band,
@@ -57,35 +59,45 @@ HOST = {
     "parallax_error_mas": 0.035,
 }
 #: Host catalogue bands and their quoted 1-sigma errors [mag].
-HOST_CATALOGUE = {"Gaia.G": 0.003, "2MASS.J": 0.024, "2MASS.H": 0.032, "2MASS.Ks": 0.021}
+HOST_CATALOGUE = {"gaia_g": 0.003, "2mass_j": 0.024, "2mass_h": 0.032, "2mass_ks": 0.021}
 
 #: TRUTH: absolute Vega magnitudes of the invented companion "Velmora b", an
-#: invented L0.5 dwarf. J, H and Ks are motes' own mean dwarf sequence
-#: (src/motes/data/dwarf_sequence.txt) interpolated at L0.5, so `motes classify`
-#: should recover about L0.5; I, NB3p1 and Lp (which the sequence does not
-#: tabulate at L0.5) are invented colours typical of early-L dwarfs relative to
-#: Ks: I - Ks = 4.50, Ks - NB3p1 = 0.35, Ks - Lp = 0.55 (from memory, approximate).
+#: invented L0.5 dwarf. I, J, H and Ks are motes' own mean dwarf sequence
+#: (src/motes/data/dwarf_sequence.txt, the published sequence of Pecaut & Mamajek
+#: 2013 / Mamajek 2024.05.15) interpolated at L0.5 and rounded to 1 mmag, so
+#: `motes classify` should recover about L0.5; NB3p1 and Lp (which the sequence
+#: does not tabulate) are invented colours typical of early-L dwarfs relative to
+#: Ks: Ks - NB3p1 = 0.35, Ks - Lp = 0.55 (from memory, approximate).
 #: Replace this dict (and only this dict) to change the companion.
+COMPANION_TYPE = "L0.5"
+_SEQUENCE = load_dwarf_sequence()
+
+
+def _sequence_mag(band: str) -> float:
+    """Absolute magnitude of the sequence at COMPANION_TYPE, rounded to 1 mmag."""
+    return round(float(_SEQUENCE.value(band, COMPANION_TYPE)), 3)
+
+
 TRUTH = {
-    "Cousins.I": 10.705 + 4.50,
-    "2MASS.J": 11.959,
-    "2MASS.H": 11.220,
-    "2MASS.Ks": 10.705,
-    "NB3p1": 10.705 - 0.35,
-    "Lp": 10.705 - 0.55,
+    "cousins_i": _sequence_mag("cousins_i"),
+    "2mass_j": _sequence_mag("2mass_j"),
+    "2mass_h": _sequence_mag("2mass_h"),
+    "2mass_ks": _sequence_mag("2mass_ks"),
+    "NB3p1": round(_sequence_mag("2mass_ks") - 0.35, 3),
+    "Lp": round(_sequence_mag("2mass_ks") - 0.55, 3),
 }
 
 #: How each companion band is measured: (kind, 1-sigma error). The contrast
-#: errors are in mag; the flux ratio's error is relative. Cousins.I is a
+#: errors are in mag; the flux ratio's error is relative. cousins_i is a
 #: non-detection reported as a 5-sigma flux limit with noise LIMIT_NOISE_MJY.
 MEASURED = {
-    "2MASS.J": ("contrast_mag", 0.06),
-    "2MASS.H": ("contrast_ratio", 0.07),
-    "2MASS.Ks": ("contrast_mag", 0.05),
+    "2mass_j": ("contrast_mag", 0.06),
+    "2mass_h": ("contrast_ratio", 0.07),
+    "2mass_ks": ("contrast_mag", 0.05),
     "NB3p1": ("contrast_mag", 0.15),
     "Lp": ("contrast_mag", 0.08),
 }
-LIMIT_BAND, LIMIT_SIGMA, LIMIT_NOISE_MJY = "Cousins.I", 5.0, 0.09
+LIMIT_BAND, LIMIT_SIGMA, LIMIT_NOISE_MJY = "cousins_i", 5.0, 0.09
 
 #: User bands: an L′-like top-hat 3.4-4.1 um, and a narrow band from a curve file.
 LP = {"centre_um": 3.75, "width_um": 0.7}

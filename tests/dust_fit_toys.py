@@ -13,7 +13,7 @@ import numpy as np
 # per-material spectral shape: ln r = c0 + c1 ln(lambda) + c2 ln(lambda)^2
 SHAPES = {"alpha": (0.0, 0.0, 0.0), "beta": (0.3, 1.0, -0.3), "gamma": (0.5, -0.5, 0.8), "delta": (0.2, 0.3, 0.1)}
 
-TOY_BANDS = ("Cousins.R", "Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "IRAC.I1", "WISE.W2")
+TOY_BANDS = ("cousins_r", "cousins_i", "2mass_j", "2mass_h", "2mass_ks", "wise_w1", "spitzer-irac_3.6", "wise_w2")
 
 
 class _Material:

@@ -22,7 +22,7 @@ from scipy.special import roots_legendre
 from motes.companion import BlackbodySet
 from motes.photometry import get_band, top_hat_band
 
-BANDS = ("2MASS.J", "2MASS.Ks", "WISE.W2", "Johnson.V")
+BANDS = ("2mass_j", "2mass_ks", "wise_w2", "johnson_v")
 
 
 def _quad_mean_flux(band, teff):
@@ -57,7 +57,7 @@ def test_blackbody_colours_match_astropy_and_quad(teff):
 
 
 def test_blackbody_has_no_absolute_scale_without_radius():
-    bands = [get_band("2MASS.J"), get_band("2MASS.Ks")]
+    bands = [get_band("2mass_j"), get_band("2mass_ks")]
     assert not BlackbodySet().grid(bands).absolute.any()
     with_radius = BlackbodySet(radius_rjup=1.0).grid(bands)
     assert with_radius.absolute.all()

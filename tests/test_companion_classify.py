@@ -21,10 +21,9 @@ from motes.report import format_classification, write_classification
 # Nearby dwarfs with 2MASS J, H, Ks [mag], 1-sigma [mag], trigonometric parallax [mas] and
 # spectral type. ALL VALUES FROM MEMORY (2MASS All-Sky Point Source Catalog, Skrutskie et al.
 # 2006; parallaxes from Gaia DR3 where available, else the cited ground-based programmes);
-# uncertainties approximate. Note: the built-in sequence's near-infrared values were
-# cross-checked against several of these objects when it was written, so this test checks the
-# whole pipeline (parallax -> distance -> fit) more than the sequence's independence; the
-# independent check is tests/test_companion_reference.py.
+# uncertainties approximate. Since issue 11 the built-in sequence is the published one
+# (Mamajek 2024.05.15), not cross-checked against these objects; the larger external check,
+# with sources per object, is tests/test_companion_nearby_dwarfs.py.
 FAMOUS = [
     # name,                J       H       Ks      err    plx [mas]  type    type source
     ("Proxima Cen",       5.357,  4.835,  4.384,  0.03,  768.07,   "M5.5"),  # Gaia DR3; Bessell 1991
@@ -43,7 +42,7 @@ FAMOUS = [
 @pytest.mark.parametrize("name, j, h, ks, err, plx, sptype", FAMOUS, ids=[f[0] for f in FAMOUS])
 def test_well_known_dwarfs_are_typed_within_one_subtype(name, j, h, ks, err, plx, sptype):
     d = 1000.0 / plx
-    phot = photometry_from_magnitudes({"2MASS.J": (j, err), "2MASS.H": (h, err), "2MASS.Ks": (ks, err)},
+    phot = photometry_from_magnitudes({"2mass_j": (j, err), "2mass_h": (h, err), "2mass_ks": (ks, err)},
                                       distance_pc=d, distance_pc_error=0.005 * d, name=name)
     result = classify(phot)
     est = result.estimate
@@ -52,7 +51,7 @@ def test_well_known_dwarfs_are_typed_within_one_subtype(name, j, h, ks, err, plx
     assert result.distance_check is not None
 
 
-def _companion(label="L2", bands=("2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1"), d=30.0, err=0.05,
+def _companion(label="L2", bands=("2mass_j", "2mass_h", "2mass_ks", "wise_w1"), d=30.0, err=0.05,
                shift=0.0, extra=None, limits=None):
     seq = load_dwarf_sequence()
     mu = 5 * math.log10(d / 10)
@@ -77,7 +76,7 @@ def test_both_modes_and_the_table():
 
 def test_background_star_is_flagged():
     # an M4 dwarf placed 20x farther than the host: colours say M4, the host distance says otherwise
-    phot = _companion("M4", bands=("Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2"),
+    phot = _companion("M4", bands=("cousins_i", "2mass_j", "2mass_h", "2mass_ks", "wise_w1", "wise_w2"),
                       shift=5 * math.log10(20))
     result = classify(phot)
     assert not result.distance_check.consistent
@@ -99,42 +98,43 @@ def test_blackbody_fallback_is_said_and_uses_all_bands():
 def test_explicit_mapping_is_reported():
     seq = load_dwarf_sequence()
     kp = top_hat_band("NIRC2.Kp", 2.12, 0.35)
-    mags = {b: (float(seq.value(b, "L4")) + 2.0, 0.05) for b in ("2MASS.J", "2MASS.H")}
-    mags["NIRC2.Kp"] = (float(seq.value("2MASS.Ks", "L4")) + 2.0, 0.05)
+    mags = {b: (float(seq.value(b, "L4")) + 2.0, 0.05) for b in ("2mass_j", "2mass_h")}
+    mags["NIRC2.Kp"] = (float(seq.value("2mass_ks", "L4")) + 2.0, 0.05)
     phot = photometry_from_magnitudes(mags, distance_pc=25.1189, bands={"NIRC2.Kp": kp})
     plain = classify(phot, ClassifySettings(blackbody="never"))
     assert "NIRC2.Kp" not in plain.ranking("sequence", "distance").bands
-    mapped = classify(phot, ClassifySettings(band_map=(("NIRC2.Kp", "2MASS.Ks"),)))
+    mapped = classify(phot, ClassifySettings(band_map=(("NIRC2.Kp", "2mass_ks"),)))
     ranking = mapped.ranking("sequence", "distance")
-    assert "NIRC2.Kp" in ranking.bands and "2MASS.Ks" in ranking.template_bands
+    assert "NIRC2.Kp" in ranking.bands and "2mass_ks" in ranking.template_bands
     assert any("explicit user mapping" in n for n in mapped.notes)
     assert abs(mapped.estimate.median - type_code("L4")) < 1.0
 
 
 def test_upper_limit_rules_out_bright_templates():
-    # a T6 seen in J, H only, with a W2 limit far too faint for a T6 (whose W1-W2 is large):
+    # an L6 seen in J, H only, with a W2 limit far too faint for an L6:
     # ranking with the limit must move away from the types the limit excludes
+    # (L6, not T6 as before: the published sequence has no W2 beyond T2, see its header)
     seq = load_dwarf_sequence()
     mu = 5 * math.log10(15 / 10)
-    w2_t6 = float(seq.value("WISE.W2", "T6")) + mu
-    no_limit = classify(_companion("T6", bands=("2MASS.J", "2MASS.H"), d=15.0), ClassifySettings(mode="distance"))
-    limited = classify(_companion("T6", bands=("2MASS.J", "2MASS.H"), d=15.0, limits={"WISE.W2": (w2_t6 - 1.0, 5.0)}),
+    w2_l6 = float(seq.value("wise_w2", "L6")) + mu
+    no_limit = classify(_companion("L6", bands=("2mass_j", "2mass_h"), d=15.0), ClassifySettings(mode="distance"))
+    limited = classify(_companion("L6", bands=("2mass_j", "2mass_h"), d=15.0, limits={"wise_w2": (w2_l6 - 1.0, 5.0)}),
                        ClassifySettings(mode="distance"))
     r = limited.ranking("sequence", "distance")
-    assert "WISE.W2" in r.bands
-    # the limit is 1 mag brighter than T6's W2: consistent with T6, so T6 stays favoured ...
-    assert abs(limited.estimate.median - type_code("T6")) < 1.0
-    # ... while a limit 2 mag fainter than T6's W2 pushes the type away from T6
-    pushed = classify(_companion("T6", bands=("2MASS.J", "2MASS.H"), d=15.0, limits={"WISE.W2": (w2_t6 + 2.0, 5.0)}),
+    assert "wise_w2" in r.bands
+    # the limit is 1 mag brighter than L6's W2: consistent with L6, so L6 stays favoured ...
+    assert abs(limited.estimate.median - type_code("L6")) < 1.0
+    # ... while a limit 2 mag fainter than L6's W2 pushes the type away from L6
+    pushed = classify(_companion("L6", bands=("2mass_j", "2mass_h"), d=15.0, limits={"wise_w2": (w2_l6 + 2.0, 5.0)}),
                       ClassifySettings(mode="distance"))
-    assert abs(pushed.estimate.median - type_code("T6")) > abs(no_limit.estimate.median - type_code("T6"))
+    assert abs(pushed.estimate.median - type_code("L6")) > abs(no_limit.estimate.median - type_code("L6"))
 
 
 def test_extinction_is_marginalised():
     from motes.companion.extinction import extinction_coefficients
     from motes.photometry import get_band
 
-    bands = ("Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2")
+    bands = ("cousins_i", "2mass_j", "2mass_h", "2mass_ks", "wise_w1", "wise_w2")
     coeff = extinction_coefficients([get_band(b) for b in bands])
     seq = load_dwarf_sequence()
     mags = {b: (float(seq.value(b, "M3")) + 3.0 + 2.0 * k, 0.03) for b, k in zip(bands, coeff)}
@@ -158,14 +158,14 @@ def test_write_classification(tmp_path):
 
 # ------------------------------------------------------------------ bad input
 def test_all_upper_limits():
-    phot = photometry_from_magnitudes({}, limits={"2MASS.J": (18.0, 5.0), "2MASS.H": (17.5, 5.0)},
+    phot = photometry_from_magnitudes({}, limits={"2mass_j": (18.0, 5.0), "2mass_h": (17.5, 5.0)},
                                       distance_pc=20.0)
     with pytest.raises(FitError, match="all 2 bands are upper limits"):
         classify(phot)
 
 
 def test_too_few_detections_for_the_free_parameters():
-    phot = photometry_from_magnitudes({"2MASS.J": (15.0, 0.05)}, limits={"2MASS.Ks": (14.0, 5.0)})
+    phot = photometry_from_magnitudes({"2mass_j": (15.0, 0.05)}, limits={"2mass_ks": (14.0, 5.0)})
     with pytest.raises(FitError, match="1 detection"):
         classify(phot, ClassifySettings(mode="colours", blackbody="never"))
 
@@ -180,7 +180,7 @@ def test_bands_no_template_covers():
 
 
 def test_distance_mode_needs_a_distance():
-    phot = photometry_from_magnitudes({"2MASS.J": (15.0, 0.05), "2MASS.Ks": (14.0, 0.05)})
+    phot = photometry_from_magnitudes({"2mass_j": (15.0, 0.05), "2mass_ks": (14.0, 0.05)})
     with pytest.raises(FitError, match="needs the host's distance"):
         classify(phot, ClassifySettings(mode="distance"))
 
@@ -188,9 +188,9 @@ def test_distance_mode_needs_a_distance():
 def test_bad_mapping_and_settings():
     phot = _companion()
     with pytest.raises(InputError, match="not in the photometry"):
-        classify(phot, ClassifySettings(band_map=(("NIRC2.Kp", "2MASS.Ks"),)))
+        classify(phot, ClassifySettings(band_map=(("NIRC2.Kp", "2mass_ks"),)))
     with pytest.raises(InputError, match="tabulates only"):
-        classify(phot, ClassifySettings(band_map=(("WISE.W1", "MKO.Lp"),)))
+        classify(phot, ClassifySettings(band_map=(("wise_w1", "MKO.Lp"),)))
     for bad in (dict(mode="fast"), dict(template_scatter=-0.1), dict(type_range=("T8", "M0")),
                 dict(blackbody="sometimes")):
         with pytest.raises(InputError):
@@ -200,9 +200,27 @@ def test_bad_mapping_and_settings():
 def test_settings_from_toml(tmp_path):
     path = tmp_path / "s.toml"
     path.write_text('[classify]\nmode = "colours"\ntemplate_scatter = 0.2\ntype_range = ["M0", "T9"]\n'
-                    '[classify.band_map]\n"NIRC2.Kp" = "2MASS.Ks"\n')
+                    '[classify.band_map]\n"NIRC2.Kp" = "2mass_ks"\n')
     s = ClassifySettings.from_toml(path)
-    assert s.mode == "colours" and s.band_map == (("NIRC2.Kp", "2MASS.Ks"),) and s.type_range == (60.0, 89.0)
+    assert s.mode == "colours" and s.band_map == (("NIRC2.Kp", "2mass_ks"),) and s.type_range == (60.0, 89.0)
     path.write_text('[classify]\nmodes = "colours"\n')
     with pytest.raises(InputError, match="unknown setting"):
         ClassifySettings.from_toml(path)
+
+
+def test_types_without_a_tabulated_mass_print_no_mass():
+    # the published sequence tabulates masses to L3 only: a T5 gets no mass, and says so
+    result = classify(_companion("T5", bands=("2mass_j", "2mass_h", "2mass_ks"), d=10.0),
+                      ClassifySettings(mode="distance"))
+    assert abs(result.estimate.median - type_code("T5")) < 1.0
+    assert not math.isfinite(result.estimate.mass.median)
+    text = format_classification(result)
+    assert "mass          : no mass" in text
+    assert any(c.startswith("Masses are the mean sequence's") and "assumes a field age" in c for c in result.caveats)
+    assert "assumes a field age" in text
+    # straddling the last tabulated mass (L3): more than 1% of the probability has no mass -> none given
+    straddle = classify(_companion("L3.5", bands=("2mass_j", "2mass_h", "2mass_ks"), d=10.0),
+                        ClassifySettings(mode="distance"))
+    assert not math.isfinite(straddle.estimate.mass.median)
+    early = classify(_companion("M5", bands=("2mass_j", "2mass_h", "2mass_ks"), d=10.0), ClassifySettings(mode="distance"))
+    assert 0.1 < early.estimate.mass.median < 0.2

@@ -40,7 +40,7 @@ def test_classify_options(demo_folder, tmp_path, capsys):
 
 
 @pytest.mark.parametrize("extra, message", [
-    (["--treat-as", "NACO.Ks=2MASS.Ks"], "not in the photometry"),
+    (["--treat-as", "NACO.Ks=2mass_ks"], "not in the photometry"),
     (["--treat-as", "Lp=MKO.Lp"], "tabulates only"),
     (["--types", "T8-M0"], "increasing"),
     (["--fit-extinction", "-1"], "A_V maximum"),
@@ -66,7 +66,7 @@ def test_unlabelled_library_spectrum(demo_folder, tmp_path, capsys):
 
 def test_all_limits_target(demo_folder, tmp_path, capsys):
     (demo_folder / "limits.csv").write_text(
-        "band,kind,value,error,unit,limit_sigma\n2MASS.J,flux,0.1,,mJy,5\n2MASS.H,flux,0.1,,mJy,5\n")
+        "band,kind,value,error,unit,limit_sigma\n2mass_j,flux,0.1,,mJy,5\n2mass_h,flux,0.1,,mJy,5\n")
     toml = (demo_folder / demo_companion.TARGET_FILE).read_text()
     (demo_folder / "limits.toml").write_text(toml.replace('photometry = "companion_photometry.ecsv"',
                                                           'photometry = "limits.csv"'))

@@ -55,11 +55,11 @@ def test_index_and_header_conventions(tmp_path):
     assert len(library) == 5 and library.name == "test dwarfs"
     extra = next(s for s in library.spectra if s.path.endswith("extra.csv"))
     assert extra.label == "L3" and extra.teff == 1800 and extra.calibration == "observed"
-    grid = library.grid([get_band("2MASS.J"), get_band("2MASS.Ks")])
+    grid = library.grid([get_band("2mass_j"), get_band("2mass_ks")])
     ref = library.spectra[0]
     # observed at 20 pc, converted to absolute: equals the same source written at 10 pc
     direct = [float(b.vega_magnitude_of(b.average_flux_lambda(WL, _flux_at_10pc(1800.0))))
-              for b in (get_band("2MASS.J"), get_band("2MASS.Ks"))]
+              for b in (get_band("2mass_j"), get_band("2mass_ks"))]
     np.testing.assert_allclose(grid.magnitudes[list(library.spectra).index(extra)], direct, atol=2e-4)
     assert grid.absolute.all() and ref.absolute
 
@@ -80,7 +80,7 @@ def test_fits_table_and_image(tmp_path):
                         SPTYPE="L1", TEFF=2000.0, CALIB="at_10pc")
     image.writeto(folder / "b.fits")
     library = read_library(folder, cache_dir=None)
-    grid = library.grid([get_band("2MASS.H")])
+    grid = library.grid([get_band("2mass_h")])
     assert grid.magnitudes[0, 0] == pytest.approx(grid.magnitudes[1, 0], abs=2e-3)
     assert np.isnan(library.spectra[0].teff) and library.spectra[1].teff == 2000.0
 
@@ -88,7 +88,7 @@ def test_fits_table_and_image(tmp_path):
 def test_synthetic_magnitudes_are_cached_on_disk(tmp_path, monkeypatch):
     lib = make_library(tmp_path / "lib")
     cache = tmp_path / "cache"
-    bands = [get_band("2MASS.J"), top_hat_band("Lp", 3.75, 0.7)]
+    bands = [get_band("2mass_j"), top_hat_band("Lp", 3.75, 0.7)]
     first = read_library(lib, cache_dir=cache).grid(bands).magnitudes
     stored = json.loads((cache / "synthetic-magnitudes.json").read_text())
     assert stored["format"] == "motes-synthetic-magnitudes" and len(stored["magnitudes"]) == 8
@@ -106,7 +106,7 @@ def test_synthetic_magnitudes_are_cached_on_disk(tmp_path, monkeypatch):
 
 def test_uncovered_band_is_nan_not_an_error(tmp_path):
     library = read_library(make_library(tmp_path / "lib"), cache_dir=None)
-    grid = library.grid([get_band("WISE.W3")])  # 12 um, beyond the 6 um spectra
+    grid = library.grid([get_band("wise_w3")])  # 12 um, beyond the 6 um spectra
     assert np.isnan(grid.magnitudes).all()
 
 
@@ -140,7 +140,7 @@ def test_bad_library_input_names_the_file(tmp_path, problem, match):
 
 def test_library_ranks_the_matching_spectrum_first(tmp_path):
     library = read_library(make_library(tmp_path / "lib"), cache_dir=None)
-    bands = ["2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1"]
+    bands = ["2mass_j", "2mass_h", "2mass_ks", "wise_w1"]
     truth = library.spectra[1]  # "L0", 2200 K
     mags = {b: (float(get_band(b).vega_magnitude_of(get_band(b).average_flux_lambda(WL, truth.flux_lambda)))
                 + 5 * math.log10(25 / 10), 0.05) for b in bands}
@@ -155,7 +155,7 @@ def test_library_ranks_the_matching_spectrum_first(tmp_path):
 
 def test_relative_spectra_take_part_in_colours_only(tmp_path):
     library = read_library(make_library(tmp_path / "lib", calibration="relative"), cache_dir=None)
-    mags = {"2MASS.J": (14.0, 0.05), "2MASS.H": (13.3, 0.05), "2MASS.Ks": (12.8, 0.05)}
+    mags = {"2mass_j": (14.0, 0.05), "2mass_h": (13.3, 0.05), "2mass_ks": (12.8, 0.05)}
     result = classify(photometry_from_magnitudes(mags, distance_pc=30.0), ClassifySettings(mode="both",
                       use_sequence=False), library=library)
     assert result.ranking("library", "distance") is None

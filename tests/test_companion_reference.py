@@ -1,24 +1,28 @@
-"""External check: classify the published mean dwarf sequence with motes' own sequence.
+"""The built-in sequence against its own source: export and interpolation checks.
 
 Reference: ../shared/reference/mean_dwarf_colors_teff.txt, "A Modern Mean Dwarf
 Stellar Color and Effective Temperature Sequence", E. Mamajek, version 2024.05.15
-(much of it Table 5 of Pecaut & Mamajek 2013, ApJS 208, 9). motes' built-in
-sequence was written independently from the literature (values recalled from
-memory, see src/motes/data/dwarf_sequence.txt); nothing is copied from the
-reference file, which is read here only.
+(much of it Table 5 of Pecaut & Mamajek 2013, ApJS 208, 9). Since issue 11 the
+built-in sequence (src/motes/data/dwarf_sequence.txt) IS this table, exported by
+tools/export_dwarf_sequence.py, so nothing here is an external check any more:
 
-For every type from M0 to T8 the reference's absolute magnitudes are fed in as
-a measurement with 0.05 mag errors:
-* distance-known mode (J, H, Ks; the reference's M_H is M_J - (J-H)): the type
-  must come back within 1 subtype for every type (issue 3);
-* colours-only mode, every band the reference gives for that type from U to W2
-  (absolute magnitudes derived from its colours): within 1.5 subtypes for at
-  least 80% of the types; the misses are printed.
+* the bundled file must equal a fresh export of the reference by the tool;
+* the classifier, fed a row's own absolute magnitudes with 0.05 mag errors, must
+  return that row's type (checks the interpolation and the classifier, not the
+  sequence): distance-known mode with J, H, Ks (M_H = M_J - (J-H), M_Ks as
+  tabulated, as the bundled file does) within 1 subtype for every type;
+  colours-only mode with every band the reference gives from U to W2 within 1.5
+  subtypes for at least 80% of the types; the misses are printed.
+
+The external checks are tests/test_companion_nearby_dwarfs.py (real dwarfs).
 """
 
 from __future__ import annotations
 
 import math
+import subprocess
+import sys
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -27,6 +31,33 @@ from motes.companion import ClassifySettings, classify, photometry_from_magnitud
 
 REFERENCE_FILE = "mean_dwarf_colors_teff.txt"
 ERROR = 0.05  # mag, per issue 3
+REPO = Path(__file__).resolve().parents[1]
+TOOL = REPO / "tools" / "export_dwarf_sequence.py"
+BUNDLED = REPO / "src" / "motes" / "data" / "dwarf_sequence.txt"
+FIRST, LAST = type_code("G0"), type_code("T9")  # the bundled range
+
+
+def test_bundled_file_is_a_fresh_export(shared_reference, tmp_path):
+    out = tmp_path / "dwarf_sequence.txt"
+    run = subprocess.run([sys.executable, str(TOOL), "--source", str(shared_reference / REFERENCE_FILE),
+                          "--out", str(out)], capture_output=True, text=True, timeout=120)
+    assert run.returncode == 0, run.stderr
+    assert out.read_text(encoding="utf-8") == BUNDLED.read_text(encoding="utf-8"), (
+        f"{BUNDLED.name} differs from a fresh export: re-run {TOOL.name} (never edit the file by hand)")
+
+
+def test_bundled_rows_are_the_reference_rows(shared_reference):
+    from motes.companion import load_dwarf_sequence
+
+    seq = load_dwarf_sequence()
+    rows = {c: r for c, r in read_reference(shared_reference).items() if FIRST <= c <= LAST}
+    assert list(seq.codes) == sorted(rows), "the bundled sequence must have one row per reference type G0-T9"
+    for i, code in enumerate(seq.codes):
+        mags = absolute_magnitudes(rows[code])
+        for band in ("2mass_j", "2mass_h", "2mass_ks", "gaia_g", "johnson_v"):
+            assert seq.columns[band][i] == pytest.approx(mags.get(band, math.nan), abs=1e-9, nan_ok=True), (
+                type_label(code), band)
+        assert seq.columns["teff"][i] == pytest.approx(rows[code]["Teff"], nan_ok=True)
 
 
 def _value(text):
@@ -72,20 +103,20 @@ def absolute_magnitudes(row):
     """motes band name -> absolute magnitude derived from a reference row (nan if not derivable)."""
     mv, mg, mj, mks = row.get("Mv"), row.get("M_G"), row.get("M_J"), row.get("M_Ks")
     out = {
-        "Johnson.V": mv,
-        "Johnson.B": mv + row.get("B-V", math.nan),
-        "Cousins.R": mv - row.get("V-Rc", math.nan),
-        "Cousins.I": mv - row.get("V-Ic", math.nan),
-        "Gaia.G": mg,
-        "Gaia.RP": mg - row.get("G-Rp", math.nan),
-        "Gaia.BP": mg - row.get("G-Rp", math.nan) + row.get("Bp-Rp", math.nan),
-        "2MASS.J": mj,
-        "2MASS.H": mj - row.get("J-H", math.nan),  # as the reference's notes define M_H
-        "2MASS.Ks": mks,
-        "WISE.W1": mks - row.get("Ks-W1", math.nan),
-        "WISE.W2": mks - row.get("Ks-W1", math.nan) - row.get("W1-W2", math.nan),
+        "johnson_v": mv,
+        "johnson_b": mv + row.get("B-V", math.nan),
+        "cousins_r": mv - row.get("V-Rc", math.nan),
+        "cousins_i": mv - row.get("V-Ic", math.nan),
+        "gaia_g": mg,
+        "gaia_rp": mg - row.get("G-Rp", math.nan),
+        "gaia_bp": mg - row.get("G-Rp", math.nan) + row.get("Bp-Rp", math.nan),
+        "2mass_j": mj,
+        "2mass_h": mj - row.get("J-H", math.nan),  # as the reference's notes define M_H
+        "2mass_ks": mks,
+        "wise_w1": mks - row.get("Ks-W1", math.nan),
+        "wise_w2": mks - row.get("Ks-W1", math.nan) - row.get("W1-W2", math.nan),
     }
-    out["Johnson.U"] = out["Johnson.B"] + row.get("U-B", math.nan)
+    out["johnson_u"] = out["johnson_b"] + row.get("U-B", math.nan)
     return {k: v for k, v in out.items() if v is not None and math.isfinite(v)}
 
 
@@ -106,14 +137,20 @@ def _classify(mags, mode):
 
 
 @pytest.fixture(scope="module")
-def distance_known(reference):
-    """[(type code, classification)] of every M0-T8 row with J, H and Ks, distance-known mode."""
+def distance_known(shared_reference):
+    """[(type code, classification)] of every M0-T9 row with J, H and Ks, distance-known mode.
+
+    (G and K rows are left out: their J, H, Ks change by ~0.1 mag per subtype, well below the
+    0.3 mag luminosity scatter, so J, H, Ks alone cannot type them to 1 subtype; measured on
+    G0-K9: 6 of 22 off by 1.1-2.8 subtypes.)
+    """
     out = []
-    for code, row in sorted(reference.items()):
-        mags = {b: m for b, m in absolute_magnitudes(row).items() if b in ("2MASS.J", "2MASS.H", "2MASS.Ks")}
+    rows = {c: r for c, r in read_reference(shared_reference).items() if type_code("M0") <= c <= LAST}
+    for code, row in sorted(rows.items()):
+        mags = {b: m for b, m in absolute_magnitudes(row).items() if b in ("2mass_j", "2mass_h", "2mass_ks")}
         if len(mags) == 3:
             out.append((code, _classify(mags, "distance")))
-    assert len(out) >= 20, "too few M0-T8 rows with J, H and Ks in the reference"
+    assert len(out) >= 20, "too few M0-T9 rows with J, H and Ks in the reference"
     return out
 
 
@@ -134,9 +171,10 @@ def _types_within_one_subtype(distance_known, pick, title):
 
 
 @pytest.mark.xfail(strict=True, reason=(
-    "known discrepancy, reported to the lead: motes' independently recalled sequence puts the reference's "
-    "M0, L9 and T0 rows 1.05-1.24 subtypes early (39 of 42 types within 1 subtype); the sequence was "
-    "deliberately NOT tuned to this reference. strict: remove this mark when the test passes"))
+    "measured with the published sequence itself (issue 11): 43 of 44 M0-T9 rows within 1 subtype; the "
+    "M0 row comes back K9.0 (68%: K7.4-M0.3): the source's K7-M0 J, H, Ks differ by < 0.4 mag over three "
+    "subtypes (its K8 and K9 rows are linear interpolations, per its notes), so the posterior is flat there "
+    "and its median sits one subtype early. Not tuned. strict: remove this mark when the test passes"))
 def test_distance_known_mode_recovers_every_type(distance_known, capsys):
     with capsys.disabled():
         misses = _types_within_one_subtype(
@@ -159,11 +197,17 @@ def test_distance_known_mode_top_ranked_type_within_one_subtype(distance_known, 
     assert not misses, f"top-ranked types off by more than 1 subtype: {misses}"
 
 
+@pytest.mark.xfail(strict=True, reason=(
+    "measured with the published sequence itself (issue 11): 26 of 42 (62%) within 1.5 subtypes, mid-M "
+    "and T types typed early. The source has no Ks - W1 beyond T2 and no optical magnitudes beyond L5, and "
+    "templates without those bands carry > 1% of the probability from J, H, Ks, so the band-set rule "
+    "compares the mid-M rows in J, H, Ks only, where M0-M7 colours are nearly the same. For the "
+    "colours-only part of issue 11 (a type prior). strict: remove this mark when the test passes"))
 def test_colours_only_mode_recovers_most_types(reference, capsys):
     tested, misses, lines = 0, [], []
     for code, row in sorted(reference.items()):
         mags = absolute_magnitudes(row)
-        if not {"2MASS.J", "2MASS.H", "2MASS.Ks"} <= set(mags):
+        if not {"2mass_j", "2mass_h", "2mass_ks"} <= set(mags):
             continue
         tested += 1
         # shift to an arbitrary distance: the colours-only mode must not care

@@ -20,7 +20,7 @@ import pytest
 
 pytestmark = pytest.mark.slow
 
-BANDS = ("Cousins.R", "Cousins.I", "2MASS.J", "2MASS.H", "2MASS.Ks", "NB3p1", "NB3p3", "Lp")
+BANDS = ("cousins_r", "cousins_i", "2mass_j", "2mass_h", "2mass_ks", "NB3p1", "NB3p3", "Lp")
 USER_BANDS = {"NB3p1": (3.10, 0.10), "NB3p3": (3.30, 0.10), "Lp": (3.78, 0.70)}
 SOURCES = {"silica": "silica_amorphous", "water_ice": "water_ice_crystalline", "carbon": "carbon_amorphous"}
 NOISE = 0.03

@@ -108,7 +108,7 @@ def test_fewer_bands_than_free_parameters(tmp_path, rng):
               'q = { prior = "uniform", lower = 3.0, upper = 4.5 }\n'
               'systematic = { prior = "uniform", lower = 0.0, upper = 0.2 }\n')
     path = write_toy_fit(tmp_path, TRUTH, ("alpha", "beta", "gamma", "delta"), rng=rng, parameters=params,
-                         limits=("WISE.W2",))
+                         limits=("wise_w2",))
     # 4 materials: 3 fractions + 4 others + scale = 8 > 7 detected bands
     with pytest.raises(FitError, match="free parameters.*only 7 detected bands"):
         run_fit(path, FitRunSettings(output=tmp_path / "run"), model_factory=toy_factory, **QUIET)
@@ -128,7 +128,7 @@ def test_fewer_bands_than_free_parameters(tmp_path, rng):
     ('[sampler]\nkind = "fast"\n', InputError, "kind"),
 ])
 def test_bad_descriptions(tmp_path, snippet, error, message):
-    (tmp_path / "d.csv").write_text("band,value,error\n2MASS.J,1e-4,1e-5\n")
+    (tmp_path / "d.csv").write_text("band,value,error\n2mass_j,1e-4,1e-5\n")
     base = '[data]\nphotometry = "d.csv"\n[star]\nteff = 5000.0\n[[materials]]\nname = "alpha"\n' \
            'source = "silica_amorphous"\n[[materials]]\nname = "beta"\nsource = "carbon_amorphous"\n'
     with pytest.raises(error, match=message) as err:
@@ -148,13 +148,13 @@ def test_missing_sections_and_bad_toml(tmp_path):
         parse_fit_description('[star]\nteff = 5000.0\n', base_dir=tmp_path)
     with pytest.raises(InputError, match="not valid TOML"):
         parse_fit_description('[data\n', base_dir=tmp_path)
-    (tmp_path / "d.csv").write_text("band,value,error\n2MASS.J,1e-4,1e-5\n")
+    (tmp_path / "d.csv").write_text("band,value,error\n2mass_j,1e-4,1e-5\n")
     with pytest.raises(InputError, match="materials"):
         parse_fit_description('[data]\nphotometry = "d.csv"\n', base_dir=tmp_path)
 
 
 def test_cli_reports_errors_in_one_line(tmp_path, capsys):
-    (tmp_path / "d.csv").write_text("band,value,error\n2MASS.J,1e-4,1e-5\n")
+    (tmp_path / "d.csv").write_text("band,value,error\n2mass_j,1e-4,1e-5\n")
     path = tmp_path / "fit.toml"
     path.write_text('[data]\nphotometry = "d.csv"\n[star]\nteff = 5000.0\n[[materials]]\nname = "alpha"\n'
                     'source = "silica_amorphous"\n'

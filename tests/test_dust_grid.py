@@ -26,7 +26,7 @@ from motes.dust.grid.summary import summarize_grid
 from motes.errors import GridError, InputError
 from motes.optics.constants import bundled_material_names
 
-BANDS = ("2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2")
+BANDS = ("2mass_j", "2mass_h", "2mass_ks", "wise_w1", "wise_w2")
 
 
 class StandInModel:
@@ -154,7 +154,7 @@ def read_sorted(store):
 @pytest.mark.parametrize("k, step", [(1, "0.5"), (2, "0.1"), (3, "0.05"), (4, "0.05"), (5, "0.25"),
                                      (4, '"1/12"'), (6, "0.1")])
 def test_point_count_is_the_combinatorial_formula_times_the_other_axes(tmp_path, k, step):
-    (tmp_path / "disk.csv").write_text("band,value,error\n2MASS.J,1,0.1\n")
+    (tmp_path / "disk.csv").write_text("band,value,error\n2mass_j,1,0.1\n")
     text = grid_text(materials=[f"m{i}" for i in range(k)], step=step, porosity="[0.0, 0.2, 0.4, 0.6]",
                      a_min="{ start = 0.5, stop = 8.0, num = 5, spacing = \"log\" }", extra="q = [3.0, 3.5]\n")
     spec = parse_grid_description(text, base_dir=tmp_path)
@@ -205,7 +205,7 @@ def test_keys_decode_to_every_point_once_with_exact_fractions(grid_file):
 
 
 def test_fraction_bounds_and_step_parsing(tmp_path):
-    (tmp_path / "disk.csv").write_text("band,value,error\n2MASS.J,1,0.1\n")
+    (tmp_path / "disk.csv").write_text("band,value,error\n2mass_j,1,0.1\n")
     spec = parse_grid_description(grid_text(extra="[grid.fraction_bounds]\nice = [0.0, 0.3]\n"), base_dir=tmp_path)
     pts = spec.points(np.arange(spec.n_points))
     assert pts.fractions[:, 2].max() == pytest.approx(0.3)
@@ -219,7 +219,7 @@ def test_fraction_bounds_and_step_parsing(tmp_path):
 
 # ----------------------------------------------------------------------------- bad input
 def test_zero_points_is_refused(tmp_path):
-    (tmp_path / "disk.csv").write_text("band,value,error\n2MASS.J,1,0.1\n")
+    (tmp_path / "disk.csv").write_text("band,value,error\n2mass_j,1,0.1\n")
     bounds = "[grid.fraction_bounds]\nsilica = [0.0, 0.2]\ncarbon = [0.0, 0.2]\nice = [0.0, 0.2]\n"
     with pytest.raises(GridError, match="no points"):
         parse_grid_description(grid_text(extra=bounds), base_dir=tmp_path)
@@ -301,7 +301,7 @@ def test_store_of_another_description_is_refused_and_left_untouched(grid_file, t
     assert {p.name: p.stat().st_mtime_ns for p in (out / "parts").iterdir()} == before
     assert (out / "manifest.json").read_bytes() == manifest
     # the data are part of the description: changing them is refused as well
-    (tmp_path / "disk.csv").write_text((tmp_path / "disk.csv").read_text().replace("2MASS.J,", "2MASS.J, "))
+    (tmp_path / "disk.csv").write_text((tmp_path / "disk.csv").read_text().replace("2mass_j,", "2mass_j, "))
     with pytest.raises(GridError, match="another grid description"):
         run_grid(read_grid_description(grid_file), out, quiet(workers=1), model_factory=standin_factory)
     # an explicit --overwrite starts afresh

@@ -27,12 +27,12 @@ def test_read_csv_kinds_and_limits(tmp_path):
     path.write_text(
         "# invented disk\n"
         "band,value,error,kind,limit_sigma\n"
-        "2MASS.J,1.0e-4,3e-6,ratio,\n"
-        "2MASS.H,10.0,0.03,delta_mag,\n"
-        "2MASS.Ks,1.2e-4,,ratio,3\n"
-        "WISE.W1,9.5,,delta_mag,5\n")
+        "2mass_j,1.0e-4,3e-6,ratio,\n"
+        "2mass_h,10.0,0.03,delta_mag,\n"
+        "2mass_ks,1.2e-4,,ratio,3\n"
+        "wise_w1,9.5,,delta_mag,5\n")
     obs = read_disk_photometry(path)
-    assert obs.band_names == ("2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1")
+    assert obs.band_names == ("2mass_j", "2mass_h", "2mass_ks", "wise_w1")
     # Delta-mag: r = 10^(-0.4 dm), sigma_r = r ln(10)/2.5 sigma_dm (first-order propagation)
     assert obs.value[1] == pytest.approx(1e-4, rel=1e-12)
     assert obs.error[1] == pytest.approx(1e-4 * math.log(10) / 2.5 * 0.03, rel=1e-12)
@@ -47,7 +47,7 @@ def test_read_csv_kinds_and_limits(tmp_path):
 def test_read_ecsv_upper_limit_column_default_sigma(tmp_path):
     from astropy.table import Table
 
-    t = Table({"band": ["2MASS.J", "2MASS.H"], "value": [1e-4, 2e-4], "error": [1e-5, 0.0],
+    t = Table({"band": ["2mass_j", "2mass_h"], "value": [1e-4, 2e-4], "error": [1e-5, 0.0],
                "upper_limit": ["no", "yes"]})
     path = tmp_path / "disk.ecsv"
     t.write(path, format="ascii.ecsv")
@@ -60,21 +60,21 @@ def test_read_ecsv_upper_limit_column_default_sigma(tmp_path):
 def test_custom_bands(tmp_path):
     nb = top_hat_band("NB3.1", 3.1, 0.1)
     path = tmp_path / "disk.csv"
-    path.write_text("band,value,error\nNB3.1,1e-4,1e-5\n2MASS.J,2e-4,1e-5\n")
+    path.write_text("band,value,error\nNB3.1,1e-4,1e-5\n2mass_j,2e-4,1e-5\n")
     obs = read_disk_photometry(path, custom_bands={"NB3.1": nb})
     assert obs.bands[0] is nb
     assert any("approximate" in n for n in obs.notes)
 
 
 @pytest.mark.parametrize("body, message", [
-    ("band,value\n2MASS.J,1e-4\n", "missing column"),
+    ("band,value\n2mass_j,1e-4\n", "missing column"),
     ("band,value,error\nNoSuchBand,1e-4,1e-5\n", "row 1"),
-    ("band,value,error\n2MASS.J,1e-4,0\n", "error must be > 0"),
-    ("band,value,error\n2MASS.J,abc,1e-5\n", "not a number"),
-    ("band,value,error,kind\n2MASS.J,1e-4,1e-5,flux\n", "kind"),
-    ("band,value,error\n2MASS.J,1e-4,1e-5\n2MASS.J,1e-4,1e-5\n", "already given in row 1"),
-    ("band,value,error,kind\n2MASS.J,1e-4,1e-5,ratio\n2MASS.H,1e-4,1e-5,sb_ratio\n", "mixes"),
-    ("band,value,error,limit_sigma\n2MASS.J,-1e-4,,3\n", "upper limit must be > 0"),
+    ("band,value,error\n2mass_j,1e-4,0\n", "error must be > 0"),
+    ("band,value,error\n2mass_j,abc,1e-5\n", "not a number"),
+    ("band,value,error,kind\n2mass_j,1e-4,1e-5,flux\n", "kind"),
+    ("band,value,error\n2mass_j,1e-4,1e-5\n2mass_j,1e-4,1e-5\n", "already given in row 1"),
+    ("band,value,error,kind\n2mass_j,1e-4,1e-5,ratio\n2mass_h,1e-4,1e-5,sb_ratio\n", "mixes"),
+    ("band,value,error,limit_sigma\n2mass_j,-1e-4,,3\n", "upper limit must be > 0"),
 ])
 def test_bad_tables_name_file_and_row(tmp_path, body, message):
     path = tmp_path / "bad.csv"

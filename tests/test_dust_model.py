@@ -234,7 +234,7 @@ def _doc(**overrides):
         "materials": [{"name": "sil", "source": "silica_amorphous"},
                       {"name": "ice", "source": "water_ice_crystalline"}],
         "geometry": {"angles_deg": [80.0, 100.0], "phase": "mie"},
-        "model": {"bands": ["2MASS.J", "nb"], "method": "exact", "a_max": 500.0},
+        "model": {"bands": ["2mass_j", "nb"], "method": "exact", "a_max": 500.0},
         "bands": {"nb": {"shape": "top-hat", "centre_um": 3.1, "width_um": 0.1}},
     }
     doc.update(overrides)
@@ -245,7 +245,7 @@ def test_description_builds_the_model():
     desc = parse_model_description(_doc(), source="mix.toml")
     assert desc.material_names == ("sil", "ice")
     model = desc.build_model()
-    assert [b.name for b in model.bands] == ["2MASS.J", "nb"]
+    assert [b.name for b in model.bands] == ["2mass_j", "nb"]
     assert model.geometry.angles_deg == (80.0, 100.0)
     assert model.method == "exact" and model.a_max == 500.0
     assert desc.star.has_luminosity_and_mass
@@ -259,8 +259,8 @@ def test_description_builds_the_model():
     ({"materials": [{"name": "sil", "source": "no_such_material"}]}, "[[materials]] #1 source"),
     ({"geometry": {"phase": "isotropic"}}, "[geometry] phase"),
     ({"mixing": {"rule": "bruggeman", "matrix": "sil"}}, "[mixing] matrix"),
-    ({"model": {"bands": ["2MASS.Q"]}}, "[model] bands"),
-    ({"model": {"bands": ["2MASS.J"], "method": "quick"}}, "[model] method"),
+    ({"model": {"bands": ["2mass_q"]}}, "[model] bands"),
+    ({"model": {"bands": ["2mass_j"], "method": "quick"}}, "[model] method"),
 ])
 def test_description_errors_name_the_field(overrides, where):
     with pytest.raises(InputError) as info:

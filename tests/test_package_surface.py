@@ -60,3 +60,4 @@ def test_cli_help_for_every_subcommand(capsys):
             assert exc.code == 0
         out = capsys.readouterr().out
         assert f"usage: motes {name}" in out
+        assert "%%" not in out, f"motes {name} --help prints a literal '%%'"

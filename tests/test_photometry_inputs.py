@@ -29,9 +29,9 @@ name = "Test"
 parallax_mas = [40.0, 0.1]
 teff_k = 4500
 [host.magnitudes]
-"2MASS.J" = [7.0, 0.02]
-"2MASS.Ks" = [6.3, 0.02]
-"SDSS.i" = { mag = 9.2, error = 0.03 }
+"2mass_j" = [7.0, 0.02]
+"2mass_ks" = [6.3, 0.02]
+"sdss_i" = { mag = 9.2, error = 0.03 }
 
 [bands.Lp]
 shape = "top-hat"
@@ -52,12 +52,12 @@ wavelength_unit = "nm"
 CSV = """\
 # comment lines are allowed
 band,kind,value,error,unit,limit_sigma,note
-2MASS.J,contrast_mag,8.1,0.05,,,
-2mass.ks,contrast_ratio,0.001,0.0001,,,lower-case name
+2mass_j,contrast_mag,8.1,0.05,,,
+2MASS_Ks,contrast_ratio,0.001,0.0001,,,lower-case name
 Lp,contrast_mag,6.0,0.1,,,
 N31,contrast_mag,6.5,0.2,,,
 Kinst,contrast_mag,7.2,0.06,,,
-WISE.W2,flux,0.3,,mJy,5,
+wise_w2,flux,0.3,,mJy,5,
 """
 
 CURVE = "# wavelength_unit: nm\n" + "\n".join(
@@ -77,15 +77,15 @@ def _write(folder: Path, toml=TOML, table=CSV, table_name="phot.csv", curve=CURV
 def test_documented_format_reads_and_calibrates(tmp_path):
     target = read_target(_write(tmp_path))
     assert target.name == "Test b"
-    assert [m.band.name for m in target.measurements] == ["2MASS.J", "2MASS.Ks", "Lp", "N31", "Kinst", "WISE.W2"]
+    assert [m.band.name for m in target.measurements] == ["2mass_j", "2mass_ks", "Lp", "N31", "Kinst", "wise_w2"]
     assert target.host.magnitude_in(target.measurements[1].band).magnitude == 7.0 - 0.7
     assert target.bands["Kinst"].wavelength[0] == pytest.approx(1.95)  # nm -> um
-    sdss = [m for m in target.host.magnitudes if m.band.name == "SDSS.i"][0]
+    sdss = [m for m in target.host.magnitudes if m.band.name == "sdss_i"][0]
     assert sdss.system == "AB"  # SDSS magnitudes default to the band's catalogue system
     res = calibrate(target)
     synthesised = {r.band.name: r.host_synthesised for r in res.rows}
-    assert synthesised == {"2MASS.J": False, "2MASS.Ks": False, "Lp": True, "N31": True, "Kinst": True,
-                           "WISE.W2": False}
+    assert synthesised == {"2mass_j": False, "2mass_ks": False, "Lp": True, "N31": True, "Kinst": True,
+                           "wise_w2": False}
     pivots = [r.band.pivot_wavelength for r in res.rows]
     assert pivots == sorted(pivots)
     text = format_photometry(res)
@@ -102,7 +102,7 @@ def test_ecsv_table_reads_like_csv(tmp_path):
     from astropy.table import MaskedColumn, Table
 
     t = Table()
-    t["band"] = ["2MASS.J", "WISE.W2"]
+    t["band"] = ["2mass_j", "wise_w2"]
     t["kind"] = ["contrast_mag", "flux"]
     t["value"] = [8.1, 0.3]
     t["error"] = MaskedColumn([0.05, 0.0], mask=[False, True])
@@ -164,36 +164,36 @@ def _replace(text, old, new):
 
 BAD_CASES = {
     # name: (toml, table, expected file name, expected where/what fragments)
-    "unknown band": (TOML, _replace(CSV, "2MASS.J,", "2MASS.JJ,"), "phot.csv", ["row 1", "did you mean", "2MASS.J"]),
+    "unknown band": (TOML, _replace(CSV, "2mass_j,", "2mass_jj,"), "phot.csv", ["row 1", "did you mean", "2mass_j"]),
     "missing error": (TOML, _replace(CSV, "8.1,0.05", "8.1,"), "phot.csv", ["row 1", "uncertainty"]),
     "negative error": (TOML, _replace(CSV, "8.1,0.05", "8.1,-0.05"), "phot.csv", ["row 1", "positive"]),
     "nan value": (TOML, _replace(CSV, "8.1,0.05", "nan,0.05"), "phot.csv", ["row 1", "NaN"]),
     "nan error": (TOML, _replace(CSV, "8.1,0.05", "8.1,NaN"), "phot.csv", ["row 1", "NaN"]),
     "non-numeric value": (TOML, _replace(CSV, "8.1,0.05", "eight,0.05"), "phot.csv", ["row 1", "expected a number"]),
-    "duplicate band": (TOML, CSV + "2MASS.J,vega_mag,15,0.1,,,\n", "phot.csv", ["row 7", "duplicate band"]),
+    "duplicate band": (TOML, CSV + "2mass_j,vega_mag,15,0.1,,,\n", "phot.csv", ["row 7", "duplicate band"]),
     "unit does not parse": (TOML, _replace(CSV, ",mJy,", ",mJyy,"), "phot.csv", ["row 6", "does not parse"]),
     "unit not a flux": (TOML, _replace(CSV, ",mJy,", ",km,"), "phot.csv", ["row 6", "not a flux density"]),
     "flux without unit": (TOML, _replace(CSV, ",mJy,", ",,"), "phot.csv", ["row 6", "needs a unit"]),
     "unknown kind": (TOML, _replace(CSV, "contrast_mag,8.1", "contrast,8.1"), "phot.csv", ["row 1", "kind must be"]),
     "limit with error": (TOML, _replace(CSV, "0.3,,mJy,5", "0.3,0.1,mJy,5"), "phot.csv", ["row 6", "no error"]),
     "bad limit sigma": (TOML, _replace(CSV, "0.3,,mJy,5", "0.3,,mJy,-3"), "phot.csv", ["row 6", "limit_sigma"]),
-    "negative flux": (TOML, CSV + "WISE.W1,flux,-0.2,0.1,mJy,,\n", "phot.csv", ["row 7", "flux must be > 0"]),
+    "negative flux": (TOML, CSV + "wise_w1,flux,-0.2,0.1,mJy,,\n", "phot.csv", ["row 7", "flux must be > 0"]),
     "zero ratio": (TOML, _replace(CSV, "0.001,0.0001", "0,0.0001"), "phot.csv", ["row 2", "must be > 0"]),
     "unit on a magnitude": (TOML, _replace(CSV, "8.1,0.05,,", "8.1,0.05,Jy,"), "phot.csv", ["row 1", "only flux rows"]),
     "too many cells": (TOML, _replace(CSV, "8.1,0.05,,,", "8.1,0.05,,,,x"), "phot.csv", ["row 1", "cells"]),
-    "missing column": (TOML, "band,kind,value\n2MASS.J,vega_mag,15.0\n", "phot.csv", ["header", "missing column(s) error"]),
+    "missing column": (TOML, "band,kind,value\n2mass_j,vega_mag,15.0\n", "phot.csv", ["header", "missing column(s) error"]),
     "empty table": (TOML, "band,kind,value,error\n", "phot.csv", ["no rows"]),
     "contrast without host magnitude": (
         _replace(TOML, "teff_k = 4500\n", ""), CSV, "phot.csv", ["row 3", "Lp", "teff_k"]),
     "contrast with no host magnitudes at all": (
-        _replace(_replace(TOML, "teff_k = 4500\n", ""), '"2MASS.J" = [7.0, 0.02]\n', ""),
-        CSV, "phot.csv", ["row 1", "2MASS.J"]),
+        _replace(_replace(TOML, "teff_k = 4500\n", ""), '"2mass_j" = [7.0, 0.02]\n', ""),
+        CSV, "phot.csv", ["row 1", "2mass_j"]),
     "parallax zero": (_replace(TOML, "[40.0, 0.1]", "[0.0, 0.1]"), CSV, "target.toml", ["[host] parallax_mas", "> 0"]),
     "parallax negative": (_replace(TOML, "[40.0, 0.1]", "[-1.5, 0.4]"), CSV, "target.toml", ["[host] parallax_mas"]),
     "parallax without error": (_replace(TOML, "[40.0, 0.1]", "40.0"), CSV, "target.toml", ["[host] parallax_mas"]),
-    "negative host error": (_replace(TOML, "[7.0, 0.02]", "[7.0, -0.02]"), CSV, "target.toml", ["2MASS.J", "> 0"]),
-    "unknown host band": (_replace(TOML, '"2MASS.J" =', '"2MASS.Q" ='), CSV, "target.toml", ["[host.magnitudes]", "2MASS.Q"]),
-    "duplicate host band": (_replace(TOML, '"2MASS.Ks" = [6.3, 0.02]', '"2MASS.Ks" = [6.3, 0.02]\n"2mass.ks" = [6.3, 0.02]'),
+    "negative host error": (_replace(TOML, "[7.0, 0.02]", "[7.0, -0.02]"), CSV, "target.toml", ["2mass_j", "> 0"]),
+    "unknown host band": (_replace(TOML, '"2mass_j" =', '"2mass_q" ='), CSV, "target.toml", ["[host.magnitudes]", "2mass_q"]),
+    "duplicate host band": (_replace(TOML, '"2mass_ks" = [6.3, 0.02]', '"2mass_ks" = [6.3, 0.02]\n"2MASS_KS" = [6.3, 0.02]'),
                             CSV, "target.toml", ["duplicate band"]),
     "malformed toml": (_replace(TOML, 'name = "Test b"', 'name = "Test b'), CSV, "target.toml", ["malformed TOML"]),
     "typo in a key": (_replace(TOML, "parallax_mas", "paralax_mas"), CSV, "target.toml", ["[host]", "paralax_mas"]),
@@ -205,8 +205,8 @@ BAD_CASES = {
     "missing curve file": (_replace(TOML, "kinst.txt", "nope.txt"), CSV, "target.toml", ["[bands.Kinst] file", "not found"]),
     "bad counting": (TOML + '[settings]\ncounting = "bolometric"\n', CSV, "target.toml", ["[settings] counting"]),
     "reference band without host magnitude": (
-        TOML + '[settings]\nsynthesis_reference_band = "2MASS.H"\n', CSV, "target.toml",
-        ["synthesis_reference_band", "2MASS.H"]),
+        TOML + '[settings]\nsynthesis_reference_band = "2mass_h"\n', CSV, "target.toml",
+        ["synthesis_reference_band", "2mass_h"]),
 }
 
 

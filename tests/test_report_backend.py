@@ -37,7 +37,7 @@ from motes.photometry import get_band
 from motes.report import plot_band, plot_efficiencies, plot_optical_constants, plot_reflectance
 
 out = Path(sys.argv[1])
-bands = [get_band("2MASS.J"), get_band("2MASS.Ks")]
+bands = [get_band("2mass_j"), get_band("2mass_ks")]
 lam = np.geomspace(1.0, 2.5, 20)
 radius = np.geomspace(0.1, 10.0, 30)
 q = np.ones((2, radius.size))

@@ -40,6 +40,7 @@ NOT_CONVERTED = {
     "motes.companion.results.RankedTemplate": "a row of a classification result",
     "motes.companion.results.DistanceCheck": "result record of classify",
     "motes.companion.templates.TemplateGrid": "built by the template sources from their tables",
+    "motes.companion.evolution.MassAtAge": "result record of mass_at_age",
     "motes.photometry.measurements.BandPhotometry": "result record of calibrate",
     "motes.photometry.measurements.CalibratedPhotometry": "result record of calibrate",
 }

@@ -16,7 +16,19 @@ __all__ = [
     "ModelError",
     "FitError",
     "GridError",
+    "quoted_names",
 ]
+
+
+def quoted_names(names) -> str:
+    """Names for a message in plain words: ``'x', 'y'`` (never a Python list).
+
+    Examples
+    --------
+    >>> print(quoted_names(["ice", "carbon"]))
+    'ice', 'carbon'
+    """
+    return ", ".join(f"'{n}'" for n in names)
 
 
 class MotesError(Exception):
@@ -34,7 +46,7 @@ class InputError(MotesError, ValueError):
         The file in which the problem was found.
     where : str, optional
         The line, row or field inside that file (e.g. ``"line 12"``,
-        ``"row 3 (band 'WISE.W1')"``, ``"[host] parallax"``).
+        ``"row 3 (band 'wise_w1')"``, ``"[host] parallax"``).
     """
 
     def __init__(self, message: str, path=None, where: str | None = None):

@@ -38,6 +38,8 @@ __all__ = [
     "write_text_atomic",
     "write_json_atomic",
     "temporary_target",
+    "default_output_folder",
+    "check_output_folder",
     "cache_directory",
     "format_stamp",
     "stamp_problem",
@@ -194,6 +196,69 @@ def write_text_atomic(path, text: str, encoding: str = "utf-8") -> Path:
 def write_json_atomic(path, data, **dumps_options) -> Path:
     """Write ``data`` as JSON to ``path`` atomically; ``dumps_options`` go to :func:`json.dumps`."""
     return write_text_atomic(path, json.dumps(data, **dumps_options))
+
+
+def default_output_folder(source, command: str) -> Path:
+    """The one default output folder of a command: ``./<input stem>_<command>``.
+
+    Every command that writes files and is given no ``--output`` writes into
+    a folder named after its input file and the command, in the current folder
+    (not beside the input: the input may sit in a shared or read-only place,
+    and outputs belong where the user is working). The path is relative to the
+    current folder, so messages show it as short as the user would type it.
+
+    Parameters
+    ----------
+    source : str or os.PathLike
+        The input file (its stem names the folder); ``"<string>"`` (a
+        description given as text) gives ``motes_<command>``.
+    command : str
+        The command word, e.g. ``"optics"``.
+
+    Returns
+    -------
+    pathlib.Path
+
+    Examples
+    --------
+    >>> print(default_output_folder("data/disk_fit.toml", "fit").as_posix())
+    disk_fit_fit
+    """
+    stem = Path(source).stem if str(source) != "<string>" else "motes"
+    return Path(f"{stem}_{command}")
+
+
+def check_output_folder(folder, where: str | None = None) -> Path:
+    """Refuse, before any work, an output folder that cannot be created or written.
+
+    Parameters
+    ----------
+    folder : str or os.PathLike
+        The folder outputs will go to (it may not exist yet).
+    where : str, optional
+        The option or field that named it (e.g. ``"--out"``), for the message.
+
+    Returns
+    -------
+    pathlib.Path
+
+    Raises
+    ------
+    motes.errors.InputError
+        When ``folder`` (or the part of its path that exists) is a file, or
+        the nearest existing folder is not writable.
+    """
+    from .errors import InputError
+
+    folder = Path(folder)
+    existing = folder
+    while not existing.exists() and existing != existing.parent:
+        existing = existing.parent
+    if not existing.is_dir():
+        raise InputError(f"{existing} is a file, not a folder; give a folder for the outputs", folder, where)
+    if not os.access(existing, os.W_OK | os.X_OK):
+        raise InputError(f"the folder {existing} is not writable; give another output folder", folder, where)
+    return folder
 
 
 def cache_directory() -> Path:

@@ -53,12 +53,16 @@ __all__ = [
     "BoundaryQuantity",
     "BOUNDARY_QUANTITIES",
     "SCATTERING_ANGLE_RAD",
+    "STAR_TEFF",
+    "REFRACTIVE_N",
+    "EXTINCTION_K",
+    "MAGNITUDE",
     "accepts_quantities",
     "quantity_arguments",
     "convert_arguments",
 ]
 
-_ROLES = ("composition", "mixture", "geometry", "noise", "scale")
+_ROLES = ("composition", "mixture", "geometry", "noise", "scale", "star", "material", "photometry")
 
 
 @dataclass(frozen=True)
@@ -139,8 +143,11 @@ PARAMETERS: MappingProxyType = MappingProxyType({p.name: p for p in (
               "vacuum fraction of the whole grain"),
     Parameter("a_min", "mixture", WAVELENGTH_UNIT, 0.0, _INF, True, True,
               "smallest grain radius"),
-    # q = 3.5: collisional cascade (Dohnanyi 1969, JGR 74, 2531)
-    Parameter("q", "mixture", _NONE, -_INF, _INF, True, True,
+    # q = 3.5: collisional cascade (Dohnanyi 1969, JGR 74, 2531). Allowed [0, 10]: slopes fitted to
+    # debris disks lie near 3-4 and steeper than 10 would put all the cross-section in the smallest
+    # grain, flatter than 0 in the largest (a wide margin around what is fitted; common practice, no
+    # source); far outside, a^-q over- or underflows and the model is NaN.
+    Parameter("q", "mixture", _NONE, 0.0, 10.0, False, False,
               "slope of the size distribution, dn/da ∝ a^-q", default=3.5),
     Parameter("a_max", "mixture", WAVELENGTH_UNIT, 0.0, _INF, True, True,
               "largest grain radius", default=1000.0),
@@ -151,6 +158,24 @@ PARAMETERS: MappingProxyType = MappingProxyType({p.name: p for p in (
     Parameter("scale", "scale", _NONE, 0.0, _INF, False, True,
               "flux scale (dust amount and geometry) multiplying the model's ratios"),
 )})
+
+#: Effective temperature of a star (a photometry target's host, the star lighting a disk). 500-100000 K
+#: spans the coolest brown dwarfs to the hottest O stars and white dwarfs (common practice, no source);
+#: outside it the Planck function over- or underflows in the optical and near-infrared bands.
+STAR_TEFF = Parameter("teff", "star", u.K, 500.0, 100000.0, False, False, "effective temperature of a star")
+
+#: Real and imaginary parts of a material's refractive index m = n + ik in an n,k file. Up to 1e4:
+#: metals reach a few hundred at millimetre wavelengths (Drude conductivity), dielectrics stay below
+#: ~10 (common practice, no source); far beyond, the Mie series and the mixing rules lose all accuracy.
+REFRACTIVE_N = Parameter("n", "material", _NONE, 0.0, 1e4, True, False, "real part of the refractive index")
+EXTINCTION_K = Parameter("k", "material", _NONE, 0.0, 1e4, False, False, "imaginary part of the refractive index")
+
+#: A magnitude or magnitude contrast in a photometry table. |m| <= 50: the Sun is -26.7 mag, the
+#: faintest sources measured ~31 mag, and a 50 mag contrast is a flux ratio of 1e-20, far beyond any
+#: instrument (common practice, no source); a larger value is a typing error, and 10^(-0.4 m)
+#: would underflow to a zero flux.
+MAGNITUDE = Parameter("magnitude", "photometry", _NONE, -50.0, 50.0, False, False,
+                      "a magnitude or magnitude contrast [mag]")
 
 #: Per-mixture parameters: ``flux_ratio(fractions, porosity, a_min, q, a_max)`` and the grid axes, in order.
 MIXTURE_PARAMETERS: tuple[str, ...] = tuple(n for n, p in PARAMETERS.items() if p.role == "mixture")
@@ -244,6 +269,13 @@ BOUNDARY_QUANTITIES: MappingProxyType = MappingProxyType({
     **dict.fromkeys(("flux_jy", "zero_point_jy", "mean_fnu", "flux_nu"), _FNU),
     **dict.fromkeys(("flux_lambda", "mean_flux_lambda"), _FLAM),
     "radius_rjup": BoundaryQuantity(u.R_jup, "radius", u.R_earth),
+    **dict.fromkeys(("ra_deg", "dec_deg", "pa_deg", "pa_error_deg", "north_angle_error_deg"),
+                    BoundaryQuantity(u.deg, "sky angle", u.rad)),
+    **dict.fromkeys(("pm_ra_mas_yr", "pm_ra_mas_yr_error", "pm_dec_mas_yr", "pm_dec_mas_yr_error",
+                     "orbital_tolerance_mas_yr", "background_pm_sigma_mas_yr"),
+                    BoundaryQuantity(u.mas / u.yr, "proper motion", u.arcsec / u.yr)),
+    **dict.fromkeys(("separation_mas", "separation_mas_error"),
+                    BoundaryQuantity(u.mas, "angular offset", u.arcsec)),
 })
 #: Scattering angles of the Mie functions (``theta``; not a registered name: ``theta`` is also a parameter vector).
 SCATTERING_ANGLE_RAD = BoundaryQuantity(u.rad, "scattering angle", u.deg)

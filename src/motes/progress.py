@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import sys
 
-__all__ = ["LOG_INTERVAL", "progress_bar"]
+__all__ = ["LOG_INTERVAL", "progress_bar", "remaining_estimate"]
 
 #: Seconds between progress lines when stderr is not a terminal.
 LOG_INTERVAL = 60.0
@@ -64,3 +64,53 @@ def progress_bar(**kwargs):
         kwargs["position"] = 0
         kwargs["file"] = _LogStream(kwargs["file"])
     return tqdm(**kwargs)
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 5400:
+        return f"{seconds / 60:.0f} min"
+    return f"{seconds / 3600:.1f} h"
+
+
+def remaining_estimate(timed, calls_per_job, n_left: int, unit: str = "model") -> str | None:
+    """A labelled estimate of the time the jobs left will take, or None.
+
+    The rate is that of the jobs run from start to end in this session
+    (likelihood calls per second of wall time, everything included); the
+    work per job is the mean of the calls of every finished job. Jobs differ
+    (a model with more free parameters needs more calls), so the line says it
+    is an estimate and what it rests on.
+
+    Parameters
+    ----------
+    timed : sequence of (int, float)
+        (likelihood calls, wall seconds) of each job run whole in this session.
+    calls_per_job : sequence of int
+        Likelihood calls of every finished job (including earlier sessions').
+    n_left : int
+        Jobs not finished yet.
+    unit : str
+        What a job is called in the line.
+
+    Returns
+    -------
+    str or None
+        None when nothing is left or no job was timed yet.
+
+    Examples
+    --------
+    >>> print(remaining_estimate([(6000, 60.0)], [6000, 4000], 3))
+    estimate: about 2 min for the 3 models left (5,000 likelihood calls per model so far, at 100 calls/s; models differ, so this is a rough guide)
+    """
+    calls = sum(c for c, _ in timed)
+    seconds = sum(s for _, s in timed)
+    if n_left <= 0 or not timed or seconds <= 0 or calls <= 0 or not calls_per_job:
+        return None
+    rate = calls / seconds
+    per_job = sum(calls_per_job) / len(calls_per_job)
+    plural = unit if n_left == 1 else unit + "s"
+    return (f"estimate: about {_duration(n_left * per_job / rate)} for the {n_left} {plural} left "
+            f"({per_job:,.0f} likelihood calls per {unit} so far, at {rate:,.0f} calls/s; "
+            f"{unit}s differ, so this is a rough guide)")

@@ -19,7 +19,7 @@ from ..errors import MotesError
 __all__ = ["main", "build_parser"]
 
 # Subcommand modules, in the order `motes --help` lists them.
-_COMMANDS = ("demo", "bands", "photometry", "classify", "materials", "optics", "fit", "grid")
+_COMMANDS = ("demo", "bands", "photometry", "classify", "motion", "materials", "optics", "fit", "grid")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -64,6 +64,13 @@ def main(argv=None) -> int:
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
         return 0
+    except OSError as exc:
+        # the system refused a read or write (disk full, no permission, ...): every file motes writes
+        # goes through motes.files, so no half-written file is left and finished results are kept
+        where = f" ({exc.filename})" if exc.filename else ""
+        print(f"motes {args.command}: error: {exc.strerror or exc}{where}; files already finished are kept, "
+              "nothing half-written is left: fix the cause and run the same command again", file=sys.stderr)
+        return 2
 
 
 if __name__ == "__main__":  # pragma: no cover

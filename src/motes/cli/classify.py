@@ -12,14 +12,16 @@ examples:
         distance-known and colours-only rankings against the built-in dwarf sequence
   motes classify companion_target.toml --fit colours --output run1/
         colours only (ignore the parallax), results into run1/
-  motes classify target.toml --treat-as NIRC2.Kp=2MASS.Ks --treat-as NIRC2.J=2MASS.J
+  motes classify target.toml --treat-as NIRC2.Kp=2mass_ks --treat-as NIRC2.J=2mass_j
         compare instrument bands with the sequence's standard bands (said in the output)
   motes classify target.toml --library my_spectra/ --fit-extinction
         also rank a folder of labelled spectra; marginalise A_V (uniform 0-5 mag)
+  motes classify target.toml --evolution models.csv --age "0.1:0.02 Gyr"
+        also the mass (Teff, L) at that age from your evolutionary-model table
   motes classify target.toml --settings classify.toml
         settings from the [classify] table of a TOML file (flags override it)
 
-outputs (in --output, default the current folder): <target>_classification.ecsv (all
+outputs (in --output, default ./<target>_classify): <target>_classification.ecsv (all
 ranked rows, summary in the header), <target>_classification_sed.png (measured SED with
 the three best templates), <target>_classification_types.png (probability vs type).
 The target file format is described in docs/photometry.md; the method, the modes and the
@@ -30,8 +32,13 @@ spectral-library folder convention in docs/companion.md.
 def _pair(text: str) -> tuple[str, str]:
     observed, sep, standard = text.partition("=")
     if not sep or not observed.strip() or not standard.strip():
-        raise argparse.ArgumentTypeError(f"expected OBSERVED=STANDARD, e.g. NIRC2.Kp=2MASS.Ks, got {text!r}")
+        raise argparse.ArgumentTypeError(f"expected OBSERVED=STANDARD, e.g. NIRC2.Kp=2mass_ks, got {text!r}")
     return observed.strip(), standard.strip()
+
+
+def _mode(text: str) -> str:
+    """``--fit`` word; both spellings of the trade, "colours" and "colors", mean the same."""
+    return "colours" if text.lower() == "colors" else text.lower()
 
 
 def _range(text: str) -> tuple[str, str]:
@@ -41,6 +48,22 @@ def _range(text: str) -> tuple[str, str]:
     if not sep or not lo.strip() or not hi.strip():
         raise argparse.ArgumentTypeError(f"expected FIRST-LAST, e.g. M0-T9, got {text!r}")
     return lo.strip(), hi.strip()
+
+
+def _age(text: str) -> tuple[float, float]:
+    """``"0.1:0.02 Gyr"`` -> (0.1, 0.02) in Gyr."""
+    import re
+
+    import astropy.units as u
+
+    match = re.fullmatch(r"\s*([0-9.eE+-]+)\s*:\s*([0-9.eE+-]+)\s*([A-Za-z]+)\s*", text)
+    try:
+        scale = u.Unit(match.group(3)).to(u.Gyr) if match else None
+        age, error = float(match.group(1)) * scale, float(match.group(2)) * scale
+    except (AttributeError, TypeError, ValueError, u.UnitsError):
+        raise argparse.ArgumentTypeError(f"expected AGE:ERROR UNIT, e.g. '0.1:0.02 Gyr' or '40:10 Myr', "
+                                         f"got {text!r}") from None
+    return age, error
 
 
 def register(subparsers) -> None:
@@ -55,16 +78,16 @@ def register(subparsers) -> None:
             "Gaussian prior of the distance-modulus error (plus the templates' luminosity scatter); in "
             "the colours-only mode it is free. Upper limits enter through the probability of a "
             "non-detection, never as detections. Prints the ranked tables, a continuous type estimate "
-            "with its 68%% interval, Teff and mass, a check of the colours-only distance against the "
+            "with its 68% interval, Teff and mass, a check of the colours-only distance against the "
             "host's, flags and caveats; writes an ECSV table and two figures."
         ),
         epilog=_EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("target", metavar="TARGET", help="target description (TOML) with its photometry table")
-    p.add_argument("--fit", choices=("auto", "distance", "colours", "both"), default=None,
-                   help="distance: use the host distance; colours: offset free; both; auto (default) = both "
-                        "when a distance is known, else colours")
+    p.add_argument("--fit", choices=("auto", "distance", "colours", "both"), default=None, type=_mode,
+                   help="distance: use the host distance; colours (or colors): offset free; both; auto "
+                        "(default) = both when a distance is known, else colours")
     p.add_argument("--library", metavar="DIR", help="folder of labelled spectra to rank as well")
     p.add_argument("--treat-as", metavar="OBS=STD", action="append", type=_pair, default=None,
                    help="compare observed band OBS with the sequence's standard band STD (repeatable); "
@@ -83,8 +106,16 @@ def register(subparsers) -> None:
                    help="blackbody templates: auto (default) when some band is used by nothing else")
     p.add_argument("--bb-radius", metavar="RJUP", type=float, default=None,
                    help="radius for blackbodies [R_Jup]: gives them an absolute scale")
+    p.add_argument("--evolution", metavar="FILE",
+                   help="evolutionary-model table (CSV/ECSV: age, mass, Teff, log L, absolute magnitudes): "
+                        "also print the mass at the age given by --age (docs/companion.md)")
+    p.add_argument("--age", metavar="AGE:ERROR UNIT", type=_age, default=None,
+                   help="the system's age and 1-sigma for --evolution, e.g. '0.1:0.02 Gyr' or '40:10 Myr'")
+    p.add_argument("--seed", metavar="N", type=int, default=None,
+                   help="seed of the Monte Carlo of --evolution (default: a fixed seed, reproducible)")
     p.add_argument("--settings", metavar="FILE", help="TOML file with a [classify] table of settings")
-    p.add_argument("--output", metavar="DIR", default=".", help="folder for the table and figures (default: .)")
+    p.add_argument("--output", "-o", metavar="DIR", default=None,
+                   help="folder for the table and figures (default: ./<target stem>_classify)")
     p.add_argument("--csv", action="store_true", help="also write the ranking as CSV")
     p.add_argument("--no-figures", action="store_true", help="do not draw the figures")
     p.add_argument("--top", metavar="N", type=int, default=8, help="rows printed per ranking (default 8)")
@@ -117,6 +148,19 @@ def _settings(args):
     return ClassifySettings(**merged)
 
 
+def _evolution(args, target):
+    """The evolutionary table of --evolution (None without it); --age must come with it."""
+    from ..errors import InputError
+
+    if (args.evolution is None) != (args.age is None):
+        raise InputError("--evolution and --age go together: a mass at an age needs both a model table and an age")
+    if args.evolution is None:
+        return None
+    from ..companion import read_evolution_table
+
+    return read_evolution_table(args.evolution, target.bands)
+
+
 def _run(args) -> int:
     from ..companion import classify, read_library
     from ..errors import InputError
@@ -126,19 +170,38 @@ def _run(args) -> int:
     if args.top < 1:
         raise InputError(f"--top must be at least 1, got {args.top}")
     settings = _settings(args)
-    photometry = calibrate(read_target(args.target))
+    target = read_target(args.target)
+    photometry = calibrate(target)
+    evolution = _evolution(args, target)
     library = None
     if args.library:
         cache = "default" if args.cache is None else (None if args.cache.lower() == "none" else args.cache)
         library = read_library(args.library, cache_dir=cache)
     result = classify(photometry, settings, library=library)
+    masses = None
+    if evolution is not None:   # before anything is printed or written
+        import numpy as np
+
+        from ..companion import masses_at_age
+        from ..companion.evolution import MONTE_CARLO_SEED
+
+        rng = np.random.default_rng(MONTE_CARLO_SEED if args.seed is None else args.seed)
+        masses = masses_at_age(evolution, photometry, *args.age, rng)
     print(format_classification(result, top=args.top))
     print()
-    paths = write_classification(result, args.output, csv=args.csv)
+    if masses is not None:
+        from ..report.motion_text import format_masses_at_age
+
+        print(format_masses_at_age(masses))
+        print()
+    from ..files import default_output_folder
+
+    folder = args.output or default_output_folder(args.target, "classify")
+    paths = write_classification(result, folder, csv=args.csv)
     if not args.no_figures:
         from ..report.companion_figures import write_companion_figures
 
-        paths += write_companion_figures(result, args.output)
+        paths += write_companion_figures(result, folder)
     for path in paths:
         print(f"wrote {path}")
     return 0

@@ -36,7 +36,7 @@ def register(subparsers) -> None:
     )
     parser.add_argument("description", type=Path, help="fit description (TOML)")
     parser.add_argument("--output", "-o", type=Path, default=None,
-                        help="run folder (default: <description name>_fit beside the description)")
+                        help="run folder (default: ./<description stem>_fit)")
     parser.add_argument("--workers", "-w", type=int, default=1,
                         help="processes evaluating the likelihood (default 1)")
     mode = parser.add_mutually_exclusive_group()

@@ -10,11 +10,16 @@ from ..errors import InputError
 
 __all__ = ["register"]
 
+#: The subcommand word of a summary, in both spellings of the trade; help and
+#: messages print the first.
+_SUMMARY_WORDS = ("summarize", "summarise")
+
 _DESCRIPTION = """\
 Evaluate every dust mixture of a grid against the disk colours, and summarise the result.
 
   motes grid GRID.toml [options]            run (or resume) the grid described in GRID.toml
   motes grid summarize STORE [options]      best mixtures and chi-square profiles of a store
+                                            ('summarise' is accepted too)
 
 A run writes a store folder (--output; default ./<GRID stem>_grid): a manifest and
 one Parquet part per finished chunk of points, each written atomically. Kill a run
@@ -40,8 +45,7 @@ examples:
 
 
 def register(subparsers) -> None:
-    from ..dust.grid.spec import DEFAULT_MAX_POINTS
-
+    # no motes.dust import here: building the parser must stay fast for every subcommand
     parser = subparsers.add_parser(
         "grid",
         help="run a resumable grid of dust mixtures (local processes or Dask), or summarise one",
@@ -51,7 +55,7 @@ def register(subparsers) -> None:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     parser.add_argument("target", metavar="GRID.toml | summarize",
-                        help="the grid description to run, or the word 'summarize'")
+                        help="the grid description to run, or the word 'summarize' (or 'summarise')")
     parser.add_argument("store", nargs="?", metavar="STORE",
                         help="with 'summarize': the store folder to summarise")
     parser.add_argument("-o", "--output", metavar="DIR",
@@ -67,7 +71,8 @@ def register(subparsers) -> None:
                         help="print the number of points and an estimated run time from a short "
                              "timing probe; write nothing")
     parser.add_argument("--yes", action="store_true",
-                        help=f"confirm a grid of more than {DEFAULT_MAX_POINTS:,} points")
+                        help="confirm a grid larger than the size limit (a larger grid is refused, "
+                             "naming the limit, until confirmed)")
     parser.add_argument("--overwrite", action="store_true",
                         help="delete a store of another grid description found in --output")
     parser.add_argument("--top", type=int, metavar="N", help="best mixtures to list (default 10)")
@@ -78,7 +83,7 @@ def register(subparsers) -> None:
 
 
 def _main(args) -> int:
-    if args.target == "summarize":
+    if args.target in _SUMMARY_WORDS:
         if not args.store:
             raise InputError("summarize needs the store folder: motes grid summarize STORE")
         return _summarize(Path(args.store), args)

@@ -10,8 +10,9 @@ __all__ = ["register"]
 _EPILOG = """\
 examples:
   motes optics mixture.toml                       print per-band optics, write table and figures
-  motes optics mixture.toml --out optics_run      ... into another folder
-  motes optics mixture.toml --reference-band 2MASS.H --no-figures
+                                                  into ./mixture_optics/
+  motes optics mixture.toml --output optics_run   ... into another folder
+  motes optics mixture.toml --reference-band 2mass_h --no-figures
 
 The mixture file is a dust-model description ([star], [[materials]], [mixing],
 [geometry], [model] bands, user [bands.NAME]) plus a [mixture] table:
@@ -45,8 +46,8 @@ def register(subparsers) -> None:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("mixture", help="mixture description (TOML)")
-    p.add_argument("--out", metavar="FOLDER",
-                   help="folder for the table and figures (default: beside the mixture file)")
+    p.add_argument("--output", "-o", metavar="DIR",
+                   help="folder for the table and figures (default: ./<mixture stem>_optics)")
     p.add_argument("--reference-band", metavar="BAND",
                    help="band the colours are relative to (default: [mixture] reference_band, else the first)")
     p.add_argument("--no-figures", action="store_true", help="write the table only")
@@ -57,15 +58,17 @@ def _run(args) -> int:
     import dataclasses
 
     from ..dust.model.mixture import compute_mixture_optics, read_mixture_file
+    from ..files import check_output_folder, default_output_folder
     from ..report.optics_text import format_mixture_optics, write_mixture_outputs
 
     path = Path(args.mixture)
     description, mixture = read_mixture_file(path)
     if args.reference_band:
         mixture = dataclasses.replace(mixture, reference_band=args.reference_band)
+    folder = Path(args.output) if args.output else default_output_folder(path, "optics")
+    check_output_folder(folder, "--output")   # before the work
     result = compute_mixture_optics(description, mixture)
     print(format_mixture_optics(result))
-    folder = Path(args.out) if args.out else path.parent
     written = write_mixture_outputs(result, folder, stem=path.stem, figures=not args.no_figures)
     print("")
     for w in written:

@@ -8,7 +8,8 @@ __all__ = ["register"]
 
 _EPILOG = """\
 examples:
-  motes photometry companion_target.toml                 print the table, write ECSV here
+  motes photometry companion_target.toml                 print the table, write ECSV into
+                                                         ./companion_target_photometry/
   motes photometry companion_target.toml --output out/   write into out/
   motes photometry companion_target.toml --csv           also write a CSV copy
 
@@ -33,7 +34,8 @@ def register(subparsers) -> None:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("target", metavar="TARGET", help="target description (TOML)")
-    p.add_argument("--output", metavar="DIR", default=".", help="folder for the output tables (default: .)")
+    p.add_argument("--output", "-o", metavar="DIR", default=None,
+                   help="folder for the output tables (default: ./<target stem>_photometry)")
     p.add_argument("--csv", action="store_true", help="also write the table as CSV")
     p.set_defaults(func=_run)
 
@@ -44,7 +46,10 @@ def _run(args) -> int:
 
     result = calibrate(read_target(args.target))
     print(format_photometry(result))
-    paths = write_photometry(result, args.output, csv=args.csv)
+    from ..files import default_output_folder
+
+    folder = args.output or default_output_folder(args.target, "photometry")
+    paths = write_photometry(result, folder, csv=args.csv)
     print()
     for path in paths:
         print(f"wrote {path}")

@@ -33,6 +33,7 @@ by no other source (or when asked): the output says so.
 from __future__ import annotations
 
 import math
+import os
 import tomllib
 from dataclasses import dataclass, fields
 from pathlib import Path
@@ -41,12 +42,14 @@ import numpy as np
 from scipy.special import logsumexp
 
 from ..errors import FitError, InputError
+from ..photometry.bands import canonical_band_name
 from ..tomlcheck import check_keys
+from .band_mapping import mapping_pivot_warnings
 from .blackbody import BlackbodySet
 from .extinction import EXTINCTION_LAWS, av_prior_grid, extinction_coefficients
 from .likelihood import FlatOffset, GaussianOffset, offset_marginal
 from .results import Classification, Ranking
-from .sequence import load_dwarf_sequence
+from .sequence import load_dwarf_sequence, read_dwarf_sequence_file
 from .spectral_types import type_code, type_label
 from .summary_stats import build_rows, distance_check, type_estimate
 from .templates import TemplateGrid
@@ -79,9 +82,9 @@ CAVEATS = (
     "background stars.",
     "An unresolved equal-mass binary is 0.75 mag brighter than a single object: the distance-known "
     "mode then prefers an earlier type and the colours-only distance comes out too small.",
-    "Masses come from the mean sequence; below the hydrogen-burning limit (L and T types) they are "
-    "evolutionary-model masses at an assumed field age of ~5 Gyr, and a younger object of the same "
-    "type is much less massive.",
+    "Masses are the mean sequence's (tentative) masses of field dwarfs (the built-in sequence tabulates "
+    "them to L3, none for later types): a mass from a colour or magnitude assumes a field age, and near "
+    "or below the hydrogen-burning limit a younger object of the same type is much less massive.",
     "A spectral type from photometry is indicative only; a spectrum confirms it.",
 )
 
@@ -94,9 +97,10 @@ class ClassifySettings:
     ----------
     mode : {"auto", "distance", "colours", "both"}
         ``auto`` = both when the host distance is known, else colours only.
+        ``"colors"`` is accepted for ``"colours"``.
     band_map : tuple of (str, str)
         Explicit mappings (observed band, standard sequence band), e.g.
-        ``(("NIRC2.Kp", "2MASS.Ks"),)``. Nothing is mapped otherwise.
+        ``(("NIRC2.Kp", "2mass_ks"),)``. Nothing is mapped otherwise.
     template_scatter : float [mag]
         Intrinsic scatter of template colours, per band (default 0.10:
         common practice, no source - 0.1-0.3 mag is usual).
@@ -124,6 +128,11 @@ class ClassifySettings:
     tension_sigma : float
         Tension between the colours-only and the host distance moduli above
         which the result is flagged.
+    sequence_file : str or None
+        A user's own dwarf sequence table in the bundled file's format
+        (:func:`motes.companion.sequence.read_dwarf_sequence_file`) used instead
+        of the built-in sequence; in a TOML ``[classify]`` table a relative
+        path is relative to that file's folder.
     """
 
     mode: str = "auto"
@@ -141,8 +150,11 @@ class ClassifySettings:
     av_max: float = 5.0
     av_steps: int = 41
     tension_sigma: float = 3.0
+    sequence_file: str | None = None
 
     def __post_init__(self):
+        if self.mode == "colors":   # both spellings of the trade are accepted; "colours" is kept
+            object.__setattr__(self, "mode", "colours")
         if self.mode not in MODES:
             raise InputError(f"mode must be one of {', '.join(MODES)}, got {self.mode!r}")
         if self.blackbody not in ("auto", "always", "never"):
@@ -153,13 +165,17 @@ class ClassifySettings:
                 raise InputError(f"{name} must be a number >= 0 [mag], got {value!r}")
         if not (self.type_step > 0):
             raise InputError(f"type_step must be positive, got {self.type_step!r}")
+        if self.sequence_file is not None:
+            if not isinstance(self.sequence_file, (str, os.PathLike)):
+                raise InputError(f"sequence_file must be a path to a sequence table, got {self.sequence_file!r}")
+            object.__setattr__(self, "sequence_file", os.fspath(self.sequence_file))
         if self.extinction_law not in EXTINCTION_LAWS:
             raise InputError(f"extinction_law must be one of {', '.join(EXTINCTION_LAWS)}")
         pairs = []
         for pair in self.band_map:
             if not (isinstance(pair, (tuple, list)) and len(pair) == 2 and all(isinstance(p, str) for p in pair)):
                 raise InputError(f"band_map entries must be (observed, standard) name pairs, got {pair!r}")
-            pairs.append((pair[0], pair[1]))
+            pairs.append((pair[0], canonical_band_name(pair[1]) or pair[1]))
         object.__setattr__(self, "band_map", tuple(pairs))
         if self.type_range is not None:
             if len(self.type_range) != 2:
@@ -178,6 +194,8 @@ class ClassifySettings:
             doc["band_map"] = tuple(doc["band_map"].items())
         if "type_range" in doc and doc["type_range"] is not None:
             doc["type_range"] = tuple(doc["type_range"])
+        if isinstance(doc.get("sequence_file"), str) and path is not None:
+            doc["sequence_file"] = str(Path(path).parent / doc["sequence_file"])
         try:
             return cls(**doc)
         except InputError as exc:
@@ -422,7 +440,7 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
             raise InputError(f"band mapping names {observed!r}, which is not in the photometry "
                              f"({', '.join(obs.names)})")
     notes: list[str] = []
-    flags: list[str] = []
+    flags: list[str] = mapping_pivot_warnings(obs.bands, mapping)
     ext = None
     if settings.extinction:
         ext = extinction_coefficients(obs.bands, settings.extinction_law, settings.rv)
@@ -430,8 +448,11 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
                      f"on [0, {settings.av_max:g}] mag ({settings.av_steps} nodes)")
     grids = []
     if settings.use_sequence:
-        grids.append(load_dwarf_sequence().grid(obs.bands, mapping, step=settings.type_step,
-                                                code_range=settings.type_range))
+        sequence = (read_dwarf_sequence_file(settings.sequence_file) if settings.sequence_file
+                    else load_dwarf_sequence())
+        grids.append(sequence.grid(obs.bands, mapping, step=settings.type_step, code_range=settings.type_range))
+        notes.append(f"{sequence.name}: cite {sequence.citation}" if sequence.citation else
+                     f"{sequence.name} ({sequence.path}): the file names nothing to cite (no CITE section)")
     if library is not None:
         grids.append(library.grid(obs.bands, mapping))
     rankings = []

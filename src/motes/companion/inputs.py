@@ -51,7 +51,7 @@ def photometry_from_magnitudes(magnitudes: Mapping[str, tuple], *, distance_pc: 
 
     Examples
     --------
-    >>> phot = photometry_from_magnitudes({"2MASS.J": (11.0, 0.05), "2MASS.Ks": (10.0, 0.05)}, distance_pc=20.0)
+    >>> phot = photometry_from_magnitudes({"2mass_j": (11.0, 0.05), "2mass_ks": (10.0, 0.05)}, distance_pc=20.0)
     >>> [round(r.absolute_mag, 3) for r in phot.rows]
     [9.495, 8.495]
     """

@@ -1,9 +1,12 @@
 """The built-in empirical sequence of mean dwarf properties (G0 to T9).
 
-The data live in ``motes/data/dwarf_sequence.txt`` (header: sources and the
-caveat that the values were recalled from the literature). This module reads
-the file once, derives absolute magnitudes in every tabulated band from the
-stored magnitudes and colours, and interpolates them to any type code.
+The data live in ``motes/data/dwarf_sequence.txt``: the published mean dwarf
+sequence of E. Mamajek (version 2024.05.15; Pecaut & Mamajek 2013, ApJS 208, 9),
+exported by ``tools/export_dwarf_sequence.py`` (header: source, what to cite,
+photometric systems). This module reads the file once, derives absolute
+magnitudes in every tabulated band from the stored magnitudes and colours, and
+interpolates them to any type code. A user's own table in the same format is
+read by :func:`read_dwarf_sequence_file`.
 
 Interpolation
 -------------
@@ -18,6 +21,7 @@ nothing is extrapolated.
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import math
 from dataclasses import dataclass, field
@@ -35,6 +39,8 @@ from .templates import TemplateGrid
 __all__ = [
     "DwarfSequence",
     "load_dwarf_sequence",
+    "read_dwarf_sequence",
+    "read_dwarf_sequence_file",
     "SEQUENCE_BANDS",
     "SEQUENCE_FILE",
     "M_BOL_SUN",
@@ -48,12 +54,14 @@ M_BOL_SUN = 4.74
 
 #: Standard motes band names the sequence tabulates, in wavelength order.
 SEQUENCE_BANDS = (
-    "Johnson.V", "Gaia.BP", "Gaia.G", "Cousins.R", "Gaia.RP", "Cousins.I",
-    "2MASS.J", "2MASS.H", "2MASS.Ks", "WISE.W1", "WISE.W2",
+    "johnson_v", "gaia_bp", "gaia_g", "cousins_r", "gaia_rp", "cousins_i",
+    "2mass_j", "2mass_h", "2mass_ks", "wise_w1", "wise_w2",
 )
 
 _COLUMNS = ("spt", "teff", "log_l", "mass", "m_v", "v_rc", "v_ic", "m_g", "bp_rp", "g_rp",
             "m_j", "j_h", "h_ks", "ks_w1", "w1_w2")
+#: Format 2 adds ``m_ks`` (absolute Ks as tabulated) after ``h_ks``; format 1 files still read.
+_COLUMNS_2 = _COLUMNS[:13] + ("m_ks",) + _COLUMNS[13:]
 
 
 def _parse_value(text: str) -> tuple[float, bool]:
@@ -84,6 +92,9 @@ class DwarfSequence:
     header : str
         The file's comment header (sources and caveats).
     path : str
+    citation : str
+        What to cite for the sequence (the header's ``CITE`` section; empty
+        when the file has none).
     """
 
     labels: tuple[str, ...]
@@ -92,6 +103,7 @@ class DwarfSequence:
     uncertain: dict
     header: str
     path: str
+    citation: str = ""
     kind: str = "sequence"
     name: str = "mean dwarf sequence"
     _interp: dict = field(default_factory=dict, repr=False)
@@ -231,22 +243,25 @@ def _derive(raw: dict[str, np.ndarray], unc: dict[str, np.ndarray]):
 
     def put(name, value, *sources):
         cols[name] = value
-        flags[name] = np.logical_or.reduce([unc[s] for s in sources])
+        flags[name] = np.logical_or.reduce([unc[s] if s in unc else flags[s] for s in sources])
 
-    put("Johnson.V", raw["m_v"], "m_v")
-    put("Cousins.R", raw["m_v"] - raw["v_rc"], "m_v", "v_rc")
-    put("Cousins.I", raw["m_v"] - raw["v_ic"], "m_v", "v_ic")
-    put("Gaia.G", raw["m_g"], "m_g")
-    put("Gaia.RP", raw["m_g"] - raw["g_rp"], "m_g", "g_rp")
-    put("Gaia.BP", raw["m_g"] - raw["g_rp"] + raw["bp_rp"], "m_g", "g_rp", "bp_rp")
-    put("2MASS.J", raw["m_j"], "m_j")
-    put("2MASS.H", raw["m_j"] - raw["j_h"], "m_j", "j_h")
-    put("2MASS.Ks", cols["2MASS.H"] - raw["h_ks"], "m_j", "j_h", "h_ks")
-    put("WISE.W1", cols["2MASS.Ks"] - raw["ks_w1"], "m_j", "j_h", "h_ks", "ks_w1")
-    put("WISE.W2", cols["WISE.W1"] - raw["w1_w2"], "m_j", "j_h", "h_ks", "ks_w1", "w1_w2")
+    put("johnson_v", raw["m_v"], "m_v")
+    put("cousins_r", raw["m_v"] - raw["v_rc"], "m_v", "v_rc")
+    put("cousins_i", raw["m_v"] - raw["v_ic"], "m_v", "v_ic")
+    put("gaia_g", raw["m_g"], "m_g")
+    put("gaia_rp", raw["m_g"] - raw["g_rp"], "m_g", "g_rp")
+    put("gaia_bp", raw["m_g"] - raw["g_rp"] + raw["bp_rp"], "m_g", "g_rp", "bp_rp")
+    put("2mass_j", raw["m_j"], "m_j")
+    put("2mass_h", raw["m_j"] - raw["j_h"], "m_j", "j_h")
+    # Ks as tabulated where the file gives m_ks (format 2), else from H - Ks
+    tabulated = np.isfinite(raw["m_ks"])
+    cols["2mass_ks"] = np.where(tabulated, raw["m_ks"], cols["2mass_h"] - raw["h_ks"])
+    flags["2mass_ks"] = np.where(tabulated, unc["m_ks"], flags["2mass_h"] | unc["h_ks"])
+    put("wise_w1", cols["2mass_ks"] - raw["ks_w1"], "2mass_ks", "ks_w1")
+    put("wise_w2", cols["wise_w1"] - raw["w1_w2"], "wise_w1", "w1_w2")
     for name in ("teff", "log_l", "mass"):
         put(name, raw[name], name)
-    put("bc_ks", (M_BOL_SUN - 2.5 * raw["log_l"]) - cols["2MASS.Ks"], "log_l", "m_j", "j_h", "h_ks")
+    put("bc_ks", (M_BOL_SUN - 2.5 * raw["log_l"]) - cols["2mass_ks"], "log_l", "2mass_ks")
     return cols, flags
 
 
@@ -263,8 +278,9 @@ def read_dwarf_sequence(text: str, path: str = SEQUENCE_FILE) -> DwarfSequence:
         parts = stripped.split()
         if names is None:
             names = parts
-            if tuple(names) != _COLUMNS:
-                raise InputError(f"expected the columns {' '.join(_COLUMNS)}", path, f"line {number}")
+            if tuple(names) not in (_COLUMNS, _COLUMNS_2):
+                raise InputError(f"expected the columns {' '.join(_COLUMNS_2)} (format 2) or "
+                                 f"{' '.join(_COLUMNS)} (format 1)", path, f"line {number}")
             continue
         if len(parts) != len(names):
             raise InputError(f"expected {len(names)} columns, found {len(parts)}", path, f"line {number}")
@@ -280,8 +296,57 @@ def read_dwarf_sequence(text: str, path: str = SEQUENCE_FILE) -> DwarfSequence:
         raise InputError("rows must be in increasing spectral type", path)
     raw = {n: np.array([r[1][i][0] for r in rows]) for i, n in enumerate(names[1:])}
     unc = {n: np.array([r[1][i][1] for r in rows]) for i, n in enumerate(names[1:])}
+    if "m_ks" not in raw:
+        raw["m_ks"], unc["m_ks"] = np.full(len(rows), np.nan), np.zeros(len(rows), bool)
     cols, flags = _derive(raw, unc)
-    return DwarfSequence(labels, codes, cols, flags, "\n".join(header), path)
+    return DwarfSequence(labels, codes, cols, flags, "\n".join(header), path, _citation(header))
+
+
+def _citation(header: list[str]) -> str:
+    """The header lines after a ``CITE`` line, up to the next empty one, joined ("" if none)."""
+    out, inside = [], False
+    for line in header:
+        if line.strip().upper() == "CITE":
+            inside = True
+        elif inside and line.strip() and not line.strip().isupper():
+            out.append(line.strip())
+        elif inside:
+            break
+    return " ".join(out)
+
+
+def read_dwarf_sequence_file(path) -> DwarfSequence:
+    """A user's own sequence table, in the bundled file's format.
+
+    Parameters
+    ----------
+    path : str or Path
+        A text file: ``#`` comment lines (a ``# CITE`` line followed by
+        lines up to an empty comment line gives what to cite), a column line, then one row per
+        spectral type in increasing order (``-`` = missing, a trailing ``:``
+        = uncertain). Either column set is accepted:
+        ``spt teff log_l mass m_v v_rc v_ic m_g bp_rp g_rp m_j j_h h_ks m_ks ks_w1 w1_w2``
+        or the same without ``m_ks``.
+
+    Returns
+    -------
+    DwarfSequence
+        Named after the file.
+
+    Raises
+    ------
+    InputError
+        The file cannot be read or is malformed (the message names the line).
+    """
+    from pathlib import Path
+
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read the dwarf sequence file: {exc}", path) from None
+    seq = read_dwarf_sequence(text, str(path))
+    return dataclasses.replace(seq, name=f"dwarf sequence {path.name}", _interp={})
 
 
 @functools.lru_cache(maxsize=1)

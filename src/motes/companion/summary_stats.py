@@ -17,7 +17,12 @@ from scipy.special import ndtr
 
 from .results import DistanceCheck, QuantityEstimate, RankedTemplate, TypeEstimate
 
-__all__ = ["build_rows", "type_estimate", "distance_check", "weighted_quantiles"]
+__all__ = ["build_rows", "type_estimate", "distance_check", "weighted_quantiles", "MASS_COVERAGE_TOLERANCE"]
+
+#: Probability that templates without a mass (e.g. sequence types beyond its last
+#: tabulated mass) may carry before the mass estimate is withheld: a mass from the
+#: rest alone would be biased (1%, common practice, no source).
+MASS_COVERAGE_TOLERANCE = 0.01
 
 
 def weighted_quantiles(values, weights, quantiles, half_width: float = 0.0) -> np.ndarray:
@@ -136,6 +141,9 @@ def type_estimate(ranking) -> TypeEstimate | None:
     med, lo, hi = weighted_quantiles(codes, prob, (0.5, 0.16, 0.84), half)
     teff = weighted_quantiles(g["teff"], prob, (0.5, 0.16, 0.84))
     mass = weighted_quantiles(g["mass"], prob, (0.5, 0.16, 0.84))
+    total = float(np.sum(prob))
+    if total > 0 and float(np.sum(prob[~np.isfinite(g["mass"])])) > MASS_COVERAGE_TOLERANCE * total:
+        mass = np.full(3, np.nan)  # no mass: too much probability on types without one
     edge = bool(codes.size > 1 and ranking.kind == "sequence"
                 and (lo <= np.nanmin(codes) + 0.5 or hi >= np.nanmax(codes) - 0.5))
     return TypeEstimate(

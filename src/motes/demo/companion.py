@@ -2,7 +2,7 @@
 
 Inputs: the same target files as the photometry part (generated from known
 truth by ``examples/make_photometry_demo.py``; the companion was made an L0.5
-dwarf of motes' own sequence, with invented I, 3.1 um and L′ colours). The
+dwarf of motes' own sequence, with invented 3.1 um and L′ colours). The
 part calibrates the photometry, ranks the dwarf sequence in the
 distance-known and colours-only modes (blackbodies are added because the
 narrow band and L′ are covered by nothing else), prints the summary and

@@ -35,7 +35,7 @@ def run(folder: Path) -> None:
     result = compute_mixture_optics(description, mixture)
     print(format_mixture_optics(result))
     nb = list(result.optics.bands).index("NB3p1")
-    print(f"The 3.1 um ice band: NB3p1 is {result.colours[nb]:+.2f} mag relative to 2MASS.J "
+    print(f"The 3.1 um ice band: NB3p1 is {result.colours[nb]:+.2f} mag relative to 2mass_j "
           "(positive = fainter).")
     for path in write_mixture_outputs(result, folder / "optics_run", stem="optics_mixture"):
         print(f"wrote {path}")

@@ -52,7 +52,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import BandError, InputError
+from ..errors import BandError, InputError, quoted_names
+from ..parameters import MAGNITUDE
 from ..photometry.bands import Band, get_band
 
 __all__ = [
@@ -192,9 +193,10 @@ def _read_table(path: Path):
     if not path.is_file():
         raise InputError("file not found", path)
     try:
+        lines = path.read_text(encoding="utf-8-sig").splitlines()    # a spreadsheet's "CSV UTF-8" has a BOM
         if suffix == ".ecsv":
-            return Table.read(str(path), format="ascii.ecsv")
-        return astropy_ascii.read(str(path), format="csv", comment="#", fill_values=[("", "nan")])
+            return Table.read(lines, format="ascii.ecsv")
+        return astropy_ascii.read(lines, format="csv", comment="#", fill_values=[("", "nan")])
     except Exception as exc:  # astropy raises many types for malformed tables
         raise InputError(f"cannot read the table ({type(exc).__name__}: {exc})", path) from None
 
@@ -278,7 +280,7 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
             if cell is not None and str(cell).strip():
                 kind = str(cell).strip().lower()
         if kind not in DISK_PHOTOMETRY_KINDS:
-            raise InputError(f"kind {kind!r} is not one of {DISK_PHOTOMETRY_KINDS}", path, where)
+            raise InputError(f"kind {kind!r} is not one of {quoted_names(DISK_PHOTOMETRY_KINDS)}", path, where)
 
         is_limit = False
         if "upper_limit" in table.colnames:
@@ -303,6 +305,9 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
             raise InputError(f"error must be > 0, got {error:g}", path, where)
 
         if kind in _MAG_KINDS:
+            if not MAGNITUDE.contains(value):
+                raise InputError(f"a {kind} value must be in {MAGNITUDE.interval} mag ({MAGNITUDE.meaning}), "
+                                 f"got {value:g}", path, where)
             ratio = 10.0 ** (-0.4 * value)
             if is_limit:
                 noise = ratio / n_sigma
@@ -326,7 +331,8 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
         sigmas.append(n_sigma if is_limit else math.nan)
         kinds.append(kind)
         if band.approximate:
-            notes.append(f"{band_name}: approximate band ({band.source})")
+            # the wording of the model's note (dust.model.colours), so a fit prints it once
+            notes.append(f"band '{band.name}' is approximate ({band.source})")
 
     families = {k in _SB_KINDS for k in kinds}
     if len(families) > 1:

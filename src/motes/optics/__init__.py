@@ -1,5 +1,9 @@
 """Dust optics: optical constants, effective-medium mixing, Mie scattering, size distributions.
 
+Mie scattering covers homogeneous spheres (``mie``), coated spheres
+(``coated``), their polarisation (``polarisation``) and the distribution of
+hollow spheres for irregular grains (``hollow``); see ``docs/optics.md``.
+
 Optical constants and mixing (``material``, ``constants``, ``mixing``) are re-exported
 here; see ``docs/materials.md`` for the file format, the bundled materials
 and the fraction/porosity definitions.
@@ -91,4 +95,42 @@ _MIE_NAMES = [
     "radiation_pressure_beta",
 ]
 
-__all__ = _MATERIALS_NAMES + _MIE_NAMES
+# --- coated spheres, polarisation and hollow-sphere grains (issue 12) -------
+from .coated import check_core_fraction, coated_efficiencies, coated_intensities, coated_scattering_amplitudes
+from .hollow import (
+    DEFAULT_F_NODES,
+    check_f_max,
+    hollow_efficiencies,
+    hollow_intensities,
+    hollow_polarisation,
+    hollow_sphere_nodes,
+)
+from .polarisation import (
+    ScatteringElements,
+    coated_polarisation,
+    degree_of_polarisation,
+    polarised_intensity,
+    scattering_elements,
+    sphere_polarisation,
+)
+
+_GRAIN_NAMES = [
+    "check_core_fraction",
+    "coated_efficiencies",
+    "coated_intensities",
+    "coated_scattering_amplitudes",
+    "DEFAULT_F_NODES",
+    "check_f_max",
+    "hollow_efficiencies",
+    "hollow_intensities",
+    "hollow_polarisation",
+    "hollow_sphere_nodes",
+    "ScatteringElements",
+    "coated_polarisation",
+    "degree_of_polarisation",
+    "polarised_intensity",
+    "scattering_elements",
+    "sphere_polarisation",
+]
+
+__all__ = _MATERIALS_NAMES + _MIE_NAMES + _GRAIN_NAMES

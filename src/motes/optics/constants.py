@@ -52,8 +52,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import OpticalConstantsError
-from ..parameters import accepts_quantities
+from ..errors import OpticalConstantsError, quoted_names
+from ..parameters import EXTINCTION_K, REFRACTIVE_N, accepts_quantities
 from .material import EXTRAPOLATION_RULES, VACUUM, IndexSample, Material
 
 __all__ = [
@@ -128,7 +128,7 @@ class _Parsed:
 
 def _parse_file(path: Path) -> _Parsed:
     try:
-        text = path.read_text(encoding="utf-8")
+        text = path.read_text(encoding="utf-8-sig")      # a byte-order mark, if any, is not data
     except UnicodeDecodeError as exc:
         raise OpticalConstantsError(f"not a UTF-8 text file ({exc.reason})", path=path) from exc
     except OSError as exc:
@@ -225,6 +225,9 @@ def _validate(parsed: _Parsed, unit: str, columns: str, problems: list):
         for ln in lines[k < 0][:5]:
             problems.append(f"line {ln}: k must be >= 0 (motes uses m = n + ik; a file with "
                             "k < 0 uses the other sign convention: flip the sign if so)")
+    for ln, name, value in _out_of_range(lines, n, k)[:5]:
+        problems.append(f"line {ln}: {name} = {value:.6g} is outside {_NK_RANGES[name].interval} "
+                        f"({_NK_RANGES[name].meaning}; no real material comes near)")
     order = np.argsort(wl, kind="stable")
     ws = wl[order]
     dup = np.flatnonzero(np.diff(ws) <= 0)
@@ -236,6 +239,20 @@ def _validate(parsed: _Parsed, unit: str, columns: str, problems: list):
     if problems:
         return None
     return ws, n[order], k[order]
+
+
+_NK_RANGES = {"n": REFRACTIVE_N, "k": EXTINCTION_K}
+
+
+def _out_of_range(lines, n, k) -> list[tuple[int, str, float]]:
+    """(line, "n" or "k", value) where n or k is finite and of the right sign but beyond its declared range."""
+    out = []
+    for ln, nv, kv in zip(lines, n, k):
+        if nv > 0 and not REFRACTIVE_N.contains(nv):
+            out.append((int(ln), "n", float(nv)))
+        if kv >= 0 and not EXTINCTION_K.contains(kv):
+            out.append((int(ln), "k", float(kv)))
+    return out
 
 
 def _overlap_problems(wl: np.ndarray, lines: np.ndarray) -> list[str]:
@@ -283,7 +300,7 @@ def _build(path: Path, wavelength_unit, name, density, extrapolation, columns,
     if dens is not None and not (np.isfinite(dens) and dens > 0):
         problems.append(f"density must be a positive number in g cm^-3, got {dens!r}")
     if extrapolation is not None and extrapolation not in EXTRAPOLATION_RULES:
-        problems.append(f"extrapolation must be one of {EXTRAPOLATION_RULES}, got {extrapolation!r}")
+        problems.append(f"extrapolation must be one of {quoted_names(EXTRAPOLATION_RULES)}, got {extrapolation!r}")
     arrays = _validate(parsed, unit, cols, problems)
     if problems or arrays is None:
         return None, problems

@@ -381,7 +381,8 @@ def polarised_phase_function(m, x, theta) -> np.ndarray:
     scattering plane (as for Rayleigh scattering at 90 deg, where it equals
     ``p``). It is ``-S12 / (pi x^2 Q_sca)`` in Bohren & Huffman's (1983, eq. 4.77)
     notation; multiply by the same size-distribution weights as ``p`` to model
-    polarised-intensity images.
+    polarised-intensity images. :mod:`motes.optics.polarisation` gives S11, -S12
+    and the degree of polarisation, for coated and hollow spheres too.
     """
     s1, s2 = scattering_amplitudes(m, x, theta)
     q_sca = efficiencies(m, x).q_sca

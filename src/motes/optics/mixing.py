@@ -72,7 +72,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import InputError, ModelError
+from ..errors import InputError, ModelError, quoted_names
 from ..parameters import accepts_quantities
 
 __all__ = [
@@ -451,7 +451,7 @@ def mix_refractive_index(indices, fractions, porosity=0.0, rule="bruggeman", mat
         others = [i for i in range(n_solid + 1) if i != j]
         eps_eff = maxwell_garnett_epsilon(eps_all[j], eps_all[others], phi_all[others])
     else:
-        raise InputError(f"rule must be one of {MIXING_RULES}, got {rule!r}", where="rule")
+        raise InputError(f"rule must be one of {quoted_names(MIXING_RULES)}, got {rule!r}", where="rule")
     return np.sqrt(eps_eff)
 
 

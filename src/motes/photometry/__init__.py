@@ -11,11 +11,14 @@ Typical use::
 
 from __future__ import annotations
 
+from .band_names import MKO_HALF_POWER_UM, RENAMED, BandEntry, band_entries, band_entry
+from .band_search import IndexedBand, band_index, find_bands, search_bands
 from .bands import (
     COUNTING_MODES,
     VEGA_REFERENCE,
     Band,
     band_from_curve,
+    canonical_band_name,
     gaussian_band,
     get_band,
     read_band_curve,
@@ -59,6 +62,7 @@ __all__ = [
     "COUNTING_MODES",
     "VEGA_REFERENCE",
     "band_from_curve",
+    "canonical_band_name",
     "gaussian_band",
     "get_band",
     "read_band_curve",
@@ -66,6 +70,15 @@ __all__ = [
     "top_hat_band",
     "vega_spectrum",
     "band_table",
+    "BandEntry",
+    "MKO_HALF_POWER_UM",
+    "RENAMED",
+    "band_entries",
+    "band_entry",
+    "IndexedBand",
+    "band_index",
+    "find_bands",
+    "search_bands",
     "format_band",
     "format_band_table",
     # conversions

@@ -47,12 +47,14 @@ import numpy as np
 from ..conventions import AB_ZERO_POINT_JY, _FLAM_TO_FNU, flam_to_fnu
 from ..errors import BandError
 from ..parameters import accepts_quantities
+from .band_names import RENAMED, band_entries, band_entry
 
 __all__ = [
     "Band",
     "COUNTING_MODES",
     "standard_band_names",
     "get_band",
+    "canonical_band_name",
     "top_hat_band",
     "gaussian_band",
     "band_from_curve",
@@ -76,7 +78,7 @@ class Band:
     Parameters
     ----------
     name : str
-        Name used in tables and files (e.g. ``"2MASS.Ks"``).
+        Name used in tables and files (e.g. ``"2mass_ks"``).
     wavelength : ndarray[n]
         Wavelength grid [um], strictly increasing.
     throughput : ndarray[n]
@@ -347,16 +349,24 @@ class Band:
         return -2.5 * np.log10(self.flux_lambda_to_fnu(mean_flux_lambda) / AB_ZERO_POINT_JY)
 
     def describe(self) -> dict:
-        """Summary of the band as a plain dict (used by ``motes bands``)."""
+        """Summary of the band as a plain dict (used by ``motes bands``).
+
+        Zero points and the effective wavelength are nan where the Vega
+        spectrum does not cover the band (far infrared).
+        """
+        try:
+            zp, ab, leff = self.vega_zero_point_jy, self.ab_minus_vega, self.effective_wavelength
+        except BandError:
+            zp = ab = leff = float("nan")
         return {
             "name": self.name,
             "system": self.system,
             "pivot_um": self.pivot_wavelength,
-            "effective_um": self.effective_wavelength,
+            "effective_um": leff,
             "fwhm_um": self.fwhm,
             "width_um": self.width,
-            "vega_zp_jy": self.vega_zero_point_jy,
-            "ab_minus_vega": self.ab_minus_vega,
+            "vega_zp_jy": zp,
+            "ab_minus_vega": ab,
             "vega_mag": self.vega_magnitude,
             "native": self.native_system,
             "response": self.response,
@@ -392,63 +402,21 @@ def vega_spectrum() -> tuple[np.ndarray, np.ndarray]:
 
 
 # ------------------------------------------------------------- standard bands
-# name -> (pyphot key, system, Vega magnitude in that system, native system, note)
-# Vega magnitudes: 0 by definition for 2MASS (Cohen, Wheaton & Megeath 2003),
-# WISE (Wright et al. 2010), IRAC (Reach et al. 2005); 0.03 for Johnson-Cousins
-# UBVRI (Bessell, Castelli & Plez 1998, from memory) and Gaia (Vega G = 0.03,
-# from memory). SDSS and Pan-STARRS are AB systems.
-_COLOUR_CORRECTION = (
-    "Catalogue fluxes assume a reference spectrum (f_nu ~ nu^-2 for WISE, nu^-1 for IRAC); "
-    "sources with other spectra need colour corrections (Wright et al. 2010; IRAC handbook)."
-)
-_STANDARD = {
-    "2MASS.J": ("2MASS_J", "2MASS", 0.0, "Vega", ""),
-    "2MASS.H": ("2MASS_H", "2MASS", 0.0, "Vega", ""),
-    "2MASS.Ks": ("2MASS_Ks", "2MASS", 0.0, "Vega", ""),
-    "SDSS.u": ("SDSS_u", "SDSS", 0.0, "AB", "SDSS u is ~0.04 mag off AB (u_AB = u_SDSS - 0.04; from memory)."),
-    "SDSS.g": ("SDSS_g", "SDSS", 0.0, "AB", ""),
-    "SDSS.r": ("SDSS_r", "SDSS", 0.0, "AB", ""),
-    "SDSS.i": ("SDSS_i", "SDSS", 0.0, "AB", ""),
-    "SDSS.z": ("SDSS_z", "SDSS", 0.0, "AB", "SDSS z is ~0.02 mag off AB (z_AB = z_SDSS + 0.02; from memory)."),
-    "PS1.g": ("PS1_g", "Pan-STARRS", 0.0, "AB", ""),
-    "PS1.r": ("PS1_r", "Pan-STARRS", 0.0, "AB", ""),
-    "PS1.i": ("PS1_i", "Pan-STARRS", 0.0, "AB", ""),
-    "PS1.z": ("PS1_z", "Pan-STARRS", 0.0, "AB", ""),
-    "PS1.y": ("PS1_y", "Pan-STARRS", 0.0, "AB", ""),
-    "PS1.w": ("PS1_w", "Pan-STARRS", 0.0, "AB", ""),
-    "Gaia.G": ("Gaia_G", "Gaia", 0.03, "Vega", ""),
-    "Gaia.BP": ("Gaia_BP", "Gaia", 0.03, "Vega", ""),
-    "Gaia.RP": ("Gaia_RP", "Gaia", 0.03, "Vega", ""),
-    "WISE.W1": ("WISE_RSR_W1", "WISE", 0.0, "Vega", _COLOUR_CORRECTION),
-    "WISE.W2": ("WISE_RSR_W2", "WISE", 0.0, "Vega", _COLOUR_CORRECTION),
-    "WISE.W3": ("WISE_RSR_W3", "WISE", 0.0, "Vega", _COLOUR_CORRECTION),
-    "WISE.W4": ("WISE_RSR_W4", "WISE", 0.0, "Vega", _COLOUR_CORRECTION),
-    "IRAC.I1": ("SPITZER_IRAC_36", "Spitzer/IRAC", 0.0, "Vega", _COLOUR_CORRECTION),
-    "IRAC.I2": ("SPITZER_IRAC_45", "Spitzer/IRAC", 0.0, "Vega", _COLOUR_CORRECTION),
-    "IRAC.I3": ("SPITZER_IRAC_58", "Spitzer/IRAC", 0.0, "Vega", _COLOUR_CORRECTION),
-    "IRAC.I4": ("SPITZER_IRAC_80", "Spitzer/IRAC", 0.0, "Vega", _COLOUR_CORRECTION),
-    "Johnson.U": ("GROUND_JOHNSON_U", "Johnson-Cousins", 0.03, "Vega", ""),
-    "Johnson.B": ("GROUND_JOHNSON_B", "Johnson-Cousins", 0.03, "Vega", ""),
-    "Johnson.V": ("GROUND_JOHNSON_V", "Johnson-Cousins", 0.03, "Vega", ""),
-    "Cousins.R": ("GROUND_COUSINS_R", "Johnson-Cousins", 0.03, "Vega", ""),
-    "Cousins.I": ("GROUND_COUSINS_I", "Johnson-Cousins", 0.03, "Vega", ""),
-    "Bessell.J": ("GROUND_BESSELL_J", "Bessell", 0.0, "Vega", ""),
-    "Bessell.H": ("GROUND_BESSELL_H", "Bessell", 0.0, "Vega", ""),
-    "Bessell.K": ("GROUND_BESSELL_K", "Bessell", 0.0, "Vega", ""),
-}
-
-
+# The identifiers, systems, Vega magnitudes and notes of the standard bands are
+# declared in :mod:`motes.photometry.band_names`.
 def standard_band_names() -> list[str]:
-    """Names of the bands motes knows without any user file."""
-    return list(_STANDARD)
+    """Identifiers of the bands motes knows without any user file (see :mod:`.band_names`)."""
+    return list(band_entries())
 
 
 @functools.lru_cache(maxsize=None)
-def _load_standard(name: str) -> Band:
+def _load_standard(name: str, entry=None) -> Band:
     import astropy.units as u
 
-    key, system, vega_mag, native, note = _STANDARD[name]
-    curve = _pyphot_library()[key]
+    entry = entry or band_entries()[name]
+    if entry.half_power_um is not None:
+        return _half_power_top_hat(entry)
+    curve = _pyphot_library()[entry.key]
     wl = np.asarray(u.Quantity(curve.wavelength).to_value(u.um), dtype=float)
     tr = np.asarray(curve.transmit, dtype=float)
     order = np.argsort(wl)
@@ -459,12 +427,24 @@ def _load_standard(name: str) -> Band:
         wavelength=wl[keep],
         throughput=tr[keep],
         response="photon" if curve.dtype == "photon" else "energy",
-        system=system,
-        vega_magnitude=vega_mag,
-        native_system=native,
-        source=f"pyphot filter library, curve '{key}'",
-        note=note,
+        system=entry.system,
+        vega_magnitude=entry.vega_magnitude,
+        native_system=entry.native_system,
+        source=f"pyphot filter library, curve '{entry.key}'",
+        note=entry.note,
     )
+
+
+def _half_power_top_hat(entry, n: int = 401) -> Band:
+    # Flat between the half-power points, with linear edges 1% of the width
+    # long centred on them, so that the curve is at half power exactly there.
+    lo, hi = entry.half_power_um
+    edge = 0.01 * (hi - lo)
+    wl = np.concatenate([[lo - edge / 2], np.linspace(lo + edge / 2, hi - edge / 2, n), [hi + edge / 2]])
+    tr = np.concatenate([[0.0], np.ones(n), [0.0]])
+    return Band(entry.name, wl, tr, response="photon", system=entry.system,
+                vega_magnitude=entry.vega_magnitude, native_system=entry.native_system, approximate=True,
+                source=f"top-hat from the half-power points {lo:g}-{hi:g} um", note=entry.note)
 
 
 @functools.lru_cache(maxsize=1)
@@ -474,9 +454,25 @@ def _pyphot_library():
     return get_library()
 
 
-def _canonical(name: str) -> str | None:
-    lowered = {k.lower(): k for k in _STANDARD}
-    return lowered.get(name.strip().lower())
+def _refuse_old_name(name: str) -> None:
+    lowered = {k.lower(): v for k, v in RENAMED.items()}
+    new = lowered.get(name.strip().lower())
+    if new is not None:
+        raise BandError(f"band {name!r} is now called {new!r} (motes band identifiers are "
+                        "facility[-instrument]_band; `motes bands` lists them)")
+
+
+def canonical_band_name(name: str) -> str | None:
+    """The standard identifier ``name`` stands for (case-insensitive), or None.
+
+    Raises
+    ------
+    BandError
+        For a band name of an earlier motes release, naming its identifier.
+    """
+    _refuse_old_name(name)
+    entry = band_entry(name)
+    return entry.name if entry is not None else None
 
 
 def get_band(name: str, custom: dict[str, Band] | None = None, counting: str = "photon") -> Band:
@@ -485,8 +481,9 @@ def get_band(name: str, custom: dict[str, Band] | None = None, counting: str = "
     Parameters
     ----------
     name : str
-        A standard name (case-insensitive, e.g. ``"2mass.ks"``) or the name of
-        a user band in ``custom``.
+        A standard identifier (case-insensitive, e.g. ``"2MASS_Ks"`` for
+        ``2mass_ks``; :mod:`motes.photometry.band_names`) or the name of a user
+        band in ``custom``.
     custom : dict of str to Band, optional
         User-defined bands, searched first.
     counting : {"photon", "energy"}
@@ -495,20 +492,23 @@ def get_band(name: str, custom: dict[str, Band] | None = None, counting: str = "
     Raises
     ------
     BandError
-        For an unknown name; the message suggests the closest known names.
+        For an unknown name (the message suggests the closest known names) or
+        a name of an earlier release (the message gives its identifier).
     """
     if counting not in COUNTING_MODES:
         raise BandError(f"counting must be one of {COUNTING_MODES}, got {counting!r}")
     custom = custom or {}
     if name in custom:
         return custom[name].with_counting(counting)
-    canonical = _canonical(name)
+    canonical = canonical_band_name(name)
     if canonical is None:
         known = list(custom) + standard_band_names()
-        # compare case-insensitively: "2mass.k" should suggest "2MASS.Ks"
+        # compare case-insensitively: "2mass_k" should suggest "2mass_ks"
         by_lower = {k.lower(): k for k in known}
-        close = [by_lower[c] for c in difflib.get_close_matches(name.lower(), list(by_lower), n=3, cutoff=0.4)]
-        close += [k for k in known if k.lower().endswith("." + name.lower()) and k not in close]
+        lowered = name.strip().lower()
+        close = [k for k in known if k.lower().endswith("_" + lowered)]
+        close += [by_lower[c] for c in difflib.get_close_matches(lowered, list(by_lower), n=3, cutoff=0.4)
+                  if by_lower[c] not in close]
         hint = f"; did you mean {', '.join(repr(c) for c in close[:4])}?" if close else ""
         raise BandError(
             f"unknown band {name!r}{hint} (`motes bands` lists the known bands; "

@@ -5,6 +5,9 @@ The plot of a band's curve is :func:`motes.report.band_figures.plot_band`.
 
 from __future__ import annotations
 
+import math
+
+from .band_search import IndexedBand, find_bands
 from .bands import Band, get_band, standard_band_names
 
 __all__ = ["band_table", "format_band_table", "format_band"]
@@ -15,11 +18,13 @@ def band_table(bands=None, counting: str | None = "photon"):
 
     Parameters
     ----------
-    bands : sequence of Band or str, optional
-        Default: every standard band.
+    bands : sequence of Band, IndexedBand or str, optional
+        Default: every standard band, in order of pivot wavelength.
     counting : {"photon", "energy"} or None
         Detector counting mode for the zero points; None keeps each Band's
-        own mode (photon for bands given by name).
+        own mode (photon for bands given by name). Standard bands with photon
+        counting are listed from the band index (fast); otherwise each band's
+        curve is integrated.
 
     Returns
     -------
@@ -32,10 +37,17 @@ def band_table(bands=None, counting: str | None = "photon"):
     from astropy.table import Table
 
     if bands is None:
-        bands = standard_band_names()
-    resolved = [get_band(b, counting=counting or "photon") if isinstance(b, str)
-                else (b.with_counting(counting) if counting else b) for b in bands]
-    info = [b.describe() for b in resolved]
+        bands = find_bands() if (counting or "photon") == "photon" else standard_band_names()
+    bands = list(bands)
+    if bands and all(isinstance(b, IndexedBand) for b in bands) and (counting or "photon") == "photon":
+        resolved = bands
+        info = [_indexed_info(b) for b in bands]
+        counting = "photon"
+    else:
+        resolved = [get_band(b.name if isinstance(b, IndexedBand) else b, counting=counting or "photon")
+                    if isinstance(b, (str, IndexedBand)) else (b.with_counting(counting) if counting else b)
+                    for b in bands]
+        info = [b.describe() for b in resolved]
     t = Table()
     t["name"] = [i["name"] for i in info]
     t["system"] = [i["system"] for i in info]
@@ -47,18 +59,24 @@ def band_table(bands=None, counting: str | None = "photon"):
     t["response"] = [i["response"] for i in info]
     t["approximate"] = [i["approximate"] for i in info]
     t["note"] = [_short_note(b) for b in resolved]
-    modes = sorted({b.counting for b in resolved})
+    modes = sorted({counting if isinstance(b, IndexedBand) else b.counting for b in resolved})
     t.meta["counting"] = modes[0] if len(modes) == 1 else "/".join(modes)
     return t
 
 
-def _short_note(band: Band) -> str:
+def _indexed_info(b: IndexedBand) -> dict:
+    return {"name": b.name, "system": b.system, "pivot_um": b.pivot_um, "fwhm_um": b.fwhm_um,
+            "vega_zp_jy": b.vega_zero_point_jy, "ab_minus_vega": b.ab_minus_vega,
+            "vega_mag": b.vega_magnitude, "response": b.response, "approximate": b.approximate}
+
+
+def _short_note(band: Band | IndexedBand) -> str:
     parts = []
     if band.approximate:
         parts.append("approximate")
     if band.system in ("WISE", "Spitzer/IRAC"):
         parts.append("colour corrections may be needed")
-    elif band.note:
+    elif band.note and not band.approximate:
         parts.append(band.note.split(";")[0].split(" (")[0][:48])
     if band.native_system == "AB":
         parts.append("AB system")
@@ -67,12 +85,13 @@ def _short_note(band: Band) -> str:
 
 def format_band_table(table) -> str:
     """Plain-text listing of :func:`band_table`."""
-    head = (f"{'name':<11} {'system':<16} {'pivot[um]':>9} {'FWHM[um]':>8} {'ZP_Vega[Jy]':>11} "
+    w = max([11] + [len(n) for n in table["name"]])
+    head = (f"{'name':<{w}} {'system':<16} {'pivot[um]':>9} {'FWHM[um]':>8} {'ZP_Vega[Jy]':>11} "
             f"{'AB-Vega':>7} {'m(Vega)':>7} {'response':<8} notes")
     lines = [head, "-" * len(head)]
     for row in table:
         lines.append(
-            f"{row['name']:<11} {row['system']:<16} {row['pivot_wavelength']:9.4f} {row['fwhm']:8.4f} "
+            f"{row['name']:<{w}} {row['system']:<16} {row['pivot_wavelength']:9.4f} {row['fwhm']:8.4f} "
             f"{row['vega_zero_point']:11.1f} {row['ab_minus_vega']:7.3f} {row['vega_magnitude']:7.2f} "
             f"{row['response']:<8} {row['note']}"
         )
@@ -95,7 +114,8 @@ def format_band(band: Band) -> str:
         ("FWHM", f"{d['fwhm_um']:.5f} um"),
         ("equivalent width", f"{d['width_um']:.5f} um"),
         ("range", f"{band.wavelength_min:.4f}-{band.wavelength_max:.4f} um"),
-        ("Vega zero point", f"{d['vega_zp_jy']:.2f} Jy = {band.vega_zero_point_flux_lambda:.4e} W m-2 um-1"),
+        ("Vega zero point", f"{d['vega_zp_jy']:.2f} Jy = {band.vega_zero_point_flux_lambda:.4e} W m-2 um-1"
+         if math.isfinite(d["vega_zp_jy"]) else "none (the Vega spectrum does not cover this band)"),
         ("AB - Vega", f"{d['ab_minus_vega']:+.4f} mag"),
         ("Vega's magnitude", f"{d['vega_mag']:.2f} mag"),
         ("catalogue system", d["native"]),

@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import BandError, InputError
+from ..parameters import MAGNITUDE
 from .bands import Band, get_band
 
 __all__ = ["INPUT_KINDS", "Measurement", "read_photometry_table", "parse_flux_unit"]
@@ -125,7 +126,7 @@ def _lookup_band(name, custom, counting, path, where) -> Band:
 def _table_rows(path: Path) -> tuple[list[str], list[dict[str, str]]]:
     """Header and rows of a CSV or ECSV file (cells as stripped strings)."""
     try:
-        text = path.read_text()
+        text = path.read_text(encoding="utf-8-sig")      # a spreadsheet's "CSV UTF-8" starts with a BOM
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(f"cannot read photometry table: {exc}", path) from None
     if text.lstrip().startswith("# %ECSV"):
@@ -134,7 +135,7 @@ def _table_rows(path: Path) -> tuple[list[str], list[dict[str, str]]]:
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                table = Table.read(path, format="ascii.ecsv")
+                table = Table.read(text.splitlines(), format="ascii.ecsv")
         except Exception as exc:  # astropy raises many types for a malformed ECSV
             raise InputError(f"malformed ECSV table: {exc}", path) from None
         names = [n.strip().lower() for n in table.colnames]
@@ -256,6 +257,9 @@ def read_photometry_table(path, custom: dict | None = None, counting: str = "pho
                                  path, where)
         elif unit:
             raise InputError(f"unit {unit!r} given for kind {kind!r}; only flux rows take a unit", path, where)
+        if kind.endswith("_mag") and not MAGNITUDE.contains(value):
+            raise InputError(f"a {kind} value must be in {MAGNITUDE.interval} mag ({MAGNITUDE.meaning}); "
+                             f"got {value!r}", path, where)
         if kind == "contrast_ratio" and value <= 0:
             raise InputError(f"a flux ratio must be > 0 (give an upper limit for a non-detection), got {value!r}",
                              path, where)

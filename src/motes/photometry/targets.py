@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import BandError, InputError
-from ..parameters import accepts_quantities
+from ..parameters import MAGNITUDE, STAR_TEFF, accepts_quantities
 from ..tomlcheck import check_keys, check_tables, get_table, read_number
 from .bands import COUNTING_MODES, Band, gaussian_band, read_band_curve, top_hat_band
 from .measurement_table import Measurement, _lookup_band, read_photometry_table
@@ -92,6 +92,10 @@ class HostStar:
     Distances are [pc]; parallax [mas]; ``teff`` [K]. Unknown values are nan.
     When a parallax is given, ``distance_pc`` is left nan and the distance
     is derived from the parallax by :func:`motes.photometry.calibrate`.
+    ``ra_deg``, ``dec_deg`` (ICRS [deg]) and the proper motion
+    ``pm_ra_mas_yr`` (mu_alpha* = mu_alpha cos delta), ``pm_dec_mas_yr``
+    [mas/yr] with their 1-sigma errors are used by the common-proper-motion
+    test (:mod:`motes.companion.motion`); nan when not given.
     """
 
     name: str = "host"
@@ -102,6 +106,12 @@ class HostStar:
     parallax_mas_error: float = math.nan
     teff: float = math.nan
     spectrum: HostSpectrum | None = None
+    ra_deg: float = math.nan
+    dec_deg: float = math.nan
+    pm_ra_mas_yr: float = math.nan
+    pm_ra_mas_yr_error: float = math.nan
+    pm_dec_mas_yr: float = math.nan
+    pm_dec_mas_yr_error: float = math.nan
 
     def magnitude_in(self, band: Band) -> HostMagnitude | None:
         """The catalogue magnitude in ``band`` (matched by name), or None."""
@@ -286,7 +296,8 @@ def _read_host(doc, path, custom, counting) -> HostStar:
     host = doc.get("host")
     if not isinstance(host, dict):
         raise InputError("missing [host] table (host star photometry and distance)", path, "[host]")
-    check_keys(host, ("name", "distance_pc", "parallax_mas", "teff_k", "magnitudes", "spectrum"),
+    check_keys(host, ("name", "distance_pc", "parallax_mas", "teff_k", "magnitudes", "spectrum",
+                      "ra_deg", "dec_deg", "pm_ra_mas_yr", "pm_dec_mas_yr"),
                path=path, where="[host]")
     name = host.get("name", "host")
     if not isinstance(name, str):
@@ -309,8 +320,9 @@ def _read_host(doc, path, custom, counting) -> HostStar:
     teff = math.nan
     if "teff_k" in host:
         teff = read_number(host["teff_k"], path=path, where="[host] teff_k", what="Teff [K]")
-        if teff <= 0:
-            raise InputError(f"Teff must be > 0 K, got {teff!r}", path, "[host] teff_k")
+        if not STAR_TEFF.contains(teff):
+            raise InputError(f"Teff must be in {STAR_TEFF.interval} K ({STAR_TEFF.meaning}), got {teff!r}",
+                             path, "[host] teff_k")
     spectrum = None
     if "spectrum" in host:
         spec = host["spectrum"]
@@ -340,8 +352,28 @@ def _read_host(doc, path, custom, counting) -> HostStar:
                 raise InputError(f"system must be 'Vega' or 'AB', got {system!r}", path, where)
             val = [val.get("mag"), val.get("error")]
         m, e = _pair(val, path, where, "magnitude")
+        if not MAGNITUDE.contains(m):
+            raise InputError(f"a magnitude must be in {MAGNITUDE.interval} mag, got {m!r}", path, where)
         entries.append(HostMagnitude(band, m, e, system))
-    return HostStar(name, tuple(entries), d, de, p, pe, teff, spectrum)
+    return HostStar(name, tuple(entries), d, de, p, pe, teff, spectrum, *_read_host_motion(host, path))
+
+
+def _read_host_motion(host, path) -> tuple[float, ...]:
+    """``ra_deg, dec_deg, pm_ra, pm_ra_error, pm_dec, pm_dec_error`` of ``[host]`` (nan when absent)."""
+    ra = dec = math.nan
+    if "ra_deg" in host:
+        ra = read_number(host["ra_deg"], path=path, where="[host] ra_deg", what="right ascension [deg]")
+        if not 0.0 <= ra < 360.0:
+            raise InputError(f"right ascension must be in [0, 360) deg, got {ra!r}", path, "[host] ra_deg")
+    if "dec_deg" in host:
+        dec = read_number(host["dec_deg"], path=path, where="[host] dec_deg", what="declination [deg]")
+        if not -90.0 <= dec <= 90.0:
+            raise InputError(f"declination must be in [-90, 90] deg, got {dec!r}", path, "[host] dec_deg")
+    pm = [math.nan] * 4
+    for i, key in enumerate(("pm_ra_mas_yr", "pm_dec_mas_yr")):
+        if key in host:
+            pm[2 * i], pm[2 * i + 1] = _pair(host[key], path, f"[host] {key}", "proper motion [mas/yr]")
+    return (ra, dec, *pm)
 
 
 def _read_settings(doc, path) -> CalibrationSettings:

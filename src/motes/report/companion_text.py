@@ -35,11 +35,11 @@ def _ranking_lines(r: Ranking, top: int) -> list[str]:
         lines.append(f"bands not used: {' '.join(r.unused_bands)}")
     offset_name = "dm" if r.mode == "colours" else "delta"
     width = max(8, min(40, max(len(row.label) for row in r.rows[:top])))
-    lines.append(f"{'rank':>4}  {'template':<{width}} {'Teff[K]':>7} {'mass':>6} {'chi2':>7} {'dof':>3} "
-                 f"{'prob':>6} {offset_name + '[mag]':>9} {'dist[pc]':>9}" + ("  A_V" if r.extra.get("av") else ""))
+    lines.append(f"{'rank':>4}  {'template':<{width}} {'Teff[K]':>7} {'mass[Msun]':>10} {'chi2':>7} {'dof':>3} "
+                 f"{'prob':>6} {offset_name + '[mag]':>9} {'dist[pc]':>9}" + ("  A_V[mag]" if r.extra.get("av") else ""))
     has_av = any(row.av > 0 for row in r.rows)
     for i, row in enumerate(r.rows[:top], 1):
-        text = (f"{i:>4}  {row.label:<{width}} {_fmt(row.teff, '.0f', 7)} {_fmt(row.mass, '.3f', 6)} "
+        text = (f"{i:>4}  {row.label:<{width}} {_fmt(row.teff, '.0f', 7)} {_fmt(row.mass, '.3f', 10)} "
                 f"{_fmt(row.chi2, '.2f', 7)} {row.dof:>3} {_fmt(row.probability, '.3f', 6)} "
                 f"{_fmt(row.offset, '+.2f', 9)} {_fmt(row.distance_pc, '.4g', 9)}")
         if has_av:
@@ -80,7 +80,11 @@ def format_classification(result: Classification, top: int = 8) -> str:
     if est is not None:
         lines.append(f"spectral type : {est.label}  [{est.source}, {_MODE_NAMES[est.mode]}]")
         lines.append(f"Teff          : {est.teff.format('.0f')}")
-        lines.append(f"mass          : {est.mass.format('.3f')}  (depends on the assumed age; see caveats)")
+        if math.isfinite(est.mass.median):
+            lines.append(f"mass          : {est.mass.format('.3f')}  (depends on the assumed age; see caveats)")
+        else:
+            lines.append("mass          : no mass (the template set gives none for these types; a mass needs "
+                         "an age: see caveats)")
         for other in result.estimates:
             if other is not est and math.isfinite(other.median):
                 lines.append(f"  also        : {other.label}  [{other.source}, {_MODE_NAMES[other.mode]}]")

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..dust.fit.evidence import VERDICT_RULE
+from ..dust.fit.evidence import VERDICT_RULE, parameter_unit
 from ..dust.fit.results import FitResult
 from ..files import write_text_atomic
 
@@ -53,10 +53,13 @@ def format_fit_report(result: FitResult) -> str:
     for m in result.models[: min(2, len(result.models))]:
         lines += ["", f"Model {m.name}: posterior median, 68% and 95% intervals"]
         for row in m.summary:
-            lines.append(f"  {row['parameter']:<28} {_fmt(row['median']):>9}  "
+            unit = parameter_unit(row["parameter"])
+            name = f"{row['parameter']} [{unit}]" if unit else row["parameter"]
+            lines.append(f"  {name:<28} {_fmt(row['median']):>9}  "
                          f"[{_fmt(row['lo68'])}, {_fmt(row['hi68'])}]  [{_fmt(row['lo95'])}, {_fmt(row['hi95'])}]"
                          f"  95% upper {_fmt(row['upper95'])}")
-        best = ", ".join(f"{k} = {_fmt(v)}" for k, v in m.best.items())
+        best = ", ".join(f"{k} = {_fmt(v)}" + (f" {parameter_unit(k)}" if parameter_unit(k) else "")
+                         for k, v in m.best.items())
         lines.append(f"  maximum likelihood: chi2 = {m.best_chi2:.2f} for {m.dof} dof; {best}")
     if result.priors:
         lines += ["", "Priors:"] + [f"  {name}: {text}" for name, text in result.priors]

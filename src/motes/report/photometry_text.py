@@ -12,7 +12,9 @@ import math
 import re
 from pathlib import Path
 
-from ..errors import InputError
+import numpy as np
+
+from ..errors import InputError, PhotometryError
 from ..files import atomic_writes
 from ..photometry.measurements import CalibratedPhotometry
 
@@ -23,6 +25,13 @@ def _fmt(value, spec, width):
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "-".rjust(width)
     return format(value, spec).rjust(width)
+
+
+def _limit(sign, value, spec, width):
+    """A value with its limit sign (">" fainter than, "<" less than); "-" when there is none."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "-".rjust(width)
+    return (sign + format(value, spec)).rjust(width)
 
 
 def format_photometry(result: CalibratedPhotometry) -> str:
@@ -38,8 +47,8 @@ def format_photometry(result: CalibratedPhotometry) -> str:
         Multi-line text: one row per band (Vega apparent magnitude, f_nu in
         mJy, absolute magnitude, flags), the distance modulus once, then notes.
     """
-    head = (f"{'band':<12} {'pivot':>6} {'input':<14} {'m_Vega':>7} {'±':>6} {'f_nu[mJy]':>10} "
-            f"{'±':>9} {'M_Vega':>7} {'±':>6}  flags")
+    head = (f"{'band':<12} {'pivot[um]':>9} {'input':<14} {'m_Vega':>8} {'±':>6} {'f_nu[mJy]':>10} "
+            f"{'±':>9} {'M_Vega':>8} {'±':>6}  flags")
     lines = [f"Calibrated photometry of {result.target}", "", head, "-" * len(head)]
     footnotes = []
     for r in result.rows:
@@ -54,15 +63,17 @@ def format_photometry(result: CalibratedPhotometry) -> str:
         if r.notes:
             footnotes.append((r.band.name, r.notes))
             mark = f"[{len(footnotes)}]"
+        faint, bright = (">", "<") if r.is_limit else ("", "")   # a limit: fainter than, less flux than
         lines.append(
-            f"{r.band.name:<12} {r.band.pivot_wavelength:6.3f} {r.input_kind:<14} "
-            f"{_fmt(r.apparent_mag, '.3f', 7)} {_fmt(r.apparent_mag_error, '.3f', 6)} "
-            f"{_fmt(r.flux_jy * 1e3, '.4g', 10)} {_fmt(r.flux_jy_error * 1e3, '.2g', 9)} "
-            f"{_fmt(r.absolute_mag, '.3f', 7)} {_fmt(r.absolute_mag_error, '.3f', 6)}  "
+            f"{r.band.name:<12} {r.band.pivot_wavelength:9.3f} {r.input_kind:<14} "
+            f"{_limit(faint, r.apparent_mag, '.3f', 8)} {_fmt(r.apparent_mag_error, '.3f', 6)} "
+            f"{_limit(bright, r.flux_jy * 1e3, '.4g', 10)} {_fmt(r.flux_jy_error * 1e3, '.2g', 9)} "
+            f"{_limit(faint, r.absolute_mag, '.3f', 8)} {_fmt(r.absolute_mag_error, '.3f', 6)}  "
             f"{' '.join(flags + [mark]).strip()}"
         )
     lines.append("")
-    lines.append("flags: <Nσ = N-sigma upper limit (limiting values; '±' of f_nu is the 1-sigma noise), "
+    lines.append("flags: <Nσ = N-sigma upper limit (values shown as > magnitude, < flux; '±' of f_nu is "
+                 "the 1-sigma noise), "
                  "S = host magnitude synthesised from a spectrum model, A = approximate band")
     if math.isfinite(result.distance_modulus):
         lines.append(
@@ -116,6 +127,15 @@ def write_photometry(result: CalibratedPhotometry, folder, csv: bool = False,
         raise InputError(f"cannot create output folder: {exc}", folder) from None
     stem = stem or photometry_file_stem(result.target)
     table = result.to_table()
+    # last check before anything is written: every row's magnitude and flux are finite numbers
+    for name in ("apparent_mag", "ab_mag", "flux", "flux_lambda"):
+        values = np.asarray(table[name], dtype=float)
+        bad = ~np.isfinite(values) | ((values <= 0) if name.startswith("flux") else False)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise PhotometryError(f"the calibrated {name} of band {table['band'][i]} is {values[i]!r}, not a "
+                                  "finite number; nothing was written. Check that band's inputs (value, "
+                                  "host magnitude, teff_k)", folder)
     plans = [(folder / f"{stem}.ecsv", "ascii.ecsv", table)]
     if csv:
         flat = table.copy()

@@ -4,6 +4,7 @@
 - :mod:`~motes.dust.fit.priors` — priors and the parameter space of one model;
 - :mod:`~motes.dust.fit.problem` — forward model + data + priors as a likelihood
   (the noise model itself is :mod:`motes.dust.likelihood`);
+- :mod:`~motes.dust.fit.scale_check` — does the ``[scale]`` prior hold the scale the data need;
 - :mod:`~motes.dust.fit.sampler` — dynesty runs, checkpoints and pools;
 - :mod:`~motes.dust.fit.evidence` — ranking by ln Z and the material verdicts;
 - :mod:`~motes.dust.fit.results` — result objects and their files;

@@ -26,7 +26,7 @@ from typing import Callable
 
 import numpy as np
 
-from ...errors import FitError
+from ...errors import FitError, quoted_names
 from ...parameters import PARAMETERS, PRIOR_PARAMETERS
 from ...tomlcheck import check_keys
 from ..likelihood import ScalePrior
@@ -95,7 +95,7 @@ class Prior:
 
     def __post_init__(self):
         if self.kind not in PRIOR_KINDS:
-            raise FitError(f"prior kind must be one of {PRIOR_KINDS}, got {self.kind!r}")
+            raise FitError(f"prior kind must be one of {quoted_names(PRIOR_KINDS)}, got {self.kind!r}")
         if self.kind == "fixed":
             if not math.isfinite(self.value):
                 raise FitError(f"a fixed parameter needs a finite value, got {self.value!r}")
@@ -210,7 +210,7 @@ class ParameterSpace:
             raise FitError("a model needs at least one material")
         if self.a_min.relative_to == "blowout" and self.blowout is None:
             raise FitError("a_min tied to the blow-out size needs the star's luminosity and mass")
-        for name in ("porosity",):
+        for name in ("porosity", "q"):
             p, declared = getattr(self, name), PARAMETERS[name]
             lo = p.value if p.kind == "fixed" else p.lower
             hi = p.value if p.kind == "fixed" else p.upper

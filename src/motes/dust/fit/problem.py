@@ -20,7 +20,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ...errors import FitError, MotesError
+from ...errors import FitError, MotesError, quoted_names
 from ...parameters import MIXTURE_PARAMETERS
 from .spec import FitSpec, ModelSpec
 from ..likelihood import chi_square_with_best_scale, effective_errors, ln_likelihood
@@ -84,7 +84,7 @@ def _blowout_function(spec: FitSpec, colour_model):
     lum, mass = star.luminosity, star.mass
     missing = [m.name for m in colour_model.materials if not (np.isfinite(m.density) and m.density > 0)]
     if missing:
-        raise FitError(f"a_min tied to the blow-out size needs the bulk density of {missing}")
+        raise FitError(f"a_min tied to the blow-out size needs the bulk density of {quoted_names(missing)}")
     porosity = spec.parameters.get("porosity")
     if porosity is None or not porosity.free:
         ends = [0.0 if porosity is None else porosity.value]
@@ -95,7 +95,7 @@ def _blowout_function(spec: FitSpec, colour_model):
     sizes = colour_model.blowout_sizes(pure, np.tile(ends, k), lum, mass)
     if not np.all(np.isfinite(sizes)):
         bad = sorted({colour_model.materials[i // len(ends)].name for i in np.flatnonzero(~np.isfinite(sizes))})
-        raise FitError(f"{spec.source}: a_min is tied to the blow-out size, but grains of {bad} are never blown "
+        raise FitError(f"{spec.source}: a_min is tied to the blow-out size, but grains of {quoted_names(bad)} are never blown "
                        f"out by this star (beta < 1/2 at every size, L = {lum:g} L_sun, M = {mass:g} M_sun); "
                        "give a_min in um instead")
 

@@ -30,7 +30,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ...errors import FitError
+from ...errors import FitError, quoted_names
 from ...files import atomic_write, format_stamp, stamp_problem, write_json_atomic
 from .evidence import Verdict
 
@@ -141,7 +141,8 @@ class ModelResult:
         try:
             return self.samples[:, self.sample_names.index(name)]
         except ValueError:
-            raise FitError(f"model '{self.name}' has no parameter {name!r}; it has {list(self.sample_names)}") from None
+            raise FitError(f"model '{self.name}' has no parameter '{name}'; it has "
+                           f"{quoted_names(self.sample_names)}") from None
 
     def fraction_samples(self, material: str) -> np.ndarray:
         """Posterior samples of a material's volume fraction (zeros when absent), ndarray[M]."""

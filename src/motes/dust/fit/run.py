@@ -24,17 +24,20 @@ from __future__ import annotations
 import json
 import math
 import shutil
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from ...errors import FitError, MotesError
-from ...files import format_stamp, stamp_problem, write_text_atomic
-from .evidence import ModelEvidence, material_verdicts, rank_models, summarise_posterior
+from ...progress import remaining_estimate
+from ...files import default_output_folder, format_stamp, stamp_problem, write_text_atomic
+from .evidence import ModelEvidence, material_verdicts, parameter_unit, rank_models, summarise_posterior
 from .problem import ProblemHandle, HandleLikelihood, HandlePriorTransform, read_fit_photometry, reset_traces
 from .results import (FIT_CAVEATS, FIT_FORMAT_VERSION, FitResult, ModelResult, read_model_result,
                       write_result_json, write_result_table)
+from .scale_check import check_scale_prior, scale_bound_notes
 from .spec import FitSpec, read_fit_description
 from .sampler import open_pool, run_nested_model
 
@@ -53,7 +56,8 @@ class FitRunSettings:
     Parameters
     ----------
     output : pathlib.Path or None
-        Run folder; default ``<description stem>_fit`` beside the description.
+        Run folder; default ``./<description stem>_fit`` in the current folder (a
+        run folder beside the description, the earlier default, is still resumed).
     workers : int
         Processes evaluating the likelihood (1 = in this process).
     resume : bool
@@ -83,8 +87,10 @@ def prepare_fit(spec: FitSpec, model_factory=None):
     ------
     motes.errors.FitError
         Fewer detections than free parameters, materials that do not cover
-        the bands, a_min bounds reaching a_max, and similar problems, each
-        naming the model.
+        the bands, a_min bounds reaching a_max, data that need a flux scale
+        outside the ``[scale]`` prior
+        (:func:`~motes.dust.fit.scale_check.check_scale_prior`), and similar
+        problems, each naming the model.
     """
     obs = read_fit_photometry(spec)
     a_min, a_max = spec.parameters.get("a_min"), spec.parameters.get("a_max")
@@ -111,14 +117,25 @@ def prepare_fit(spec: FitSpec, model_factory=None):
                 f"{max(len(model.materials) - 1, 0)}, others {need - 1 - max(len(model.materials) - 1, 0)}, "
                 f"flux scale 1) but the data have only {obs.n_detections} detected bands; "
                 "fix some parameters or add bands")
+        check_scale_prior(problem, model.name, spec.source)
         handles.append(handle)
     return obs, tuple(handles)
 
 
 # ---------------------------------------------------------- run folder
 def _default_output(spec: FitSpec) -> Path:
+    """``./<description stem>_fit`` (:func:`motes.files.default_output_folder`).
+
+    A run folder left beside the description by an earlier version (the
+    default before the one rule) is still found and resumed when the current
+    folder holds none.
+    """
+    folder = default_output_folder(spec.source, "fit")
     stem = Path(spec.source).stem if spec.source != "<string>" else "fit"
-    return spec.base_dir / f"{stem}_fit"
+    earlier = spec.base_dir / f"{stem}_fit"
+    if not folder.exists() and (earlier / _STATE).is_file():
+        return earlier
+    return folder
 
 
 def _prepare_run_dir(run_dir: Path, spec: FitSpec, settings: FitRunSettings, echo) -> None:
@@ -190,6 +207,7 @@ def _postprocess(handle: ProblemHandle, run, spec: FitSpec, obs, folder: Path, s
     dof = obs.n_detections - space.n_effective
 
     summary = summarise_posterior(samples, sample_names)
+    summary["unit"] = [parameter_unit(n) for n in sample_names]   # a_min, a_max in um, angle in deg
     pick = rng.choice(samples.shape[0], size=min(_N_PREDICTIVE, samples.shape[0]), replace=False)
     pred = problem.model_ratios(eq[pick]) * scale[pick][:, None]
     best_theta = run.samples[top][i][None, :]
@@ -208,7 +226,17 @@ def _postprocess(handle: ProblemHandle, run, spec: FitSpec, obs, folder: Path, s
         best_chi2=float(chi2[i]), dof=int(dof), best_ln_l=float(ln_l[i]), summary=summary,
         colours=colours, sessions=tuple(sessions), folder=folder,
     )
+    # last check before anything is written: a result with a non-finite evidence or best fit is meaningless
+    bad = [k for k, v in (("ln Z", run.ln_z), ("ln Z error", run.ln_z_err), ("best chi2", chi2[i]),
+                          *best.items()) if not np.isfinite(v)]
+    if bad or not np.all(np.isfinite(samples)):
+        raise FitError(f"{spec.source}: model '{handle.model.name}': the fit produced non-finite values "
+                       f"({', '.join(bad) or 'posterior samples'}); nothing was written for it. The model is "
+                       "NaN somewhere in the prior: check the priors and the data")
     table = Table(samples, names=sample_names)
+    for n in sample_names:
+        if parameter_unit(n):
+            table[n].unit = parameter_unit(n)
     table.meta["model"] = handle.model.name
     table.meta["note"] = "equally weighted posterior samples; scale drawn from p(scale | parameters, data)"
     write_result_table(table, folder / "samples.ecsv")
@@ -276,7 +304,17 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     run_dir = Path(settings.output) if settings.output is not None else _default_output(spec)
     _prepare_run_dir(run_dir, spec, settings, echo)
 
-    results = [_run_model(i, h, spec, obs, run_dir, settings, echo) for i, h in enumerate(handles)]
+    results, timed = [], []
+    for i, h in enumerate(handles):
+        fresh = not (run_dir / "models" / h.model.folder_name / "sampler_state.dynesty").exists() and not (
+            run_dir / "models" / h.model.folder_name / "result.json").exists()
+        start = time.perf_counter()
+        results.append(_run_model(i, h, spec, obs, run_dir, settings, echo))
+        if fresh:   # sampled from start to end now: its rate is this session's
+            timed.append((results[-1].n_calls, time.perf_counter() - start))
+        line = remaining_estimate(timed, [r.n_calls for r in results], len(handles) - len(results))
+        if line and settings.progress:
+            echo(f"  {line}")
     full = spec.full_model.name if spec.full_model is not None else None
     evid = [ModelEvidence(r.name, r.materials, r.ln_z, r.ln_z_err) for r in results]
     ranking = rank_models(evid, full)
@@ -284,7 +322,7 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     by_name = {r.name: r for r in results}
     verdict_table = _verdict_table(verdicts, by_name)
     ordered = tuple(by_name[n] for n in ranking["model"])
-    notes = list(obs.notes) + _model_notes(handles) + _bound_notes(ordered, spec)
+    notes = list(obs.notes) + _model_notes(handles) + _bound_notes(ordered, handles)
 
     files = [run_dir / "ranking.ecsv", run_dir / "verdicts.ecsv"]
     write_result_table(ranking, files[0])
@@ -306,9 +344,10 @@ def _verdict_table(verdicts, by_name):
             frac = by_name[v.with_model].fraction_samples(v.material)
             upper, median = float(np.percentile(frac, 95)), float(np.median(frac))
         rows.append((v.material, v.verdict, v.ln_b, v.ln_b_err, v.strength, v.with_model, v.without_model,
-                     v.pairing, median, upper))
+                     v.pairing, median, upper, v.borderline))
     table = Table(rows=rows, names=("material", "verdict", "ln_b", "ln_b_err", "strength", "with_model",
-                                    "without_model", "pairing", "fraction_median", "fraction_upper95"))
+                                    "without_model", "pairing", "fraction_median", "fraction_upper95",
+                                    "borderline"))
     from .evidence import VERDICT_RULE
 
     table.meta["rule"] = VERDICT_RULE
@@ -323,11 +362,14 @@ def _model_notes(handles) -> list[str]:
     return notes
 
 
-def _bound_notes(models, spec: FitSpec) -> list[str]:
+def _bound_notes(models, handles) -> list[str]:
+    """Notes where a scale-prior bound cuts into the scale's likelihood at the best fit (see scale_check)."""
+    by_name = {h.model.name: h for h in handles}
     out = []
     for m in models:
-        s = m.best.get("scale", math.nan)
-        if np.isfinite(s) and (s < spec.scale.lower * 1e3 or s > spec.scale.upper / 1e3):
-            out.append(f"model {m.name}: best flux scale {s:.3g} lies within a factor 1000 of the scale "
-                       f"prior's bounds [{spec.scale.lower:g}, {spec.scale.upper:g}]; widen [scale]")
+        handle = by_name.get(m.name)
+        if handle is None or not all(n in m.best for n in handle.space.names):
+            continue
+        theta = np.array([m.best[n] for n in handle.space.names])
+        out += scale_bound_notes(handle.build(), m.name, theta, m.best.get("scale", math.nan))
     return out

@@ -60,7 +60,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ...errors import FitError, InputError
+from ...errors import FitError, InputError, quoted_names
 from ...parameters import PARAMETERS, PRIOR_PARAMETERS
 from ...tomlcheck import check_keys, check_tables, get_table
 from ..model.description import MODEL_TABLES, ModelDescription, parse_model_description
@@ -202,7 +202,8 @@ def build_model_set(kind: str, materials, keep=(), explicit=None) -> tuple[Model
     materials = tuple(materials)
     unknown = [m for m in keep if m not in materials]
     if unknown:
-        raise FitError(f"[models] keep names unknown material(s) {unknown}; materials are {list(materials)}")
+        raise FitError(f"[models] keep names unknown material(s) {quoted_names(unknown)}; "
+                       f"the materials are {quoted_names(materials)}")
     free = [m for m in materials if m not in keep]
     if kind == "all-subsets":
         out = []
@@ -223,12 +224,13 @@ def build_model_set(kind: str, materials, keep=(), explicit=None) -> tuple[Model
             names = list(entry)
             bad = [m for m in names if m not in materials]
             if bad:
-                raise FitError(f"[models] list entry {i + 1} names unknown material(s) {bad}; materials are {list(materials)}")
+                raise FitError(f"[models] list entry {i + 1} names unknown material(s) {quoted_names(bad)}; "
+                               f"the materials are {quoted_names(materials)}")
             if not names:
                 raise FitError(f"[models] list entry {i + 1} is empty")
             out.append(_model(set(names) | set(keep), materials))
     else:
-        raise FitError(f"[models] set must be one of {MODEL_SETS}, got {kind!r}")
+        raise FitError(f"[models] set must be one of {quoted_names(MODEL_SETS)}, got {kind!r}")
     seen, unique = set(), []
     for m in out:
         if m.materials not in seen:
@@ -412,7 +414,8 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     try:
         digest.update(photometry_path.read_bytes())
     except OSError:
-        raise InputError(f"cannot read the photometry file {photometry_path}", path, "[data] photometry") from None
+        raise InputError(f"cannot read the photometry file {base_dir / data['photometry']}", path,
+                         "[data] photometry") from None
     for extra in _referenced_files(doc, base_dir):
         digest.update(extra.read_bytes())
     return FitSpec(

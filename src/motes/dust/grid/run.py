@@ -40,6 +40,7 @@ __all__ = [
     "check_grid_size",
     "default_store_path",
     "describe_dry_run",
+    "PROBE_MAX_POINTS",
 ]
 
 
@@ -124,20 +125,26 @@ class GridProbe:
     Attributes
     ----------
     n_probe : int
-        Points evaluated (after a warm-up point).
+        Points in the timed batch.
     build_seconds : float
-        Time to build the model (once per worker).
+        Time to build the model and evaluate its first point (tables loaded
+        or built, compiled code ready; once per run).
     seconds_per_point : float
-        Evaluation time per point on one core.
+        Evaluation time per point on one core, in a batch of ``n_probe``
+        points once the model is warm (what every further chunk costs).
+    warmup_seconds : float
+        Extra time of the first evaluation of that batch over a warm one
+        (interpolation slices assembled, tiles loaded; paid once per run).
     """
 
     n_probe: int
     build_seconds: float
     seconds_per_point: float
+    warmup_seconds: float = 0.0
 
     def estimate_seconds(self, n_points: int, workers: int) -> float:
-        """Run time estimate: build once plus n_points spread evenly over workers."""
-        return self.build_seconds + n_points * self.seconds_per_point / max(workers, 1)
+        """Run time estimate: build and warm-up once, plus n_points spread evenly over workers."""
+        return self.build_seconds + self.warmup_seconds + n_points * self.seconds_per_point / max(workers, 1)
 
 
 def store_manifest(spec: GridSpec, observations: DiskPhotometry) -> dict:
@@ -177,8 +184,18 @@ def check_grid_size(spec: GridSpec, settings: GridRunSettings) -> None:
             "check the estimate with --dry-run, then confirm with --yes")
 
 
-def probe_grid(spec: GridSpec, model_factory=None, n_probe: int = 16) -> GridProbe:
-    """Time the model on a few points spread over the grid (for ``--dry-run``).
+#: the timed batch of a probe holds at most this many points
+PROBE_MAX_POINTS = 1000
+
+
+def probe_grid(spec: GridSpec, model_factory=None, n_probe: int = 16, clock=time.perf_counter) -> GridProbe:
+    """Time the model on the real path, on points spread over the grid (for ``--dry-run``).
+
+    The model is built as a run builds it (lookup tables loaded, or built
+    when missing), then one batch of points spread evenly over the keys (so
+    over every axis) is evaluated twice: the first pass carries the one-off
+    costs (interpolation slices, tiles), the second is timed as what every
+    chunk of a run costs per point.
 
     Parameters
     ----------
@@ -186,27 +203,41 @@ def probe_grid(spec: GridSpec, model_factory=None, n_probe: int = 16) -> GridPro
     model_factory : callable, optional
         As in :func:`run_grid`.
     n_probe : int
-        Points to time (spread evenly over the keys, so over every axis).
+        Fewest points in the timed batch; the batch is a chunk's worth of
+        points (``spec.chunk_size``, at most :data:`PROBE_MAX_POINTS`) when
+        that is more, and never more than the grid.
+    clock : callable
+        Seconds as a float (``time.perf_counter``; tests pass a stub).
 
     Returns
     -------
     GridProbe
     """
-    start = time.perf_counter()
+    start = clock()
     evaluator = GridEvaluator(spec, model_factory or build_disk_model)
-    evaluator.evaluate(np.array([0]))            # warm-up: compiled paths, caches
-    build = time.perf_counter() - start
-    keys = np.unique(np.linspace(0, spec.n_points - 1, min(n_probe, spec.n_points)).astype(np.int64))
-    start = time.perf_counter()
-    evaluator.evaluate(keys)
-    elapsed = time.perf_counter() - start
-    return GridProbe(n_probe=int(keys.size), build_seconds=build, seconds_per_point=elapsed / keys.size)
+    evaluator.evaluate(np.array([0]))            # compiled paths, first tiles
+    build = clock() - start
+    size = min(spec.n_points, max(n_probe, min(spec.chunk_size, PROBE_MAX_POINTS)))
+    keys = np.unique(np.linspace(0, spec.n_points - 1, size).astype(np.int64))
+    start = clock()
+    evaluator.evaluate(keys)                     # first pass: one-off costs included
+    first = clock() - start
+    start = clock()
+    evaluator.evaluate(keys)                     # warm pass: the cost of a chunk
+    warm = clock() - start
+    return GridProbe(n_probe=int(keys.size), build_seconds=build, seconds_per_point=warm / keys.size,
+                     warmup_seconds=max(first - warm, 0.0))
 
 
 def default_store_path(spec: GridSpec) -> Path:
-    """Store folder used when none is given: ``./<description stem>_grid``."""
-    stem = Path(spec.source).stem if spec.source != "<string>" else "motes"
-    return Path.cwd() / f"{stem}_grid"
+    """Store folder used when none is given: ``./<description stem>_grid``.
+
+    The one default of every command (:func:`motes.files.default_output_folder`),
+    made absolute.
+    """
+    from ...files import default_output_folder
+
+    return Path.cwd() / default_output_folder(spec.source, "grid")
 
 
 def describe_dry_run(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings(),
@@ -249,10 +280,12 @@ def describe_dry_run(spec: GridSpec, output, settings: GridRunSettings = GridRun
     probe = probe_grid(spec, model_factory)
     rate = 1.0 / probe.seconds_per_point
     lines.append(f"  timing probe: {probe.n_probe} points at {probe.seconds_per_point * 1e3:.3g} ms per point "
-                 f"on one core ({rate:,.0f} points/s) after {probe.build_seconds:.1f} s to build the model")
+                 f"on one core ({rate:,.0f} points/s) after {probe.build_seconds:.1f} s to build the model "
+                 f"and {probe.warmup_seconds:.1f} s of warm-up")
     if settings.scheduler:
         lines.append(f"  estimated run time on Dask ({settings.scheduler}): "
-                     f"{_duration(n * probe.seconds_per_point)} divided by the cluster's worker threads")
+                     f"{_duration(n * probe.seconds_per_point)} divided by the cluster's worker threads, plus "
+                     f"{_duration(probe.build_seconds + probe.warmup_seconds)} for each worker to build its model")
     else:
         w = settings.resolved_workers()
         lines.append(f"  estimated run time with {w} local process{'es' if w > 1 else ''}: "
@@ -305,7 +338,10 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
     -----
     Order of checks, so that a refusal never changes anything on disk: grid
     size, then compatibility of an existing store, then the scheduler, then
-    the model on one point; only then is the store created (or overwritten).
+    the model on one point; only then is the store created (or overwritten,
+    under the writer lock). Every part already in the store is verified
+    (:meth:`GridStore.damaged_parts`); a damaged one is moved aside, named
+    through ``echo``, and its chunk computed again.
     """
     check_grid_size(spec, settings)
     workers = 0 if settings.scheduler else settings.resolved_workers()       # validates the setting
@@ -322,6 +358,8 @@ def run_grid(spec: GridSpec, output, settings: GridRunSettings = GridRunSettings
             local.evaluate(spec.chunk_keys(0)[:1])
         store = GridStore.prepare(output, manifest, overwrite=settings.overwrite)
         with store:
+            for path, why in store.set_aside_damaged():
+                echo(f"damaged part {path.name}: {why}; moved aside to {path.name}.damaged and computed again")
             done = set(store.completed_chunks())
             pending = [c for c in range(spec.n_chunks) if c not in done]
             resumed = store.completed_points()

@@ -56,7 +56,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ...errors import GridError, InputError
+from ...errors import GridError, InputError, quoted_names
 from ...parameters import MIXTURE_PARAMETERS, PARAMETERS, accepts_quantities
 from ...tomlcheck import check_keys, check_tables, get_table
 from ..model.description import MODEL_TABLES, ModelDescription, parse_model_description
@@ -302,7 +302,8 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
     if "a_max" not in grid:   # the description's single value
         axes["a_max"] = (description.a_max,)
     if max(axes["a_min"]) >= min(axes["a_max"]):
-        raise InputError(f"every a_min {list(axes['a_min'])} must be below every a_max {list(axes['a_max'])} [um]",
+        raise InputError(f"every a_min must be below every a_max; the largest a_min is {max(axes['a_min']):g} um, "
+                         f"the smallest a_max {min(axes['a_max']):g} um",
                          path=source, where="[grid] a_min")
     spec_args = dict(description=description, base_dir=base_dir, materials=materials, simplex=simplex, **axes)
     n_points = simplex.size * math.prod(len(v) for v in axes.values())
@@ -365,7 +366,8 @@ def _bounds(table, materials, n, source):
         raise InputError("expected a table of material = [min, max]", path=source, where=where)
     unknown = set(table) - set(materials)
     if unknown:
-        raise InputError(f"unknown material(s) {sorted(unknown)}; materials are {list(materials)}",
+        raise InputError(f"unknown material(s) {quoted_names(sorted(unknown))}; the materials are "
+                         f"{quoted_names(materials)}",
                          path=source, where=where)
     out = []
     for name in materials:
@@ -408,6 +410,9 @@ def _axis(grid, name, source) -> tuple[float, ...]:
     if name == "porosity" and not declared.contains(v).all():
         raise InputError(f"porosity is the vacuum volume fraction, in {declared.interval}; got {values}",
                          path=source, where=where)
+    if name == "q" and not declared.contains(v).all():
+        raise InputError(f"q ({declared.meaning}) must be in {declared.interval}, got {values}",
+                         path=source, where=where)
     if declared.physical_type == "length" and not declared.contains(v).all():   # a_min, a_max
         raise InputError(f"grain sizes [{declared.unit_text}] must be positive, got {values}", path=source, where=where)
     return tuple(values)
@@ -433,7 +438,10 @@ def _photometry_path(doc, base_dir, source) -> Path:
         raise InputError("missing [data] photometry = \"FILE\" (the disk photometry to compare against)",
                          path=source)
     check_keys(data, ("photometry",), path=source, where="[data]")
-    return (base_dir / data["photometry"]).resolve()
+    typed = Path(base_dir) / data["photometry"]
+    if not typed.is_file():   # named as the user gave it, not as the resolved absolute path
+        raise InputError(f"cannot read the photometry file {typed}", path=source, where="[data] photometry")
+    return typed.resolve()
 
 
 def _digest(doc, base_dir) -> str:

@@ -232,7 +232,8 @@ class GridStore:
     @classmethod
     def _overwrite(cls, path: Path, manifest: dict) -> "GridStore":
         """Replace the store at ``path`` by a new, empty one, holding the writer lock throughout."""
-        stray = sorted(p.name for p in path.iterdir() if p.name not in _OWN_ENTRIES)
+        stray = sorted(p.name for p in path.iterdir()
+                       if p.name not in _OWN_ENTRIES and temporary_target(p.name) not in _OWN_ENTRIES)
         if stray:
             raise GridError(
                 f"{path} holds files that are not part of its grid store ({', '.join(stray[:5])}"
@@ -278,7 +279,7 @@ class GridStore:
             except GridError:
                 _release_lock(fd)
                 raise
-            if on_disk != self.manifest:
+            if any(on_disk.get(k) != self.manifest.get(k) for k in ("grid_digest", "created", "motes_version")):
                 _release_lock(fd)
                 raise GridError(f"the store {self.path} was replaced by another motes grid run after it was "
                                 "opened; nothing was written. Run the command again")
@@ -335,8 +336,62 @@ class GridStore:
             raise GridError(f"chunk {chunk} is already in {self.path}; refusing to write it twice")
         table = pa.table({n: np.asarray(columns[n]) for n in names})
         with atomic_write(final) as tmp:
-            pq.write_table(table, tmp, compression="zstd")
+            pq.write_table(table, tmp, compression="zstd", write_page_checksum=True)
         return final
+
+    # -- verifying ---------------------------------------------------------------------------
+    def part_problem(self, path: Path) -> str | None:
+        """What is wrong with one part file, or None when it is a whole chunk of this store.
+
+        Parameters
+        ----------
+        path : pathlib.Path
+            A ``parts/chunk-NNNNNNN.parquet`` file.
+
+        Returns
+        -------
+        str or None
+            A short reason (unreadable, failed page checksum, wrong columns,
+            wrong keys, chunk number beyond the grid).
+        """
+        chunk = int(_PART_RE.match(path.name).group(1))
+        if chunk >= self.n_chunks:
+            return f"chunk {chunk} is beyond this grid's {self.n_chunks} chunks"
+        try:
+            table = pq.read_table(path, page_checksum_verification=True)
+        except (OSError, pa.ArrowException) as exc:
+            return f"cannot be read ({str(exc).splitlines()[0]})"
+        names = self.manifest["columns"]
+        if set(table.column_names) != set(names):
+            return "its columns differ from the manifest's"
+        start = chunk * self.chunk_size
+        keys = table.column("key").to_numpy()
+        if keys.size != self.chunk_length(chunk) or not np.array_equal(keys, np.arange(start, start + keys.size)):
+            return f"it does not hold exactly the keys {start}..{start + self.chunk_length(chunk) - 1}"
+        return None
+
+    def damaged_parts(self) -> list[tuple[Path, str]]:
+        """Every part file that is not a whole chunk of this store, with the reason.
+
+        Reads every part once (one at a time), so it costs about one pass over the store.
+        """
+        parts = self.path / _PARTS
+        if not parts.is_dir():
+            return []
+        found = sorted(p for p in parts.iterdir() if _PART_RE.match(p.name))
+        return [(p, why) for p in found if (why := self.part_problem(p)) is not None]
+
+    def set_aside_damaged(self) -> list[tuple[Path, str]]:
+        """Rename every damaged part to ``<name>.damaged`` so that its chunk is computed again.
+
+        Needs the writer lock. Returns the damaged parts (original paths) and the reasons.
+        """
+        if self._lock_fd is None:
+            raise GridError("set_aside_damaged needs the store's writer lock")
+        damaged = self.damaged_parts()
+        for path, _ in damaged:
+            os.replace(path, path.with_name(path.name + ".damaged"))
+        return damaged
 
     # -- reading -----------------------------------------------------------------------------
     @property
@@ -359,7 +414,8 @@ class GridStore:
         parts = self.path / _PARTS
         if not parts.is_dir():
             return []
-        return sorted(int(m.group(1)) for p in parts.iterdir() if (m := _PART_RE.match(p.name)))
+        found = (int(m.group(1)) for p in parts.iterdir() if (m := _PART_RE.match(p.name)))
+        return sorted(c for c in found if c < self.n_chunks)     # a part beyond the grid is no chunk of it
 
     def completed_points(self) -> int:
         return sum(self.chunk_length(c) for c in self.completed_chunks())
@@ -384,7 +440,12 @@ class GridStore:
         Memory use is one part at a time, whatever the size of the store.
         """
         for path in self.part_paths():
-            yield pq.read_table(path, columns=None if columns is None else list(columns))
+            try:
+                yield pq.read_table(path, columns=None if columns is None else list(columns),
+                                    page_checksum_verification=True)
+            except (OSError, pa.ArrowException) as exc:
+                raise GridError(f"{path} is damaged and cannot be read ({str(exc).splitlines()[0]}); run "
+                                "`motes grid` again with the same description and --output to recompute it") from None
 
     def read_table(self, columns=None) -> pa.Table:
         """All finished rows in one Table (for small stores; use :meth:`iter_tables` otherwise)."""

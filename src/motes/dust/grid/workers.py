@@ -43,6 +43,8 @@ from ..observations import DiskPhotometry, read_disk_photometry
 __all__ = [
     "GridEvaluator",
     "build_disk_model",
+    "grid_mixtures",
+    "GRID_MIXTURE_LIMIT",
     "read_grid_observations",
     "GridJob",
     "run_serial",
@@ -67,11 +69,45 @@ def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
         Built from the description's ``[star]``, ``[[materials]]``, ``[mixing]``,
         ``[geometry]``, ``[model]`` sections (:mod:`motes.dust.model.description`), for
         the bands of the disk photometry in their order, with its lookup tables
-        loaded (fast path).
+        loaded (fast path): only the tiles the grid's mixtures touch
+        (:func:`grid_mixtures`), or, for a grid with more mixtures than that
+        function enumerates, the model's default set; any tile still missing
+        is built when a point needs it.
     """
     model = spec.description.build_model(bands=observations.bands)
-    model.prepare()
+    mixtures = grid_mixtures(spec)
+    if mixtures is None:
+        model.prepare()
+    else:
+        model.prepare(*mixtures)
     return model
+
+
+#: at most this many (composition, porosity) pairs are enumerated to choose a grid's table tiles
+GRID_MIXTURE_LIMIT = 20_000
+
+
+def grid_mixtures(spec: GridSpec, limit: int = GRID_MIXTURE_LIMIT):
+    """Every (fractions, porosity) pair of a grid, the part of a point that sets its refractive index.
+
+    Parameters
+    ----------
+    spec : GridSpec
+    limit : int
+        Largest number of pairs returned.
+
+    Returns
+    -------
+    (ndarray[M, K], ndarray[M]) or None
+        Fractions and porosity of the ``M = compositions x porosity values``
+        pairs; ``None`` when ``M`` exceeds ``limit``.
+    """
+    n_comp, n_por = spec.n_compositions, len(spec.porosity)
+    if n_comp * n_por > limit:
+        return None
+    fractions = spec.simplex.unrank(np.arange(n_comp, dtype=np.int64)) / spec.simplex.divisions
+    porosity = np.asarray(spec.porosity, dtype=float)
+    return np.repeat(fractions, n_por, axis=0), np.tile(porosity, n_comp)
 
 
 def read_grid_observations(spec: GridSpec) -> DiskPhotometry:

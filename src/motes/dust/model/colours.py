@@ -44,7 +44,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ...errors import InputError, ModelError, OpticalConstantsError
+from ...errors import InputError, ModelError, OpticalConstantsError, quoted_names
 from ...parameters import PARAMETERS, accepts_quantities
 from ...optics import mie
 from ...optics.constants import Material, load_material
@@ -182,7 +182,7 @@ class DiskColourModel:
         if len(set(names)) != len(names):
             raise InputError(f"materials are listed twice: {names}", where="materials")
         if method not in METHODS:
-            raise InputError(f"method must be one of {METHODS}, got {method!r}", where="method")
+            raise InputError(f"method must be one of {quoted_names(METHODS)}, got {method!r}", where="method")
         if mixing not in ("bruggeman", "maxwell_garnett"):
             raise InputError(f"mixing must be 'bruggeman' or 'maxwell_garnett', got {mixing!r}", where="mixing")
         if not isinstance(geometry, ScatteringGeometry):
@@ -347,6 +347,8 @@ class DiskColourModel:
                              f"a_max = {a_max[i]:g} um", where="a_min")
         if not np.isfinite(q).all():
             raise InputError("q must be finite", where="q")
+        if not PARAMETERS["q"].contains(q).all():
+            raise InputError(f"q ({PARAMETERS['q'].meaning}) must be in {PARAMETERS['q'].interval}", where="q")
         return f, porosity, a_min, q, a_max
 
     @accepts_quantities

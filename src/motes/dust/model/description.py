@@ -30,7 +30,7 @@ folder of the description file::
     phase = "mie"                   # or "hg" (Henyey-Greenstein with Mie's g)
 
     [model]
-    bands = ["2MASS.J", "2MASS.H", "nb_3.1"]   # optional when the bands come from the data
+    bands = ["2mass_j", "2mass_h", "nb_3.1"]   # optional when the bands come from the data
     a_max = 1000.0                  # [um]
     method = "fast"                 # or "exact"
     wavelength_nodes = 8            # Gauss nodes per band
@@ -52,8 +52,8 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
-from ...errors import InputError, MotesError
-from ...parameters import PARAMETERS, accepts_quantities
+from ...errors import InputError, MotesError, quoted_names
+from ...parameters import PARAMETERS, STAR_TEFF, accepts_quantities
 from ...optics.constants import Material, load_material
 from ...photometry.bands import Band, get_band
 from ...tomlcheck import check_keys, check_tables, read_number
@@ -160,7 +160,8 @@ class ModelDescription:
         wanted = set(names)
         unknown = sorted(wanted - set(self.material_names))
         if unknown:
-            raise InputError(f"unknown material(s) {unknown}; the description has {list(self.material_names)}",
+            raise InputError(f"unknown material(s) {quoted_names(unknown)}; the description has "
+                             f"{quoted_names(self.material_names)}",
                              path=self.source, where="[[materials]]")
         if not wanted:
             raise InputError("a model needs at least one material", path=self.source, where="[[materials]]")
@@ -211,7 +212,8 @@ def _band(name, custom, source, where) -> Band:
 def _read_star(doc, source, base_dir) -> StarDescription:
     star = doc.get("star", {})
     check_keys(star, _STAR_KEYS, path=source, where="[star]")
-    teff = read_number(star["teff"], path=source, where="[star] teff", positive=True) if "teff" in star else None
+    teff = (read_number(star["teff"], path=source, where="[star] teff", what=f"Teff [K] in {STAR_TEFF.interval}",
+                        lo=STAR_TEFF.lo, hi=STAR_TEFF.hi) if "teff" in star else None)
     spectrum = None
     if "spectrum" in star:
         from ...photometry.targets import read_host_spectrum
@@ -277,7 +279,7 @@ def _read_geometry(doc, source) -> ScatteringGeometry:
     check_keys(geo, _GEOMETRY_KEYS, path=source, where="[geometry]")
     phase = geo.get("phase", "mie")
     if phase not in PHASES:
-        raise InputError(f"phase must be one of {PHASES}, got {phase!r}", path=source, where="[geometry] phase")
+        raise InputError(f"phase must be one of {quoted_names(PHASES)}, got {phase!r}", path=source, where="[geometry] phase")
     try:
         if "inclination_deg" in geo:
             if "angles_deg" in geo:
@@ -348,7 +350,7 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
                         positive=True)
     method = model.get("method", "fast")
     if method not in METHODS:
-        raise InputError(f"method must be one of {METHODS}, got {method!r}", path=source, where="[model] method")
+        raise InputError(f"method must be one of {quoted_names(METHODS)}, got {method!r}", path=source, where="[model] method")
     nodes = read_number(model.get("wavelength_nodes", 8), path=source, where="[model] wavelength_nodes",
                         integer=True, lo=1, hi=64)
     return ModelDescription(star, materials, rule, matrix, geometry, bands, custom, a_max, method, nodes, source)

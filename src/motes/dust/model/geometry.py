@@ -6,7 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ...errors import InputError
+from ...errors import InputError, quoted_names
 from ...parameters import PARAMETERS, accepts_quantities
 
 __all__ = ["ScatteringGeometry", "PHASES"]
@@ -41,7 +41,7 @@ class ScatteringGeometry:
             raise InputError(f"scattering angles must be in {declared.interval} {declared.unit_text}, got {angles!r}",
                              where="angles_deg")
         if self.phase not in PHASES:
-            raise InputError(f"phase must be one of {PHASES}, got {self.phase!r}", where="phase")
+            raise InputError(f"phase must be one of {quoted_names(PHASES)}, got {self.phase!r}", where="phase")
         object.__setattr__(self, "angles_deg", angles)
 
     @classmethod

@@ -9,7 +9,7 @@ A mixture file is a model description (:mod:`motes.dust.model.description`) plus
     a_min = 1.0                                  # [um]
     q = 3.5
     a_max = 1000.0                               # [um], optional ([model] a_max)
-    reference_band = "2MASS.J"                   # optional: colours relative to it
+    reference_band = "2mass_j"                   # optional: colours relative to it
 
 The per-band numbers come from the exact path (miepython at every node): one
 mixture is cheaper to compute directly than to tabulate.
@@ -22,7 +22,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ...errors import InputError
+from ...errors import InputError, quoted_names
 from ...tomlcheck import check_keys, get_table, read_number
 from ...parameters import MIXTURE_PARAMETERS, PARAMETERS, accepts_quantities
 from ...optics import mie
@@ -131,7 +131,8 @@ def parse_mixture(doc: dict, description: ModelDescription) -> MixtureParameters
                          where="[mixture] fractions")
     extra = set(fr) - set(names)
     if extra:
-        raise InputError(f"unknown material(s) {sorted(extra)}; the materials are {list(names)}",
+        raise InputError(f"unknown material(s) {quoted_names(sorted(extra))}; the materials are "
+                         f"{quoted_names(names)}",
                          path=src, where="[mixture] fractions")
     fractions = tuple(read_number(fr.get(n, 0.0), path=src, where=f"[mixture] fractions.{n}", lo=0.0, hi=1.0)
                       for n in names)

@@ -1,0 +1,92 @@
+"""Cold start of a demo-sized fit: building the fast path's lookup tables from nothing.
+
+On a fresh machine the first fit pays for the lookup tiles of the fast path
+(:mod:`motes.dust.model.tables`); later runs load them from the cache. This
+script measures that first run in one process, on an empty cache of its own
+(a temporary folder, never the user's cache):
+
+* the time to make the tables ready for every model of the demo fit
+  (``prepare_fit`` on ``src/motes/demo/data/disk_fit.toml``), the tiles built
+  and the time per tile;
+* with ``--fit``, the fit itself (one worker, as ``motes demo`` runs it), then
+  the same fit again on the now warm cache;
+* these times against the goals of a first ``motes demo`` within 3 minutes
+  and a warm one within 60 s (the fit is most of the demo).
+
+Usage::
+
+    python benchmarks/bench_coldstart.py            # tables only
+    python benchmarks/bench_coldstart.py --fit      # tables, cold fit, warm fit
+    MOTES_TABLE_WORKERS=1 python benchmarks/bench_coldstart.py   # build on one core
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import shutil
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+GOAL_COLD_S = 180.0     # issue 15: first `motes demo` within 3 minutes on 2 cores
+GOAL_WARM_S = 60.0      # issue 15: a warm `motes demo` within 60 s
+
+
+def main(argv=None):
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--fit", action="store_true", help="also run the demo fit, cold then warm")
+    parser.add_argument("--keep", action="store_true", help="keep the temporary cache and run folders")
+    parser.add_argument("--cache", help="use this cache folder instead of an empty one (times a warm start)")
+    args = parser.parse_args(argv)
+
+    work = Path(tempfile.mkdtemp(prefix="motes_coldstart_"))
+    os.environ["MOTES_CACHE_DIR"] = args.cache or str(work / "cache")     # before motes reads it
+    import motes.demo
+    from motes.dust.fit.run import FitRunSettings, prepare_fit, run_fit
+    from motes.dust.fit.spec import read_fit_description
+    from motes.dust.model import tables
+
+    try:
+        description = Path(motes.demo.__file__).parent / "data" / "disk_fit.toml"
+        spec = read_fit_description(description)
+        print(f"demo fit: {len(spec.models)} models; cores: {os.cpu_count()}; "
+              f"tile builders: {tables.table_build_workers()}; cache {os.environ['MOTES_CACHE_DIR']}"
+              f"{'' if args.cache else ' (empty)'}")
+        t0 = time.perf_counter()
+        prepare_fit(spec)
+        ready = time.perf_counter() - t0
+        built = sum(t.tiles_built for t in tables._TABLES.values())
+        building = sum(t.build_seconds for t in tables._TABLES.values())
+        loaded = sum(len(t._tiles) for t in tables._TABLES.values())
+        per_tile = building / built if built else float("nan")
+        print(f"tables ready in {ready:.1f} s: {built} tiles built ({building:.1f} s of building, "
+              f"{per_tile:.2f} s per tile wall), {loaded} tiles in memory")
+        if not args.fit:
+            print(f"{'warm' if args.cache else 'cold'}-start table time {ready:.0f} s against the whole first demo's goal of "
+                  f"{GOAL_COLD_S:.0f} s ({ready / GOAL_COLD_S:.2f} of it)")
+            return
+        t0 = time.perf_counter()
+        run_fit(description, FitRunSettings(output=work / "cold", workers=1, progress=False), echo=lambda *_: None)
+        cold_fit = time.perf_counter() - t0
+        tables._TABLES.clear()                  # a new run: tiles come from the cache on disk
+        from motes.dust.fit import problem as _problem
+        _problem._PROBLEMS.clear()
+        t0 = time.perf_counter()
+        run_fit(description, FitRunSettings(output=work / "warm", workers=1, progress=False), echo=lambda *_: None)
+        warm = time.perf_counter() - t0
+        cold = ready + cold_fit
+        print(f"{'demo' if args.cache else 'cold demo'} fit (tables + fit): {cold:.0f} s against the first demo's goal of {GOAL_COLD_S:.0f} s "
+              f"(ratio {cold / GOAL_COLD_S:.2f})")
+        print(f"warm demo fit (tiles from the cache): {warm:.0f} s against the warm demo's goal of "
+              f"{GOAL_WARM_S:.0f} s (ratio {warm / GOAL_WARM_S:.2f})")
+    finally:
+        if args.keep:
+            print(f"kept {work}")
+        else:
+            shutil.rmtree(work, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    sys.exit(main())
