@@ -27,6 +27,7 @@ _EXPORTS = {
     "plot_companion_sed": "companion_figures",
     "plot_type_probability": "companion_figures",
     "write_companion_figures": "companion_figures",
+    "save_figure": "figure_files",
     "classification_file_stem": "companion_text",
     "format_classification": "companion_text",
     "write_classification": "companion_text",

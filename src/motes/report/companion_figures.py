@@ -15,8 +15,8 @@ import numpy as np
 
 from ..companion.results import Classification
 from ..companion.spectral_types import type_label
-from ..errors import BandError, InputError
-from ..files import atomic_write
+from ..errors import BandError
+from .figure_files import save_figure
 
 __all__ = ["plot_companion_sed", "plot_type_probability", "write_companion_figures"]
 
@@ -31,16 +31,6 @@ def _headline_ranking(result: Classification):
             if r.source == est.source and r.mode == est.mode:
                 return r
     return result.rankings[0]
-
-
-def _save(fig, path: Path) -> Path:
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        with atomic_write(path, suffix=".png") as tmp:
-            fig.savefig(tmp, dpi=130)
-    except OSError as exc:
-        raise InputError(f"cannot write figure: {exc}", path) from None
-    return path
 
 
 def plot_companion_sed(result: Classification, path, n_best: int = 3) -> Path:
@@ -151,7 +141,7 @@ def plot_companion_sed(result: Classification, path, n_best: int = 3) -> Path:
     ax.grid(True, which="both", alpha=0.25, lw=0.5)
     ax.legend(fontsize=7.5, loc="best", frameon=False)
     fig.tight_layout()
-    return _save(fig, Path(path))
+    return save_figure(fig, path)
 
 
 def plot_type_probability(result: Classification, path) -> Path:
@@ -212,7 +202,7 @@ def plot_type_probability(result: Classification, path) -> Path:
     ax.set_title(f"{result.target}: spectral-type probability", fontsize=10)
     ax.grid(True, axis="y", alpha=0.25, lw=0.5)
     fig.tight_layout()
-    return _save(fig, Path(path))
+    return save_figure(fig, path)
 
 
 def write_companion_figures(result: Classification, folder, stem: str | None = None) -> list[Path]:

@@ -14,8 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from ..companion.motion import MotionTest, background_track
-from ..errors import InputError
-from ..files import atomic_write
+from .figure_files import save_figure
 
 __all__ = ["plot_motion", "motion_figure_name"]
 
@@ -118,11 +117,4 @@ def plot_motion(result: MotionTest, path, title: str | None = None) -> Path:
     verdict = f"{result.verdict}: ln B = {result.ln_bayes_factor:.1f}, host motion {result.motion_sigma:.1f}σ"
     ax.set_title((title + "\n" if title else "") + verdict, fontsize=10)
     fig.tight_layout()
-    path = Path(path)
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        with atomic_write(path, suffix=".png") as tmp:
-            fig.savefig(tmp, dpi=130)
-    except OSError as exc:
-        raise InputError(f"cannot write figure: {exc}", path) from None
-    return path
+    return save_figure(fig, path)
