@@ -120,28 +120,48 @@ def plot_corner(model, path: Path, max_points: int = 3000) -> Path:
 
 
 def plot_evidence(result, path: Path) -> Path:
-    """Bar chart of ln Z - ln Z(best) per model with 1-sigma errors and the 1/3/5 reading breaks."""
+    """ln Z - ln Z(best) per model, with 1-sigma errors and the Kass & Raftery reading breaks.
+
+    A linear axis from -12 to +2 keeps the breaks at ln B = -1, -3, -5 (Kass &
+    Raftery 1995) apart; a model far below (beyond the axis) is drawn at the
+    edge as an arrow with its value written beside it. Every model, the best
+    one included (at 0), is a point with its error bar.
+    """
     from matplotlib.figure import Figure
 
     names = [m.name for m in result.models]
     d = np.array([m.ln_z - result.best.ln_z for m in result.models])
     err = np.array([m.ln_z_err for m in result.models])
-    fig = Figure(figsize=(6.8, 0.45 * len(names) + 1.6))
+    fig = Figure(figsize=(6.8, 0.45 * len(names) + 1.7))
     ax = fig.subplots()
     y = np.arange(len(names))[::-1]
-    ax.barh(y, d, xerr=err, color=[_COLOURS[0] if v == 0 else "0.6" for v in d], capsize=3)
-    for yi, v, e in zip(y, d, err):
-        ax.text(1.2, yi, f"{v:.1f} ± {e:.1f}", va="center", fontsize=7)
+    left, right = -12.0, 1.5
     for edge in (1, 3, 5):
-        ax.axvline(-edge, color="#c0392b", lw=0.8, ls=":")
+        ax.axvline(-edge, color="0.45", lw=0.8, ls=(0, (4, 3)))
+    # the strength of the evidence against a model in each interval (Kass & Raftery 1995)
+    for x0, x1, label in ((-1, 0.0, "hardly\nany"), (-3, -1, "modest"), (-5, -3, "firm"), (left, -5, "overwhelming")):
+        ax.text(0.5 * (x0 + x1), len(names) - 0.4, label, ha="center", va="bottom", fontsize=7, color="0.35")
+    inside = d - err > left
+    best = d == 0
+    ax.errorbar(d[inside & ~best], y[inside & ~best], xerr=err[inside & ~best], fmt="o", color="0.25",
+                ms=5, capsize=3, lw=1.2)
+    ax.errorbar(d[best], y[best], xerr=err[best], fmt="D", color=_COLOURS[0], ms=6, capsize=3, lw=1.2,
+                label="best model (ln Z reference)")
+    for yi, v, e, ok in zip(y, d, err, inside):
+        if ok:
+            ax.text(1.01, yi, f"{v:+.1f} ± {e:.1f}", va="center", ha="left", fontsize=7,
+                    transform=ax.get_yaxis_transform())
+        else:
+            ax.annotate("", xy=(left + 0.05, yi), xytext=(left + 1.6, yi),
+                        arrowprops=dict(arrowstyle="->", color="0.25", lw=1.2))
+            ax.text(left + 1.8, yi, f"{v:+.1f} ± {e:.1f} (off the axis)", va="center", fontsize=7)
     ax.set_yticks(y)
     ax.set_yticklabels(names, fontsize=8)
-    lo = min(d.min() - err.max() - 0.5, -6)
-    if lo < -30:       # huge differences: symmetric-log axis keeps the small ones visible
-        ax.set_xscale("symlog", linthresh=6.0)
-    ax.set_xlim(lo, 4.0 if lo > -30 else 8.0)
-    ax.set_xlabel("ln Z - ln Z(best)   (dotted: -1, -3, -5, Kass & Raftery 1995 breaks)")
-    ax.set_title("Evidence per model", fontsize=10)
+    ax.set_ylim(-0.7, len(names) + 0.2)
+    ax.set_xlim(left, right)
+    ax.set_xlabel("ln B = ln Z - ln Z(best)   (dashed: -1, -3, -5; Kass & Raftery 1995 breaks)")
+    ax.set_title("Evidence per model, relative to the best", fontsize=10)
+    ax.legend(loc="lower left", fontsize=7, frameon=False)
     fig.tight_layout()
     with atomic_write(path) as tmp:
         fig.savefig(tmp, dpi=130)
