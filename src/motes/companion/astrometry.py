@@ -21,7 +21,6 @@ and the column.
 
 from __future__ import annotations
 
-import csv
 import math
 import warnings
 from dataclasses import dataclass
@@ -31,6 +30,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..parameters import accepts_quantities
+from ..photometry.measurement_table import read_table_rows
 
 __all__ = ["RelativeAstrometry", "offsets_from_separation", "read_astrometry", "DATE_COLUMNS"]
 
@@ -137,38 +137,8 @@ def _offset_covariance(dra, ddec, sra, sdec, scale, north):
 # ------------------------------------------------------------------ reading
 def _rows(path: Path, what: str = "astrometry table",
           example: str = "date,sep_mas,sep_error,pa_deg,pa_error_deg") -> tuple[list[str], list[dict[str, str]]]:
-    """Header (lower case) and rows (cells as stripped strings) of a CSV or ECSV table."""
-    try:
-        text = path.read_text()
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read {what}: {exc}", path) from None
-    if text.lstrip().startswith("# %ECSV"):
-        from astropy.table import Table
-
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                table = Table.read(path, format="ascii.ecsv")
-        except Exception as exc:  # astropy raises many types for a malformed ECSV
-            raise InputError(f"malformed ECSV table: {exc}", path) from None
-        names = [n.strip().lower() for n in table.colnames]
-        return names, [{n: ("" if np.ma.is_masked(rec[c]) else str(rec[c]).strip())
-                        for n, c in zip(names, table.colnames)} for rec in table]
-    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
-    if not lines:
-        raise InputError(f"{what} is empty (expected a header line, e.g. {example})", path)
-    try:
-        reader = csv.reader(lines)
-        header = [h.strip().lower() for h in next(reader)]
-        rows = []
-        for number, cells in enumerate(reader, 1):
-            if len(cells) > len(header):
-                raise InputError(f"{len(cells)} cells but the header has {len(header)} columns", path,
-                                 f"row {number}")
-            rows.append({h: c.strip() for h, c in zip(header, cells + [""] * (len(header) - len(cells)))})
-    except csv.Error as exc:
-        raise InputError(f"malformed CSV: {exc}", path) from None
-    return header, rows
+    """Header (lower case) and rows of a CSV or ECSV table (the photometry tables' reader)."""
+    return read_table_rows(path, what, example)
 
 
 def _number(row, column, path, where, *, required=True, default=math.nan, positive=False, nonnegative=False):

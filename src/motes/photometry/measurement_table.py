@@ -21,7 +21,7 @@ from ..errors import BandError, InputError
 from ..parameters import MAGNITUDE
 from .bands import Band, get_band
 
-__all__ = ["INPUT_KINDS", "Measurement", "read_photometry_table", "parse_flux_unit"]
+__all__ = ["INPUT_KINDS", "Measurement", "read_photometry_table", "read_table_rows", "parse_flux_unit"]
 
 #: Kinds of measurement a photometry row may hold.
 INPUT_KINDS = ("vega_mag", "ab_mag", "flux", "contrast_mag", "contrast_ratio")
@@ -123,12 +123,33 @@ def _lookup_band(name, custom, counting, path, where) -> Band:
         raise InputError(exc.reason, path, where) from None
 
 
-def _table_rows(path: Path) -> tuple[list[str], list[dict[str, str]]]:
-    """Header and rows of a CSV or ECSV file (cells as stripped strings)."""
+def read_table_rows(path, what: str = "photometry table",
+                    example: str = "band,kind,value,error,...") -> tuple[list[str], list[dict[str, str]]]:
+    """Header (lower case) and rows (cells as stripped strings) of a CSV or ECSV table.
+
+    The one reader of the small user tables of motes (photometry, astrometry,
+    evolutionary models): ``#`` comment lines and a UTF-8 byte-order mark are
+    allowed, missing trailing cells are empty, extra cells are refused.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+    what : str
+        What the table is, for messages.
+    example : str
+        A header line to show when the file is empty.
+
+    Raises
+    ------
+    motes.errors.InputError
+        Unreadable file, malformed CSV or ECSV, empty table, a row with too
+        many cells (naming the row).
+    """
+    path = Path(path)
     try:
         text = path.read_text(encoding="utf-8-sig")      # a spreadsheet's "CSV UTF-8" starts with a BOM
     except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read photometry table: {exc}", path) from None
+        raise InputError(f"cannot read {what}: {exc}", path) from None
     if text.lstrip().startswith("# %ECSV"):
         from astropy.table import Table
 
@@ -150,7 +171,7 @@ def _table_rows(path: Path) -> tuple[list[str], list[dict[str, str]]]:
         return names, rows
     lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
     if not lines:
-        raise InputError("photometry table is empty (expected a header line: band,kind,value,error,...)", path)
+        raise InputError(f"{what} is empty (expected a header line, e.g. {example})", path)
     try:
         reader = csv.reader(lines)
         header = [h.strip().lower() for h in next(reader)]
@@ -201,7 +222,7 @@ def read_photometry_table(path, custom: dict | None = None, counting: str = "pho
     custom = custom or {}
     if not path.is_file():
         raise InputError("photometry table not found", path)
-    header, rows = _table_rows(path)
+    header, rows = read_table_rows(path)
     missing = [c for c in ("band", "kind", "value", "error") if c not in header]
     if missing:
         raise InputError(
