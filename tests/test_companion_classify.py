@@ -150,7 +150,9 @@ def test_write_classification(tmp_path):
     from astropy.table import Table
 
     paths = write_classification(classify(_companion()), tmp_path / "out", csv=True)
-    assert [p.suffix for p in paths] == [".ecsv", ".csv"]
+    # the ranked rows and the numeric estimates, each as ECSV and CSV
+    assert [p.name for p in paths] == ["companion_classification.ecsv", "companion_classification_estimates.ecsv",
+                                       "companion_classification.csv", "companion_classification_estimates.csv"]
     table = Table.read(paths[0])
     assert "probability" in table.colnames and table.meta["type_estimate"].startswith("L")
     assert not list((tmp_path / "out").glob(".*tmp"))

@@ -24,7 +24,12 @@ def test_classify_demo_target_writes_table_and_figures(demo_folder, tmp_path, ca
     assert "blackbody fallback used" in text  # L' and the 3.1 um narrow band are covered by nothing else
     names = sorted(p.name for p in out.iterdir())
     assert names == ["velmora_b_classification.csv", "velmora_b_classification.ecsv",
+                     "velmora_b_classification_boundness.ecsv",
+                     "velmora_b_classification_cmd_2mass_j-2mass_ks_2mass_j.png",
+                     "velmora_b_classification_estimates.csv", "velmora_b_classification_estimates.ecsv",
+                     "velmora_b_classification_report.html", "velmora_b_classification_report.txt",
                      "velmora_b_classification_sed.png", "velmora_b_classification_types.png"]
+    assert "is it bound? (photometry)" in text
     for name in names:
         assert f"wrote {out / name}" in text
 
@@ -36,7 +41,8 @@ def test_classify_options(demo_folder, tmp_path, capsys):
                  "--template-scatter", "0.15", "--no-figures", "--output", str(out), "--top", "3"])
     text = capsys.readouterr().out
     assert code == 0 and "colours-only mode" in text and "distance-known mode ==" not in text
-    assert [p.suffix for p in out.iterdir()] == [".ecsv"]
+    # the ranked table, the estimates table, the report page and the printed report
+    assert sorted(p.suffix for p in out.iterdir()) == [".ecsv", ".ecsv", ".html", ".txt"]
 
 
 @pytest.mark.parametrize("extra, message", [
@@ -44,6 +50,9 @@ def test_classify_options(demo_folder, tmp_path, capsys):
     (["--treat-as", "Lp=MKO.Lp"], "tabulates only"),
     (["--types", "T8-M0"], "increasing"),
     (["--fit-extinction", "-1"], "A_V maximum"),
+    (["--type-prior", "T9.5=1,Y0=1"], "excludes every template"),
+    (["--type-prior", "M0=0,T8=0"], "excludes every template"),
+    (["--type-prior", "fieldish"], "TYPE=WEIGHT"),
 ])
 def test_bad_options_give_one_line_and_exit_2(demo_folder, tmp_path, capsys, extra, message):
     out = tmp_path / "never"
@@ -88,3 +97,46 @@ def test_demo_part_runs(demo_folder, capsys):
     text = capsys.readouterr().out
     assert "spectral type :" in text and "L0.5 dwarf" in text
     assert (demo_folder / "companion" / "velmora_b_classification.ecsv").is_file()
+
+
+def test_classify_boundness_options_and_cmd(demo_folder, tmp_path, capsys):
+    target = str(demo_folder / demo_companion.TARGET_FILE)
+    out = tmp_path / "run3"
+    code = main(["classify", target, "--separation", "1.2", "--galactic", "120,35", "--source-density", "500",
+                 "--cmd", "2mass_h-2mass_ks:2mass_ks", "--output", str(out)])
+    text = capsys.readouterr().out
+    assert code == 0
+    assert "P(bound)" in text and "Galactic thin + thick disk" in text and "given by the user" in text
+    assert (out / "velmora_b_classification_cmd_2mass_h-2mass_ks_2mass_ks.png").is_file()
+    assert (out / "velmora_b_classification_boundness.ecsv").is_file()
+
+
+def test_classify_bad_cmd_band_writes_nothing(demo_folder, tmp_path, capsys):
+    target = str(demo_folder / demo_companion.TARGET_FILE)
+    out = tmp_path / "never"
+    code = main(["classify", target, "--cmd", "2mass_j-wise_w2:2mass_j", "--output", str(out)])
+    err = capsys.readouterr().err
+    assert code != 0 and "wise_w2" in err and not out.exists()
+
+
+def test_report_is_saved_as_printed_and_type_prior_option(demo_folder, tmp_path, capsys):
+    target = str(demo_folder / demo_companion.TARGET_FILE)
+    out = tmp_path / "run3"
+    code = main(["classify", target, "--type-prior", "flat", "--no-figures", "--output", str(out)])
+    text = capsys.readouterr().out
+    assert code == 0 and "flat type prior]" in text and "flat prior  :" not in text
+    saved = (out / "velmora_b_classification_report.txt").read_text(encoding="utf-8")
+    # the saved report is everything printed before the "wrote" lines
+    assert text.startswith(saved) and text[len(saved):].lstrip("\n").startswith("wrote ")
+    assert "caveats" in saved and "late-T dwarfs and G/K stars" in saved
+    code = main(["classify", target, "--no-figures", "--output", str(tmp_path / "run4")])
+    text = capsys.readouterr().out
+    assert code == 0 and "field type prior]" in text and "flat prior  :" in text and "fit         :" in text
+
+
+def test_classify_bad_separation_is_one_message(demo_folder, tmp_path, capsys):
+    target = str(demo_folder / demo_companion.TARGET_FILE)
+    out = tmp_path / "never2"
+    code = main(["classify", target, "--separation", "-1", "--output", str(out)])
+    err = capsys.readouterr().err
+    assert code != 0 and "separation_arcsec must be a number > 0" in err and not out.exists()

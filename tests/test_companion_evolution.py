@@ -190,7 +190,10 @@ def test_classify_with_evolution_adds_the_masses_and_changes_nothing_else(demo_t
     assert "0.1 +- 0.02 Gyr" in block and all(f"  {b} " in block for b in bands)
     assert "mass 0.0200 M_sun" in block                  # the table puts the companion at 0.02 M_sun at 0.1 Gyr
     assert "mass at an age" not in plain
-    assert with_masses.replace(block, "").replace(str(tmp_path / "b"), str(tmp_path / "a")) == plain
+    cite = f"  - your data: evolutionary-model table {tmp_path / 'model.csv'} (cite where it comes from)\n"
+    assert cite in with_masses                           # what the run used, in its list of what to cite
+    assert (with_masses.replace(block, "").replace(cite, "")
+            .replace(str(tmp_path / "b"), str(tmp_path / "a"))) == plain
 
 
 @pytest.mark.parametrize("extra, message", [

@@ -36,3 +36,19 @@ def test_same_seed_one_worker_gives_identical_numbers(tmp_path, rng):
     (tmp_path / "toy_fit_seed12.toml").write_text(text)
     other, _ = _run(tmp_path, "c", "toy_fit_seed12.toml")
     assert other.keys() == first.keys() and other != first
+
+
+def test_same_seed_two_workers_gives_identical_numbers(tmp_path, rng):
+    """Two workers: the queue is cut into the same parts every run, so the numbers repeat too."""
+    write_toy_fit(tmp_path, TRUTH, materials=("alpha", "beta"), rng=rng,
+                  sampler="nlive = 40\ndlogz = 0.5\nseed = 11\n")
+    runs = []
+    for name in ("a", "b"):
+        out = tmp_path / name
+        run_fit(tmp_path / "toy_fit.toml", FitRunSettings(output=out, progress=False, workers=2),
+                model_factory=toy_factory, **QUIET)
+        infos = {p.parent.name: json.loads(p.read_text()) for p in sorted((out / "models").glob("*/result.json"))}
+        runs.append({k: (i["ln_z"], i["ln_z_err"], i["n_calls"], i["sessions"][-1]["processes"])
+                     for k, i in infos.items()})
+    assert runs[0] and runs[0] == runs[1]
+    assert all(v[3] == 2 for v in runs[0].values())        # both workers evaluated the likelihood

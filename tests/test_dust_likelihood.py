@@ -27,10 +27,10 @@ def test_read_csv_kinds_and_limits(tmp_path):
     path.write_text(
         "# invented disk\n"
         "band,value,error,kind,limit_sigma\n"
-        "2mass_j,1.0e-4,3e-6,ratio,\n"
-        "2mass_h,10.0,0.03,delta_mag,\n"
-        "2mass_ks,1.2e-4,,ratio,3\n"
-        "wise_w1,9.5,,delta_mag,5\n")
+        "2mass_j,1.0e-4,3e-6,contrast_ratio,\n"
+        "2mass_h,10.0,0.03,contrast_mag,\n"
+        "2mass_ks,1.2e-4,,contrast_ratio,3\n"
+        "wise_w1,9.5,,contrast_mag,5\n")
     obs = read_disk_photometry(path)
     assert obs.band_names == ("2mass_j", "2mass_h", "2mass_ks", "wise_w1")
     # Delta-mag: r = 10^(-0.4 dm), sigma_r = r ln(10)/2.5 sigma_dm (first-order propagation)
@@ -73,7 +73,13 @@ def test_custom_bands(tmp_path):
     ("band,value,error\n2mass_j,abc,1e-5\n", "not a number"),
     ("band,value,error,kind\n2mass_j,1e-4,1e-5,flux\n", "kind"),
     ("band,value,error\n2mass_j,1e-4,1e-5\n2mass_j,1e-4,1e-5\n", "already given in row 1"),
-    ("band,value,error,kind\n2mass_j,1e-4,1e-5,ratio\n2mass_h,1e-4,1e-5,sb_ratio\n", "mixes"),
+    ("band,value,error,kind\n2mass_j,1e-4,1e-5,contrast_ratio\n2mass_h,1e-4,1e-5,sb_contrast_ratio\n", "mixes"),
+    # the disk kinds of earlier releases, refused with their name in the one vocabulary (table_schema)
+    ("band,value,error,kind\n2mass_j,1e-4,1e-5,ratio\n", "kind 'ratio' is now called 'contrast_ratio'"),
+    ("band,value,error,kind\n2mass_j,10.0,0.03,delta_mag\n", "kind 'delta_mag' is now called 'contrast_mag'"),
+    ("band,value,error,kind\n2mass_j,1e-4,1e-5,sb_ratio\n", "now called 'sb_contrast_ratio'"),
+    ("band,value,error,kind\n2mass_j,10.0,0.03,SB_Delta_Mag\n", "now called 'sb_contrast_mag'"),
+    ("band,value,error,kind\n2mass_j,10.0,0.03,vega_mag\n", "not accepted in this table"),
     ("band,value,error,limit_sigma\n2mass_j,-1e-4,,3\n", "upper limit must be > 0"),
 ])
 def test_bad_tables_name_file_and_row(tmp_path, body, message):

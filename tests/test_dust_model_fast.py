@@ -115,6 +115,41 @@ def test_tiles_are_cached_on_disk(tmp_path):
     assert np.array_equal(v1, v2)
 
 
+def test_tiles_loaded_later_extend_the_assembled_table(tmp_path):
+    """A tile needed after the q slices were assembled adds its own slices only, and every value is
+    bit-identical to a table that had all its tiles from the start (the warm-up of issue 15)."""
+    geometry = ScatteringGeometry()
+    near = np.array([1.95 + 0.5j, 2.05 + 0.45j])
+    far = np.array([2.0 + 1.5j])                               # another k tile
+    q_all = np.array([3.2, 4.4, 3.9])                           # the q range of every call below
+    whole = LookupTable(geometry, SMALL, folder=tmp_path, progress=False)
+    whole.ensure(np.concatenate([near, far]))
+    m = np.concatenate([near, far])
+    ref = whole.integrals(m, [0.5, 0.7, 0.6], [10.0, 12.0, 9.0], q_all)
+
+    grown = LookupTable(geometry, SMALL, folder=tmp_path, progress=False)
+    grown.integrals(near[[0, 1, 0]], [0.5, 0.7, 0.6], [10.0, 12.0, 9.0], q_all)   # assembles the q range
+    n_slices = grown._stack[1].shape[1]
+    computed = []
+    original = grown._slice
+
+    def counting(iq, tiles=None):
+        out = original(iq, tiles)
+        computed.append(out.shape[1])
+        return out
+
+    grown._slice = counting
+    got = grown.integrals(m, [0.5, 0.7, 0.6], [10.0, 12.0, 9.0], q_all)   # needs the far tiles
+    added = len(grown._order) - _n_tiles_for(grown, near)
+    assert added > 0 and computed == [added] * n_slices        # the new tiles' slices, nothing else
+    assert np.array_equal(got, ref)
+    assert grown.tiles_built == 0                               # (all tiles were on disk)
+
+
+def _n_tiles_for(table, m):
+    return len(table.tiles_for(m))
+
+
 def test_cache_key_depends_on_geometry_and_spec():
     a = SMALL.key(ScatteringGeometry().key())
     assert a != SMALL.key(ScatteringGeometry((80.0,)).key())
@@ -213,6 +248,31 @@ def test_table_build_workers_from_environment(monkeypatch):
         monkeypatch.setenv("MOTES_TABLE_WORKERS", bad)
         with pytest.raises(InputError, match="MOTES_TABLE_WORKERS must be a whole number"):
             table_build_workers()
+
+
+_INHERITED = {}
+
+
+def _inherited_integrals(args):
+    return _INHERITED["table"].integrals(*args)
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="fork start method")
+def test_a_table_inherited_by_a_forked_daemonic_worker_builds_in_process(tmp_path):
+    """A fit's pool forks daemonic workers holding the driver's table (workers = 2): a tile missing
+    there is built in the worker itself (a daemonic process may not start a pool)."""
+    import multiprocessing
+
+    table = LookupTable(ScatteringGeometry(), SMALL, folder=tmp_path, progress=False, workers=2)
+    _INHERITED["table"] = table
+    args = (np.array([2.0 + 0.5j]), [0.5], [10.0], [3.5])
+    try:
+        with multiprocessing.get_context("fork").Pool(1) as pool:
+            got = pool.map(_inherited_integrals, [args])[0]
+    finally:
+        _INHERITED.clear()
+    assert list(tmp_path.glob("tile_*.npz")) and table.tiles_built == 0   # built (and cached) by the worker
+    assert np.array_equal(got, table.integrals(*args))
 
 
 def test_table_build_workers_is_one_inside_a_worker_process(monkeypatch):

@@ -44,7 +44,7 @@ def _demo_copy(folder: Path, normalise: bool = False, default_scale: bool = Fals
     value, error = obs.value, obs.error
     if normalise:                            # ratios divided by the first band: data of order one
         value, error = value / value[0], error / value[0]
-    rows = "".join(f"{b},{float(v)!r},{float(e)!r},ratio\n" for b, v, e in zip(obs.band_names, value, error))
+    rows = "".join(f"{b},{float(v)!r},{float(e)!r},contrast_ratio\n" for b, v, e in zip(obs.band_names, value, error))
     (folder / "disk_photometry.csv").write_text("band,value,error,kind\n" + rows)
     text = (folder / "disk_fit.toml").read_text().replace("disk_photometry.ecsv", "disk_photometry.csv")
     if default_scale:

@@ -34,6 +34,7 @@ NOT_CONVERTED = {
     "motes.dust.grid.spec.GridPoints": "a batch of grid points computed from keys",
     "motes.dust.model.colours.BandOptics": "result record of DiskColourModel.band_optics",
     "motes.dust.model.mixture.MixtureOptics": "result record of compute_mixture_optics",
+    "motes.dust.model.thermal.ThermalResult": "result record of compute_thermal",
     "motes.optics.sizes.BlowoutResult": "result record of find_blowout_size",
     "motes.optics.material.IndexSample": "result record of Material.sample",
     "motes.companion.results.TypeEstimate": "its teff and mass are QuantityEstimate records",

@@ -262,6 +262,8 @@ BOUNDARY_QUANTITIES: MappingProxyType = MappingProxyType({
     **dict.fromkeys(("teff", "teffs", "star_teff", "temperature"), _TEMPERATURE),
     **dict.fromkeys(("luminosity", "luminosity_lsun"), BoundaryQuantity(u.L_sun, "luminosity", u.W)),
     **dict.fromkeys(("mass", "mass_msun"), BoundaryQuantity(u.M_sun, "mass", u.M_jup)),
+    **dict.fromkeys(("r_au", "r_in_au", "r_out_au"),
+                    BoundaryQuantity(u.AU, "distance from the star", u.km)),
     **dict.fromkeys(("distance_pc", "distance_pc_error", "host_distance_pc"), _DISTANCE),
     **dict.fromkeys(("parallax_mas", "parallax_mas_error"), BoundaryQuantity(u.mas, "parallax", u.arcsec)),
     **dict.fromkeys(("density", "densities"),

@@ -5,6 +5,8 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from .figure_options import add_figure_formats_option, figure_formats
+
 __all__ = ["register"]
 
 _EPILOG = """\
@@ -17,8 +19,9 @@ examples:
 
 The description (TOML) names the disk photometry, the star, the candidate materials,
 the priors and the model set ("each-removed", "all-subsets" or an explicit list);
-see docs/fit.md. Output: ranking.ecsv, verdicts.ecsv, summary.txt, figures, and per
-model the posterior samples, summaries and best fit.
+see docs/fit.md. Output: ranking.ecsv, verdicts.ecsv, summary.txt (with what to cite),
+figures, report.html (one self-contained page of the run), and per model the posterior
+samples, summaries and best fit.
 """
 
 
@@ -45,6 +48,10 @@ def register(subparsers) -> None:
     mode.add_argument("--fresh", dest="mode", action="store_const", const="fresh",
                       help="delete the run folder's previous fit and start over")
     parser.add_argument("--no-figures", action="store_true", help="skip the figures")
+    add_figure_formats_option(parser)
+    parser.add_argument("--no-spectra", action="store_true",
+                        help="colour figure with band values only: skip evaluating the best model's "
+                             "monochromatic spectrum (exact Mie; can take minutes)")
     parser.add_argument("--quiet", "-q", action="store_true", help="no progress lines")
     parser.set_defaults(func=_run, mode="resume")
 
@@ -56,6 +63,18 @@ def _run(args) -> int:
     settings = FitRunSettings(output=args.output, workers=args.workers, resume=True,
                               fresh=(args.mode == "fresh"), progress=not args.quiet)
     echo = (lambda *a, **k: None) if args.quiet else print
-    result = write_fit_report(run_fit(args.description, settings, echo=echo), figures=not args.no_figures)
+    result = run_fit(args.description, settings, echo=echo)
+    curves = None
+    if not args.no_figures and not args.no_spectra:
+        import time
+
+        from ..dust.fit.curves import posterior_curves
+
+        echo("evaluating the best model's spectrum for the colour figure (--no-spectra skips this) ...")
+        start = time.monotonic()
+        curves = posterior_curves(result, n_models=1)
+        if curves:
+            echo(f"  done in {time.monotonic() - start:.0f} s")
+    result = write_fit_report(result, figures=not args.no_figures, formats=figure_formats(args), curves=curves)
     print(format_fit_report(result))
     return 0

@@ -7,6 +7,7 @@ import sys
 from pathlib import Path
 
 from ..errors import InputError
+from .figure_options import add_figure_formats_option, figure_formats
 
 __all__ = ["register"]
 
@@ -26,8 +27,8 @@ one Parquet part per finished chunk of points, each written atomically. Kill a r
 at any moment and start the same command again: it resumes where it stopped, with
 no point lost or computed twice. A store made from another grid description is
 refused (nothing is changed); pass a new --output folder, or --overwrite.
-When the run completes, the summary (ECSV tables and PNG figures) goes to
-STORE/summary.
+When the run completes, the summary (ECSV tables, PNG figures and grid_report.html,
+one self-contained page with what to cite) goes to STORE/summary.
 
 Work runs in local processes (--workers, default: every core), or on the workers
 of an existing Dask distributed cluster (--scheduler; needs pip install
@@ -79,6 +80,7 @@ def register(subparsers) -> None:
     parser.add_argument("--no-summary", action="store_true",
                         help="run: do not summarise when the run completes")
     parser.add_argument("--quiet", action="store_true", help="no progress bar")
+    add_figure_formats_option(parser)
     parser.set_defaults(func=_main)
 
 
@@ -136,25 +138,17 @@ def _run(path: Path, args) -> int:
 def _summarize(store: Path, args, default_folder: Path | None = None) -> int:
     from ..dust.grid.summary import summarize_grid
     from ..report.grid_figures import write_grid_figures
-    from ..report.grid_text import format_grid_verdicts
+    from ..report.grid_text import format_grid_summary
+    from ..report.html_page import write_grid_page
+    from ..report.run_citations import format_citations, grid_citations
 
     summary = summarize_grid(store, top=args.top or 10)
     folder = Path(args.output) if (args.output and default_folder is None) else (default_folder or store / "summary")
-    print(f"store {summary.store}: {summary.n_rows:,} of {summary.n_points:,} points; "
-          f"chi2_min = {summary.chi2_min:.3f} for {summary.dof} degrees of freedom")
-    print("best mixtures:")
-    best = summary.best
-    shown = min(len(best), args.top or 10)
-    for row in best[:shown]:
-        mix = ", ".join(f"{m} {row['f_' + m]:.3g}" for m in summary.materials)
-        print(f"  #{row['rank']:<3d} Δχ² = {row['delta_chi2']:7.3f}  {mix}; porosity {row['porosity']:.3g}, "
-              f"a_min {row['a_min']:.3g} µm, q {row['q']:.3g}, a_max {row['a_max']:.4g} µm")
-    print("materials (chi-square profile over everything else):")
-    for line in format_grid_verdicts(summary):
-        print(f"  {line}")
-    for note in summary.notes:
-        print(f"note: {note}")
-    written = summary.write_tables(folder) + write_grid_figures(summary, folder)
+    print("\n".join(format_grid_summary(summary, top=args.top or 10)))
+    references = grid_citations(summary)
+    print(format_citations(references))
+    written = summary.write_tables(folder) + write_grid_figures(summary, folder, formats=figure_formats(args))
+    written.append(write_grid_page(summary, folder, files=written, references=references, top=args.top or 10))
     print("wrote:")
     for path in written:
         print(f"  {path}")

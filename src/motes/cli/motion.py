@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from .figure_options import add_figure_formats_option, figure_formats
+
 __all__ = ["register"]
 
 _EPILOG = """\
@@ -44,6 +46,7 @@ def register(subparsers) -> None:
     p.add_argument("-o", "--output", metavar="DIR", default=None,
                    help="folder for the figure (default: ./<TARGET stem>_motion)")
     p.add_argument("--no-figure", action="store_true", help="do not draw the figure")
+    add_figure_formats_option(p)
     p.set_defaults(func=_run)
 
 
@@ -63,11 +66,13 @@ def _run(args) -> int:
     result = common_proper_motion(astrometry, host, settings)
     print(format_motion_test(result, target.name))
     if not args.no_figure:
+        from ..report.figure_files import figure_paths
         from ..report.motion_figures import motion_figure_name, plot_motion
 
         from ..files import default_output_folder
 
         folder = Path(args.output) if args.output else default_output_folder(args.target, "motion")
-        path = plot_motion(result, folder / motion_figure_name(target.name), title=target.name)
-        print(f"wrote {path}")
+        plot_motion(result, folder / motion_figure_name(target.name), title=target.name, formats=figure_formats(args))
+        for path in figure_paths(folder / motion_figure_name(target.name), figure_formats(args)):
+            print(f"wrote {path}")
     return 0

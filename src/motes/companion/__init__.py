@@ -15,6 +15,8 @@ from __future__ import annotations
 
 from .band_mapping import MAPPING_PIVOT_TOLERANCE, mapping_pivot_warnings
 from .blackbody import BlackbodySet, blackbody_magnitudes
+from .boundness import BoundnessSettings, BoundnessTest, photometric_boundness, with_boundness
+from .galaxy import GalacticModel
 from .astrometry import DATE_COLUMNS, RelativeAstrometry, offsets_from_separation, read_astrometry
 from .classify import CAVEATS, MODES, ClassifySettings, classify
 from .inputs import photometry_from_magnitudes
@@ -35,7 +37,10 @@ from .motion import (
     earth_barycentric_au,
     host_displacement,
 )
-from .results import Classification, DistanceCheck, QuantityEstimate, RankedTemplate, Ranking, TypeEstimate
+from .results import (Classification, DistanceCheck, QuantityEstimate, RankedTemplate, Ranking, TypeEstimate,
+                      TypePeak)
+from .type_posterior import hdr_intervals, posterior_peaks
+from .type_prior import FIELD_DENSITY, TypePrior, parse_type_prior
 from .sequence import SEQUENCE_BANDS, DwarfSequence, load_dwarf_sequence, read_dwarf_sequence_file
 from .spectral_types import type_code, type_label
 from .templates import TemplateGrid, TemplateSource
@@ -64,6 +69,11 @@ __all__ = [
     "host_displacement",
     "MAPPING_PIVOT_TOLERANCE",
     "mapping_pivot_warnings",
+    "BoundnessSettings",
+    "BoundnessTest",
+    "GalacticModel",
+    "photometric_boundness",
+    "with_boundness",
     "BlackbodySet",
     "blackbody_magnitudes",
     "CAVEATS",
@@ -86,6 +96,12 @@ __all__ = [
     "RankedTemplate",
     "Ranking",
     "TypeEstimate",
+    "TypePeak",
+    "TypePrior",
+    "parse_type_prior",
+    "FIELD_DENSITY",
+    "hdr_intervals",
+    "posterior_peaks",
     "SEQUENCE_BANDS",
     "DwarfSequence",
     "load_dwarf_sequence",

@@ -16,7 +16,11 @@ user library, blackbodies) and every mode:
 
 Per-band template scatter sigma_tpl adds to the observed errors. The
 likelihood, the limits and the marginalisation are in
-:mod:`motes.companion.likelihood`.
+:mod:`motes.companion.likelihood`. Template probabilities of the dwarf
+sequence include a prior over types (:mod:`motes.companion.type_prior`;
+default: the solar-neighbourhood space density per subtype), and every
+estimate is also computed with a flat prior; intervals are highest-density
+intervals and separate peaks are reported (:mod:`motes.companion.type_posterior`).
 
 Band sets
 ---------
@@ -51,8 +55,9 @@ from .likelihood import FlatOffset, GaussianOffset, offset_marginal
 from .results import Classification, Ranking
 from .sequence import load_dwarf_sequence, read_dwarf_sequence_file
 from .spectral_types import type_code, type_label
-from .summary_stats import build_rows, distance_check, type_estimate
+from .summary_stats import FIT_P_THRESHOLD, build_rows, distance_check, type_estimate
 from .templates import TemplateGrid
+from .type_prior import TypePrior, parse_type_prior
 
 __all__ = [
     "ClassifySettings",
@@ -85,6 +90,12 @@ CAVEATS = (
     "Masses are the mean sequence's (tentative) masses of field dwarfs (the built-in sequence tabulates "
     "them to L3, none for later types): a mass from a colour or magnitude assumes a field age, and near "
     "or below the hydrogen-burning limit a younger object of the same type is much less massive.",
+    "With only J, H and Ks and no distance, late-T dwarfs and G/K stars have similar 2MASS colours: "
+    "the colours-only posterior then has a T peak and a G/K peak - add a distance, or a band that "
+    "separates them (a visible band, W1/L' or a methane band; the built-in sequence has no W1/W2 beyond "
+    "T2 and no optical bands beyond L8, so compare those with a spectral library or your own sequence).",
+    "The sequence is a mean of field dwarfs in standard bands (see its header for the photometric "
+    "systems); a library of real spectra through your real bands is the more faithful template set.",
     "A spectral type from photometry is indicative only; a spectrum confirms it.",
 )
 
@@ -133,6 +144,25 @@ class ClassifySettings:
         (:func:`motes.companion.sequence.read_dwarf_sequence_file`) used instead
         of the built-in sequence; in a TOML ``[classify]`` table a relative
         path is relative to that file's folder.
+    type_prior : str, mapping or TypePrior
+        Prior over the sequence's types, in the modes of ``type_prior_modes``: ``"field"`` (default:
+        the space density per subtype of solar-neighbourhood dwarfs, argued in
+        :mod:`motes.companion.type_prior`), ``"flat"``, or knots
+        ``{"M0": 1, "L0": 0.3, "T8": 0.3}`` / ``"M0=1,L0=0.3,T8=0.3"`` (linear
+        between, zero outside). The flat-prior estimate is always reported
+        beside it. Stored as a :class:`~motes.companion.type_prior.TypePrior`.
+    type_prior_modes : tuple of {"colours", "distance"}
+        The modes the type prior enters (default ``("colours",)``). With J, H
+        and Ks alone and no distance, the colours leave the type nearly
+        degenerate (M0-M7 agree to < 0.1 mag), and only a population prior
+        keeps the answer physical. With the distance known, the absolute
+        magnitude constrains the type and the default stays flat: the field
+        densities step down by a factor ~3 across M9-L0, and a companion found
+        by imaging next to a star is selected by its contrast, not drawn at a
+        random position from the field, so the field densities are not its
+        population; pulling a well-measured absolute magnitude across that
+        step would bias the distance-known type. ``("colours", "distance")``
+        applies the prior to both.
     """
 
     mode: str = "auto"
@@ -151,6 +181,8 @@ class ClassifySettings:
     av_steps: int = 41
     tension_sigma: float = 3.0
     sequence_file: str | None = None
+    type_prior: object = "field"
+    type_prior_modes: tuple = ("colours",)
 
     def __post_init__(self):
         if self.mode == "colors":   # both spellings of the trade are accepted; "colours" is kept
@@ -165,6 +197,13 @@ class ClassifySettings:
                 raise InputError(f"{name} must be a number >= 0 [mag], got {value!r}")
         if not (self.type_step > 0):
             raise InputError(f"type_step must be positive, got {self.type_step!r}")
+        object.__setattr__(self, "type_prior", parse_type_prior(self.type_prior))
+        modes = self.type_prior_modes
+        modes = (modes,) if isinstance(modes, str) else tuple(modes)
+        modes = tuple("colours" if m == "colors" else m for m in modes)
+        if not modes or any(m not in ("colours", "distance") for m in modes):
+            raise InputError(f"type_prior_modes must list 'colours' and/or 'distance', got {self.type_prior_modes!r}")
+        object.__setattr__(self, "type_prior_modes", modes)
         if self.sequence_file is not None:
             if not isinstance(self.sequence_file, (str, os.PathLike)):
                 raise InputError(f"sequence_file must be a path to a sequence table, got {self.sequence_file!r}")
@@ -301,10 +340,12 @@ class _Fit:
     marginal: object
     probability: np.ndarray
     model: np.ndarray
+    probability_flat: np.ndarray | None = None   # the same with a flat type prior
 
 
 def _fit(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySettings, columns, templates,
          ext):
+    """Fit templates; probabilities include the type prior (sequence), ``probability_flat`` does not."""
     model = grid.magnitudes[np.ix_(templates, columns)]
     if mode == "distance":
         model = model + obs.mu
@@ -331,11 +372,18 @@ def _fit(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySe
     ln_z = marginal.ln_evidence
     if not np.any(np.isfinite(ln_z)):
         return None
-    probability = np.exp(ln_z - logsumexp(ln_z))
+    flat = np.exp(ln_z - logsumexp(ln_z))
+    probability = flat
+    if grid.kind == "sequence" and settings.type_prior.name != "flat" and mode in settings.type_prior_modes:
+        with np.errstate(divide="ignore"):
+            ln_post = ln_z + np.log(settings.type_prior.weights(grid.type_code[templates]))
+        if not np.any(np.isfinite(ln_post)):
+            return None
+        probability = np.exp(ln_post - logsumexp(ln_post))
     fitted = model + marginal.offset[:, None]
     if ext is not None:
         fitted = fitted + marginal.av[:, None] * ext[columns][None, :]
-    return _Fit(np.asarray(columns), np.asarray(templates), marginal, probability, fitted)
+    return _Fit(np.asarray(columns), np.asarray(templates), marginal, probability, fitted, flat)
 
 
 def _rank(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySettings, ext,
@@ -451,6 +499,16 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
         sequence = (read_dwarf_sequence_file(settings.sequence_file) if settings.sequence_file
                     else load_dwarf_sequence())
         grids.append(sequence.grid(obs.bands, mapping, step=settings.type_step, code_range=settings.type_range))
+        _check_prior(settings.type_prior, grids[-1])
+        if settings.type_prior.name != "flat":
+            used = " and ".join("colours-only" if m == "colours" else "distance-known"
+                                for m in settings.type_prior_modes)
+            flat = [m for m in ("distance", "colours") if m not in settings.type_prior_modes]
+            notes.append(settings.type_prior.describe() + f" - in the {used} mode"
+                         + (f"; the {'distance-known' if flat == ['distance'] else 'colours-only'} mode "
+                            "takes a flat prior (type_prior_modes)" if flat else ""))
+        else:
+            notes.append(settings.type_prior.describe())
         notes.append(f"{sequence.name}: cite {sequence.citation}" if sequence.citation else
                      f"{sequence.name} ({sequence.path}): the file names nothing to cite (no CITE section)")
     if library is not None:
@@ -487,7 +545,8 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
             + ". Map instrument bands to standard ones (band_map / --treat-as), add a spectral library, "
             "or allow blackbodies"
         )
-    estimates = tuple(e for e in (type_estimate(r) for r in rankings) if e is not None)
+    estimates = tuple(e for e in (_estimate(r, settings, sequence if settings.use_sequence else None, obs)
+                                  for r in rankings) if e is not None)
     headline = _headline(rankings, estimates)
     check = None
     colour_rank = next((r for r in rankings if r.mode == "colours" and r.kind == "sequence"), None) \
@@ -500,11 +559,16 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
     for r in rankings:
         if r.kind == "blackbody":
             continue
-        p = _chi2_p(r.best.chi2, r.dof)
-        if p < 1e-3:
-            flags.append(f"{r.source}, {r.mode} mode: the best template fits poorly (chi2 = {r.best.chi2:.1f} "
-                         f"for {r.dof} dof, p = {p:.1e}): not a normal field dwarf? (youth, binarity, "
-                         "extinction, a background star, or a photometry problem)")
+        chi2 = float(np.nanmin(r.grid["chi2"]))
+        p = _chi2_p(chi2, r.dof)
+        if p < FIT_P_THRESHOLD:
+            flags.append(f"{r.source}, {r.mode} mode: no template fits (best chi2 = {chi2:.1f} for {r.dof} dof, "
+                         f"p = {p:.1e}): its type is the least-bad template, not an answer - not a normal field "
+                         "dwarf? (youth, binarity, extinction, a background star, or a photometry problem)")
+    for e in estimates:
+        if len(e.peaks) > 1:
+            flags.append(f"{e.source}, {_MODE_WORDS[e.mode]}: the posterior has {len(e.peaks)} separate peaks "
+                         f"({'; '.join(pk.label for pk in e.peaks)}); " + _separating_text(e))
     if headline is not None and headline.at_range_edge:
         flags.append(f"the type estimate reaches the end of the template range ({headline.source}): it may "
                      "be truncated")
@@ -517,6 +581,85 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
         estimates=estimates, distance_check=check, blackbody_used=blackbody_used, flags=tuple(flags),
         notes=tuple(dict.fromkeys(notes)), caveats=CAVEATS, photometry=photometry, settings=settings,
     )
+
+
+_MODE_WORDS = {"distance": "distance-known mode", "colours": "colours-only mode"}
+
+
+def _check_prior(prior: TypePrior, grid: TemplateGrid) -> None:
+    """Refuse a type prior that gives no template of the sequence grid any weight."""
+    weights = prior.weights(grid.type_code)
+    if not np.any(weights > 0):
+        span = f"{type_label(grid.type_code.min())}-{type_label(grid.type_code.max())}"
+        raise InputError(f"the type prior ({prior.describe()}) gives zero weight to every template of the "
+                         f"sequence ({span}, after type_range): it excludes every template; give knots that "
+                         "overlap the sequence's types with a positive weight", where="type_prior")
+
+
+def _estimate(ranking, settings, sequence, obs):
+    """Type estimate of a ranking with the settings' prior, the flat-prior one beside it, and the bands
+    that would separate its peaks."""
+    from dataclasses import replace
+
+    prior = (settings.type_prior if ranking.kind == "sequence" and ranking.mode in settings.type_prior_modes
+             else parse_type_prior("flat"))
+    est = type_estimate(ranking, prior=prior.name, luminosity_scatter=settings.luminosity_scatter)
+    if est is None:
+        return None
+    if ranking.kind == "sequence" and prior.name != "flat":
+        flat = type_estimate(ranking, "probability_flat", "flat", settings.luminosity_scatter)
+        est = replace(est, flat=flat)
+    if len(est.peaks) > 1 and sequence is not None:
+        est = replace(est, separating_bands=separating_bands(sequence, ranking, est, obs.mu))
+    return est
+
+
+def separating_bands(sequence, ranking, estimate, mu: float = math.nan, min_difference: float = 0.3):
+    """Bands that would tell the two most probable peaks of a sequence posterior apart.
+
+    For every band the sequence tabulates at both peaks' median types but the
+    ranking did not use, the predicted apparent magnitude under each peak is
+    M_band(type) + its best offset (the distance modulus in the colours-only
+    mode; mu + delta in the distance-known mode), each peak taken at the
+    template nearest its median. Returned when the two differ by at least
+    ``min_difference`` mag (0.3 = three times the default template scatter).
+
+    Returns
+    -------
+    tuple of (band name, difference [mag]), largest |difference| first
+        difference = magnitude under the less probable peak - under the most probable.
+    """
+    from .sequence import SEQUENCE_BANDS
+
+    first, second = sorted(estimate.peaks, key=lambda pk: -pk.probability)[:2]
+    g = ranking.grid
+    offsets = []
+    for pk in (first, second):
+        i = int(np.argmin(np.abs(g["type_code"] - pk.median)))
+        offsets.append(float(g["offset"][i]) + (mu if ranking.mode == "distance" else 0.0))
+    used = set(ranking.template_bands)
+    out = []
+    for band in SEQUENCE_BANDS:
+        if band in used:
+            continue
+        m = sequence.absolute_magnitudes([first.median, second.median], [band])[:, 0]
+        if np.all(np.isfinite(m)):
+            diff = float((m[1] + offsets[1]) - (m[0] + offsets[0]))
+            if abs(diff) >= min_difference:
+                out.append((band, diff))
+    out.sort(key=lambda t: -abs(t[1]))
+    return tuple(out)
+
+
+def _separating_text(estimate) -> str:
+    if estimate.separating_bands:
+        parts = ", ".join(f"{b} ({d:+.1f} mag)" for b, d in estimate.separating_bands[:4])
+        return (f"a measurement in one of {parts} would separate the two most probable peaks (predicted "
+                "magnitude of the second minus the first; the sequence has no L', M' or methane band - a "
+                "spectral library through those bands can test them too)")
+    return ("no band of the sequence separates them by >= 0.3 mag at both peaks' types (W1/W2 stop at T2, "
+            "optical bands at L4-L8): an L', methane or visible measurement compared with a spectral library "
+            "would")
 
 
 def _headline(rankings, estimates):

@@ -16,7 +16,10 @@ from pathlib import Path
 from .photometry import INPUT_FILES, TARGET_FILE
 from .photometry import write_inputs as _write_photometry_inputs
 
-__all__ = ["INPUT_FILES", "TARGET_FILE", "write_inputs", "run"]
+__all__ = ["INPUT_FILES", "TARGET_FILE", "DEMO_TRUTH_TYPE", "write_inputs", "run"]
+
+#: spectral type the invented companion was generated with (examples/make_photometry_demo.py)
+DEMO_TRUTH_TYPE = "L0.5"
 
 
 def write_inputs(folder: Path) -> None:
@@ -36,5 +39,6 @@ def run(folder: Path) -> None:
     print(format_classification(result, top=5))
     print("(the invented companion was generated as an L0.5 dwarf of motes' own sequence)")
     out = folder / "companion"
-    for path in write_classification(result, out) + write_companion_figures(result, out):
+    # the figures show the invented truth (DEMO_TRUTH_TYPE) beside the probabilities
+    for path in write_classification(result, out) + write_companion_figures(result, out, truth=DEMO_TRUTH_TYPE):
         print(f"wrote {path}")

@@ -16,7 +16,11 @@ from pathlib import Path
 
 from . import copy_demo_inputs
 
-__all__ = ["write_inputs", "run", "INPUT_FILES"]
+__all__ = ["write_inputs", "run", "INPUT_FILES", "DEMO_DISK_TRUTH"]
+
+#: the invented mixture the demo photometry was generated from (examples/make_disk_demo.py)
+DEMO_DISK_TRUTH = {"fractions": {"silica": 0.65, "water_ice": 0.30, "carbon": 0.05, "iron": 0.0},
+                   "porosity": 0.35, "a_min": 1.5, "q": 3.6}
 
 #: Files this part copies into the demo folder.
 INPUT_FILES = ("disk_grid.toml", "disk_photometry.ecsv")
@@ -58,7 +62,7 @@ def run(folder: Path) -> None:
     for note in summary.notes:
         print(f"Note: {note}")
     out = Path(result.store) / "summary"
-    files = summary.write_tables(out) + write_grid_figures(summary, out)
+    files = summary.write_tables(out) + write_grid_figures(summary, out, truth=DEMO_DISK_TRUTH)
     print("Files:")
     for p in [Path(result.store) / "manifest.json", *files]:
         print(f"  {p}")

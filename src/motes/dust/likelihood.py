@@ -198,7 +198,12 @@ def chi_square_with_best_scale(model, obs: DiskPhotometry, systematic=0.0):
     convex in s (ln Phi is log-concave), so the joint minimum is unique. It lies
     in [0, s_det] (the limit terms only increase with s when m > 0) and is found
     by a safeguarded Newton iteration kept inside that bracket, to a relative
-    precision of 1e-12 in s. Limits therefore pull the scale down exactly as
+    precision of 1e-12 in s. A limit on a negative model value (polarised
+    intensity can be negative) pulls the scale up instead; the bracket is then
+    extended upwards by doublings until chi2 rises.
+
+    Total and polarised rows (:attr:`DiskPhotometry.intensity`) are one vector
+    here: they share the one scale s, and polarised model values may be negative. Limits therefore pull the scale down exactly as
     much as the likelihood says, and the same chi2 definition is used in every
     fit and grid in motes.
     """
@@ -240,6 +245,22 @@ def _refine_scale_with_limits(m, obs, sig, a, b, s_det, iterations=100):
         d2 = 2 * a + 2 * np.sum(k * k * ratio * (z + ratio), axis=-1)
         return d1, d2
 
+    if np.any(lim & (mu < 0)):
+        # a negative model value (polarised intensity) in an upper limit pulls the scale up, so
+        # the minimum may lie above s_det: move the bracket up by doublings until chi2 rises
+        grow = np.any(lim & (mu < 0), axis=-1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            reach = np.where(lim & (mu != 0), np.abs(obs.value / np.where(mu != 0, mu, 1.0)), 0.0).max(axis=-1)
+        top = np.where(grow, np.maximum(np.maximum(s_det, reach), 1e-300), s_det)
+        for _ in range(2100):
+            d1, _ = derivatives(top)
+            up = grow & (d1 <= 0)
+            if not np.any(up):
+                break
+            lo = np.where(up, top, lo)
+            top = np.where(up, 2.0 * top, top)
+        hi = np.where(grow, top, hi)
+        s = np.where(grow, top, s)
     active = np.ones(s.shape, dtype=bool)
     d1, _ = derivatives(s)
     active &= d1 > 0            # derivative <= 0 at s_det: minimum is s_det itself

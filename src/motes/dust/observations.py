@@ -15,26 +15,42 @@ band       yes       band name (standard, or a user band passed in
 value      yes       the measurement, in the unit implied by ``kind``; for an
                      upper limit, the N-sigma limit itself
 error      yes*      1-sigma error in the same unit (*may be empty for limits)
-kind       no        ``ratio`` (default), ``delta_mag``, ``sb_ratio`` or
-                     ``sb_delta_mag`` (see below)
+kind       no        ``contrast_ratio`` (default), ``contrast_mag``,
+                     ``sb_contrast_ratio`` or ``sb_contrast_mag`` (see below;
+                     the names of :mod:`motes.photometry.table_schema`)
 limit_sigma no       N of an N-sigma upper limit; empty, 0 or ``nan`` for a
                      detection
 upper_limit no       ``true``/``false`` (``yes``/``no``, 1/0): marks a limit;
                      ``limit_sigma`` then defaults to 3
+intensity  no        ``total`` (default) or ``polarised`` (``polarized``):
+                     whether the row is total or polarised intensity
 ========== ========= =========================================================
 
-Kinds
-    ``ratio``
+Intensity
+    A row in ``polarised`` intensity is the disk's polarised brightness
+    relative to the (total) stellar flux, in any of the kinds below; it may be
+    negative (light polarised parallel to the scattering plane is data, not
+    bad input). Total and polarised rows of one table are fitted together with
+    one composition and ONE flux scale, so their ratio, the degree of
+    polarisation, constrains the dust. A band may appear twice, once per
+    intensity; a band given twice with no ``intensity`` column is refused
+    (the table would mix kinds without saying which). The table meta
+    ``intensity`` sets the default for every row. Polarised rows need the
+    Mie phase function (Henyey-Greenstein carries no polarisation).
+
+Kinds (one vocabulary with companion tables; the names of earlier releases,
+``ratio``, ``delta_mag``, ``sb_ratio``, ``sb_delta_mag``, are refused with their new name)
+    ``contrast_ratio``
         disk flux / star flux in the band (dimensionless).
-    ``delta_mag``
+    ``contrast_mag``
         m_disk - m_star [mag]; converted with r = 10**(-0.4 dm) and the
         linearised error sigma_r = r ln(10)/2.5 sigma_dm (a note is added when
         sigma_dm > 0.2 mag, where the linear error is poor). For a limit, the
         value is the faintest Delta-mag reached (the disk is fainter).
-    ``sb_ratio``
+    ``sb_contrast_ratio``
         disk surface brightness / star flux [arcsec^-2].
-    ``sb_delta_mag``
-        mu_disk - m_star [mag arcsec^-2 - mag], converted as ``delta_mag``.
+    ``sb_contrast_mag``
+        mu_disk - m_star [mag arcsec^-2 - mag], converted as ``contrast_mag``.
 
 Surface-brightness kinds and flux kinds differ by an unknown solid angle, so
 one file may not mix them (the fit's free flux scale absorbs one common
@@ -55,17 +71,23 @@ import numpy as np
 from ..errors import BandError, InputError, quoted_names
 from ..parameters import MAGNITUDE
 from ..photometry.bands import Band, get_band
+from ..photometry.table_schema import DISK_KINDS, check_kind
 
 __all__ = [
     "DiskPhotometry",
     "DISK_PHOTOMETRY_KINDS",
     "read_disk_photometry",
+    "INTENSITIES",
 ]
 
-#: Accepted values of the ``kind`` column.
-DISK_PHOTOMETRY_KINDS = ("ratio", "delta_mag", "sb_ratio", "sb_delta_mag")
-_MAG_KINDS = ("delta_mag", "sb_delta_mag")
-_SB_KINDS = ("sb_ratio", "sb_delta_mag")
+#: Accepted values of the ``intensity`` column (``polarized`` is read as ``polarised``).
+INTENSITIES = ("total", "polarised")
+_INTENSITY_SPELLINGS = {"total": "total", "polarised": "polarised", "polarized": "polarised"}
+
+#: Accepted values of the ``kind`` column (:data:`motes.photometry.table_schema.DISK_KINDS`).
+DISK_PHOTOMETRY_KINDS = DISK_KINDS
+_MAG_KINDS = ("contrast_mag", "sb_contrast_mag")
+_SB_KINDS = ("sb_contrast_ratio", "sb_contrast_mag")
 _LN10_OVER_2P5 = math.log(10.0) / 2.5
 _TRUE = ("true", "yes", "y", "1", "t")
 _FALSE = ("false", "no", "n", "0", "f", "")
@@ -97,6 +119,8 @@ class DiskPhotometry:
         Conversions and caveats, for reports.
     path : str or None
         File the data came from.
+    intensity : tuple of str
+        ``"total"`` or ``"polarised"`` per row (default: all total).
     """
 
     bands: tuple[Band, ...]
@@ -108,6 +132,7 @@ class DiskPhotometry:
     normalisation: str = "flux ratio"
     notes: tuple[str, ...] = ()
     path: str | None = None
+    intensity: tuple[str, ...] = ()
 
     def __post_init__(self):
         n = len(self.bands)
@@ -122,9 +147,14 @@ class DiskPhotometry:
         if lim.shape != (n,):
             raise InputError(f"DiskPhotometry.is_limit must have one entry per band ({n}), got shape {lim.shape}")
         lim.setflags(write=False)
-        names = [b.name for b in self.bands]
+        intensity = tuple(self.intensity) if self.intensity else ("total",) * n
+        if len(intensity) != n or any(k not in INTENSITIES for k in intensity):
+            raise InputError(f"DiskPhotometry.intensity must give one of {quoted_names(INTENSITIES)} per band ({n})",
+                             self.path)
+        object.__setattr__(self, "intensity", intensity)
+        names = [(b.name, k) for b, k in zip(self.bands, intensity)]
         if len(set(names)) != n:
-            dup = sorted({x for x in names if names.count(x) > 1})
+            dup = sorted({x[0] for x in names if names.count(x) > 1})
             raise InputError(f"disk photometry lists band(s) {dup} more than once", self.path)
         if n == 0:
             raise InputError("disk photometry has no rows", self.path)
@@ -145,12 +175,34 @@ class DiskPhotometry:
         object.__setattr__(self, "is_limit", lim)
         object.__setattr__(self, "bands", tuple(self.bands))
         if not self.input_kind:
-            object.__setattr__(self, "input_kind", ("ratio",) * n)
+            object.__setattr__(self, "input_kind", ("contrast_ratio",) * n)
 
     @property
     def band_names(self) -> tuple[str, ...]:
         """Names of the bands, in row order."""
         return tuple(b.name for b in self.bands)
+
+    @property
+    def has_polarised(self) -> bool:
+        """True when some row is polarised intensity."""
+        return "polarised" in self.intensity
+
+    @property
+    def is_polarised(self) -> np.ndarray:
+        """ndarray[B] of bool: True for polarised-intensity rows."""
+        return np.array([k == "polarised" for k in self.intensity], dtype=bool)
+
+    @property
+    def row_keys(self) -> tuple[str, ...]:
+        """Band names, with ``_polarised`` appended for polarised rows (store columns, file keys)."""
+        return tuple(b.name + ("_polarised" if k == "polarised" else "")
+                     for b, k in zip(self.bands, self.intensity))
+
+    @property
+    def row_labels(self) -> tuple[str, ...]:
+        """Band names, with `` (polarised)`` after polarised rows (for tables and messages)."""
+        return tuple(b.name + (" (polarised)" if k == "polarised" else "")
+                     for b, k in zip(self.bands, self.intensity))
 
     @property
     def n_detections(self) -> int:
@@ -172,9 +224,13 @@ class DiskPhotometry:
         t["pivot_wavelength"].unit = "um"
         t["value"] = self.value
         t["error"] = self.error
+        if self.normalisation == "surface brightness":   # flux ratios are pure numbers
+            t["value"].unit = t["error"].unit = "1 / arcsec2"
         t["is_limit"] = self.is_limit
         t["limit_sigma"] = self.limit_sigma
         t["input_kind"] = list(self.input_kind)
+        if self.has_polarised:
+            t["intensity"] = list(self.intensity)
         t.meta["normalisation"] = self.normalisation
         t.meta["notes"] = list(self.notes)
         if self.path:
@@ -252,24 +308,46 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
     if missing:
         raise InputError(
             f"missing column(s) {missing}; expected band, value, error "
-            "[, kind, limit_sigma, upper_limit]", path)
+            "[, kind, limit_sigma, upper_limit, intensity]", path)
     if len(table) == 0:
         raise InputError("the table has no rows", path)
     table.rename_columns(list(cols.values()), list(cols.keys()))
-    default_kind = str(table.meta.get("kind", "ratio")).strip().lower() if table.meta else "ratio"
+    default_kind = "contrast_ratio"
+    if table.meta and "kind" in table.meta:
+        default_kind = check_kind(table.meta["kind"], DISK_PHOTOMETRY_KINDS, path, "meta 'kind'")
+    meta_intensity = str(table.meta.get("intensity", "total")).strip().lower() if table.meta else "total"
+    default_intensity = _INTENSITY_SPELLINGS.get(meta_intensity)
+    if default_intensity is None:
+        raise InputError(f"the table meta 'intensity' must be 'total' or 'polarised', got {meta_intensity!r}",
+                         path)
+    has_intensity_column = "intensity" in table.colnames
 
-    bands, values, errors, limits, sigmas, kinds = [], [], [], [], [], []
+    bands, values, errors, limits, sigmas, kinds, intensities = [], [], [], [], [], [], []
     notes: list[str] = []
-    seen: dict[str, int] = {}
+    seen: dict[tuple[str, str], int] = {}
     for i in range(len(table)):
         raw_band = _cell(table, "band", i)
         band_name = "" if raw_band is None else str(raw_band).strip()
         where = f"row {i + 1}" + (f" (band '{band_name}')" if band_name else "")
         if not band_name:
             raise InputError("the band name is empty", path, where)
-        if band_name in seen:
-            raise InputError(f"band '{band_name}' already given in row {seen[band_name]}", path, where)
-        seen[band_name] = i + 1
+        intensity = default_intensity
+        if has_intensity_column:
+            cell = _cell(table, "intensity", i)
+            if cell is not None and str(cell).strip():
+                text = str(cell).strip().lower()
+                intensity = _INTENSITY_SPELLINGS.get(text)
+                if intensity is None:
+                    raise InputError(f"intensity must be 'total' or 'polarised', got {cell!r}", path, where)
+        if (band_name, intensity) in seen:
+            first = seen[(band_name, intensity)]
+            if not has_intensity_column:
+                raise InputError(
+                    f"band '{band_name}' already given in row {first}; if one of the two rows is polarised "
+                    "intensity, add a column 'intensity' saying which (total or polarised)", path, where)
+            raise InputError(f"band '{band_name}' in {intensity} intensity already given in row {first}",
+                             path, where)
+        seen[(band_name, intensity)] = i + 1
         try:
             band = get_band(band_name, custom=custom_bands)
         except BandError as exc:
@@ -278,9 +356,7 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
         if "kind" in table.colnames:
             cell = _cell(table, "kind", i)
             if cell is not None and str(cell).strip():
-                kind = str(cell).strip().lower()
-        if kind not in DISK_PHOTOMETRY_KINDS:
-            raise InputError(f"kind {kind!r} is not one of {quoted_names(DISK_PHOTOMETRY_KINDS)}", path, where)
+                kind = check_kind(cell, DISK_PHOTOMETRY_KINDS, path, where)
 
         is_limit = False
         if "upper_limit" in table.colnames:
@@ -330,6 +406,7 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
         limits.append(is_limit)
         sigmas.append(n_sigma if is_limit else math.nan)
         kinds.append(kind)
+        intensities.append(intensity)
         if band.approximate:
             # the wording of the model's note (dust.model.colours), so a fit prints it once
             notes.append(f"band '{band.name}' is approximate ({band.source})")
@@ -337,11 +414,11 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
     families = {k in _SB_KINDS for k in kinds}
     if len(families) > 1:
         raise InputError(
-            "the table mixes flux-ratio kinds (ratio, delta_mag) with surface-brightness kinds "
-            "(sb_ratio, sb_delta_mag); their normalisations differ by an unknown solid angle, "
+            "the table mixes flux-ratio kinds (contrast_ratio, contrast_mag) with surface-brightness kinds "
+            "(sb_contrast_ratio, sb_contrast_mag); their normalisations differ by an unknown solid angle, "
             "so give every row in one family", path)
     if any(k in _MAG_KINDS for k in kinds):
-        notes.append("Delta-mag rows converted to ratios with r = 10**(-0.4 dm)")
+        notes.append("contrast_mag rows converted to flux ratios with r = 10**(-0.4 dm)")
     return DiskPhotometry(
         bands=tuple(bands),
         value=np.array(values),
@@ -352,4 +429,5 @@ def read_disk_photometry(path, custom_bands: dict[str, Band] | None = None) -> D
         normalisation="surface brightness" if families == {True} else "flux ratio",
         notes=tuple(dict.fromkeys(notes)),
         path=str(path),
+        intensity=tuple(intensities),
     )

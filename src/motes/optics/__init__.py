@@ -4,6 +4,9 @@ Mie scattering covers homogeneous spheres (``mie``), coated spheres
 (``coated``), their polarisation (``polarisation``) and the distribution of
 hollow spheres for irregular grains (``hollow``); see ``docs/optics.md``.
 
+Thermal emission of grains (absorption efficiencies, radiative-equilibrium
+temperatures, thermal spectra) is in ``thermal``.
+
 Optical constants and mixing (``material``, ``constants``, ``mixing``) are re-exported
 here; see ``docs/materials.md`` for the file format, the bundled materials
 and the fraction/porosity definitions.
@@ -133,4 +136,27 @@ _GRAIN_NAMES = [
     "sphere_polarisation",
 ]
 
-__all__ = _MATERIALS_NAMES + _MIE_NAMES + _GRAIN_NAMES
+# --- thermal emission: absorption efficiencies, grain temperatures (issue 13) --
+from .thermal import (
+    absorption_efficiency,
+    blackbody_temperature,
+    equilibrium_temperature,
+    planck_lambda,
+    planck_nu,
+    stellar_luminosity_density,
+    thermal_flux_density,
+    thermal_wavelength_grid,
+)
+
+_THERMAL_NAMES = [
+    "absorption_efficiency",
+    "blackbody_temperature",
+    "equilibrium_temperature",
+    "planck_lambda",
+    "planck_nu",
+    "stellar_luminosity_density",
+    "thermal_flux_density",
+    "thermal_wavelength_grid",
+]
+
+__all__ = _MATERIALS_NAMES + _MIE_NAMES + _GRAIN_NAMES + _THERMAL_NAMES

@@ -338,8 +338,9 @@ def read_optical_constants(path, wavelength_unit=None, name=None, density=None,
         Material name (default: ``name`` header, else the file stem).
     density : float, optional [g cm^-3]
         Overrides the ``density`` header.
-    extrapolation : {None, "constant", "loglog"}
-        Rule for wavelengths outside the data (default: refuse).
+    extrapolation : {None, "constant", "loglog", "dielectric", "conductor"}
+        Rule for wavelengths outside the data (default: refuse); the last two
+        are for thermal emission (:mod:`motes.optics.material`).
     columns : {"n k", "eps1 eps2"}, optional
         What the second and third columns are when the file has no
         ``columns`` header (default ``n k``); ``m = sqrt(eps1 + i eps2)``.

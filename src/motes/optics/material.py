@@ -21,7 +21,26 @@ Outside the tabulated range motes refuses to extrapolate
 an explicit rule (``extrapolation="constant"`` holds the end values,
 ``"loglog"`` continues ``ln n`` and ``ln k`` linearly in ``ln lambda`` with
 the slope between the end point and the tabulated point nearest to a factor
-1.25 inside the range). A material that extrapolated says so:
+1.25 inside the range). Two rules are meant for thermal emission, whose
+balance needs constants from the ultraviolet to the millimetre:
+
+* ``"dielectric"``: beyond the longest tabulated wavelength n stays at its end
+  value and ``k ∝ 1/lambda`` (the far-infrared wing of the lowest-frequency
+  resonance, where ``eps_2 = 2 n k ∝ omega``);
+* ``"conductor"``: beyond the longest tabulated wavelength ``n, k ∝ lambda^(1/2)``
+  from their end values, the Hagen-Rubens behaviour of a conductor whose
+  conductivity is constant at low frequency (Bohren & Huffman 1983, ch. 9,
+  where n ≈ k ∝ lambda^(1/2)). The end values keep their own ratio (iron at
+  30 um has n/k ≈ 0.2, not yet the n ≈ k limit): forcing n = k would put a
+  jump at the end of the data.
+
+On the ultraviolet side both hold n and k at the shortest tabulated
+wavelength (``"constant"``). Dielectric ices and silica absorb far more
+strongly below ~0.2 um than at the edge of most tables (basic fact of the
+trade, no source), so this side under-estimates the ultraviolet absorption;
+callers report how much of the star's flux falls there.
+
+A material that extrapolated says so:
 :meth:`Material.extrapolation_notes` and :meth:`Material.sample` return notes
 that every caller must carry to its outputs.
 """
@@ -36,10 +55,18 @@ import numpy as np
 from ..errors import OpticalConstantsError
 from ..parameters import accepts_quantities
 
-__all__ = ["Material", "IndexSample", "EXTRAPOLATION_RULES", "VACUUM"]
+__all__ = ["Material", "IndexSample", "EXTRAPOLATION_RULES", "EXTRAPOLATION_DESCRIPTIONS", "VACUUM"]
 
 #: Explicit extrapolation rules; ``None`` (the default) refuses to extrapolate.
-EXTRAPOLATION_RULES = ("constant", "loglog")
+EXTRAPOLATION_RULES = ("constant", "loglog", "dielectric", "conductor")
+#: What each rule does, for notes and docs.
+EXTRAPOLATION_DESCRIPTIONS = {
+    "constant": "n and k held at the end values",
+    "loglog": "ln n and ln k continued linearly in ln lambda",
+    "dielectric": "long side: n constant, k ∝ 1/lambda; short side: n, k constant",
+    "conductor": "long side: Hagen-Rubens n, k ∝ lambda^1/2 (Bohren & Huffman 1983, ch. 9); "
+                 "short side: n, k constant",
+}
 
 
 @dataclass(frozen=True)
@@ -85,7 +112,7 @@ class Material:
         Material, measurement reference, temperature/phase, license (one line per item).
     path : str or None
         File the data were read from.
-    extrapolation : {None, "constant", "loglog"}
+    extrapolation : {None, "constant", "loglog", "dielectric", "conductor"}
         ``None`` refuses wavelengths outside the data; a rule name allows them
         and every output using such values must carry the notes.
     """
@@ -155,9 +182,11 @@ class Material:
         lo, hi = self.wavelength_range
         wo = w[outside]
         span = f"{wo.min():.4g}" if wo.min() == wo.max() else f"{wo.min():.4g}-{wo.max():.4g}"
+        rule = f"'{self.extrapolation}' rule"
+        if self.extrapolation in ("dielectric", "conductor"):
+            rule += f" ({EXTRAPOLATION_DESCRIPTIONS[self.extrapolation]})"
         return (f"optical constants of '{self.name}' extrapolated with the "
-                f"'{self.extrapolation}' rule at {span} um "
-                f"(data cover {lo:.4g}-{hi:.4g} um)",)
+                f"{rule} at {span} um (data cover {lo:.4g}-{hi:.4g} um)",)
 
     @accepts_quantities
     def refractive_index(self, wavelength) -> np.ndarray:
@@ -202,7 +231,8 @@ class Material:
             raise OpticalConstantsError(
                 f"wavelength {span} um lies outside the data of "
                 f"'{self.name}' ({lo:.4g}-{hi:.4g} um); motes does not extrapolate optical "
-                "constants unless asked (extrapolation='constant' or 'loglog')",
+                "constants unless asked (extrapolation = one of "
+                f"{', '.join(repr(r) for r in EXTRAPOLATION_RULES)})",
                 path=self.path)
         m = _interpolate(self, w)
         return IndexSample(wavelength=w, m=m, extrapolated=~inside, notes=self.extrapolation_notes(w))
@@ -246,6 +276,15 @@ def _interpolate(mat: Material, w: np.ndarray) -> np.ndarray:
                 dx = xq[outside] - x[end]
                 n[outside] = mat.n[end] * np.exp(ln_n * dx)
                 k[outside] = mat.k[end] * np.exp(ln_k * dx)
+    elif mat.extrapolation in ("dielectric", "conductor"):
+        beyond = xq > x[-1]          # the short side keeps the clipped ("constant") values
+        if beyond.any():
+            ratio = np.exp(xq[beyond] - x[-1])           # lambda / lambda_end
+            if mat.extrapolation == "dielectric":
+                k[beyond] = mat.k[-1] / ratio
+            else:
+                n[beyond] = mat.n[-1] * np.sqrt(ratio)
+                k[beyond] = mat.k[-1] * np.sqrt(ratio)
     return n + 1j * k
 
 

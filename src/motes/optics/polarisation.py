@@ -170,5 +170,4 @@ def polarised_intensity(m, x, theta) -> np.ndarray:
     -------
     ndarray[*S]
     """
-    s1, s2 = mie.scattering_amplitudes(m, x, np.atleast_1d(np.asarray(theta, dtype=float)))
-    return (np.abs(s1) ** 2 - np.abs(s2) ** 2).mean(axis=-1)
+    return mie.polarised_scattered_intensity(m, x, np.atleast_1d(np.asarray(theta, dtype=float)))

@@ -42,6 +42,7 @@ from .conversions import (
 from .measurement_table import INPUT_KINDS, Measurement, parse_flux_unit, read_photometry_table
 from .measurements import BandPhotometry, CalibratedPhotometry, calibrate
 from .spectra import blackbody_flux_lambda
+from .table_schema import COMPANION_KINDS, DISK_KINDS, KINDS, RENAMED_KINDS, check_kind
 from .synthesis import SynthesisedMagnitude, nearest_reference_band, spectrum_colour, synthesise_host_magnitude
 from .targets import (
     DEFAULT_SYNTHESIS_SYSTEMATIC_MAG,
@@ -95,6 +96,11 @@ __all__ = [
     # targets and calibration
     "DEFAULT_SYNTHESIS_SYSTEMATIC_MAG",
     "INPUT_KINDS",
+    "KINDS",
+    "COMPANION_KINDS",
+    "DISK_KINDS",
+    "RENAMED_KINDS",
+    "check_kind",
     "CalibrationSettings",
     "HostMagnitude",
     "HostSpectrum",

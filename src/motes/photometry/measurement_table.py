@@ -20,11 +20,12 @@ import numpy as np
 from ..errors import BandError, InputError
 from ..parameters import MAGNITUDE
 from .bands import Band, get_band
+from .table_schema import COMPANION_KINDS, check_kind
 
 __all__ = ["INPUT_KINDS", "Measurement", "read_photometry_table", "read_table_rows", "parse_flux_unit"]
 
-#: Kinds of measurement a photometry row may hold.
-INPUT_KINDS = ("vega_mag", "ab_mag", "flux", "contrast_mag", "contrast_ratio")
+#: Kinds of measurement a photometry row may hold (the names of :mod:`motes.photometry.table_schema`).
+INPUT_KINDS = COMPANION_KINDS
 
 _TABLE_COLUMNS = ("band", "kind", "value", "error", "unit", "limit_sigma", "note")
 
@@ -243,9 +244,7 @@ def read_photometry_table(path, custom: dict | None = None, counting: str = "pho
         if band.name in seen:
             raise InputError(f"duplicate band: {band.name!r} is also in row {seen[band.name]}", path, where)
         seen[band.name] = number
-        kind = row["kind"].lower()
-        if kind not in INPUT_KINDS:
-            raise InputError(f"kind must be one of {', '.join(INPUT_KINDS)}, got {row['kind']!r}", path, where)
+        kind = check_kind(row["kind"], INPUT_KINDS, path, where)
         value = _cell_float(row["value"], path, where, "value")
         error = _cell_float(row["error"], path, where, "error")
         sigma = _cell_float(row.get("limit_sigma", ""), path, where, "limit_sigma")

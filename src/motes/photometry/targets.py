@@ -25,7 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import BandError, InputError
+from ..errors import BandError, InputError, quoted_names
 from ..parameters import MAGNITUDE, STAR_TEFF, accepts_quantities
 from ..tomlcheck import check_keys, check_tables, get_table, read_number
 from .bands import COUNTING_MODES, Band, gaussian_band, read_band_curve, top_hat_band
@@ -42,7 +42,25 @@ __all__ = [
     "read_user_bands",
     "user_bands_from_document",
     "read_host_spectrum",
+    "TARGET_KEYS",
+    "USER_BAND_KEYS",
 ]
+
+#: Keys each table of a target description accepts (docs/descriptions.md lists them).
+TARGET_KEYS = {
+    "companion": ("name", "photometry"),
+    "host": ("name", "distance_pc", "parallax_mas", "teff_k", "magnitudes", "spectrum",
+             "ra_deg", "dec_deg", "pm_ra_mas_yr", "pm_dec_mas_yr"),
+    "host.spectrum": ("file", "wavelength_unit", "flux"),
+    "host.magnitudes": ("mag", "error", "system"),
+    "settings": ("synthesis_systematic_mag", "synthesis_reference_band", "counting", "zero_point_errors"),
+}
+#: Keys of a user band ``[bands.NAME]``, by ``shape`` (target, mixture, fit and grid files).
+USER_BAND_KEYS = {
+    "top-hat": ("shape", "centre_um", "width_um", "counting", "note"),
+    "gaussian": ("shape", "centre_um", "fwhm_um", "counting", "note"),
+    "curve": ("shape", "file", "wavelength_unit", "response", "vega_magnitude", "counting", "note"),
+}
 
 
 #: Default systematic uncertainty [mag] added to a host magnitude synthesised
@@ -187,20 +205,19 @@ def _read_user_bands(doc: dict, path: Path, counting: str) -> dict[str, Band]:
         shape = spec.get("shape")
         try:
             if shape == "top-hat":
-                check_keys(spec, ("shape", "centre_um", "width_um", "counting", "note"), path=path, where=where)
+                check_keys(spec, USER_BAND_KEYS["top-hat"], path=path, where=where)
                 band = top_hat_band(name, read_number(spec.get("centre_um"), path=path, where=f"{where} centre_um",
                                                       what="centre_um [um]"),
                                     read_number(spec.get("width_um"), path=path, where=f"{where} width_um",
                                                 what="width_um [um]"))
             elif shape == "gaussian":
-                check_keys(spec, ("shape", "centre_um", "fwhm_um", "counting", "note"), path=path, where=where)
+                check_keys(spec, USER_BAND_KEYS["gaussian"], path=path, where=where)
                 band = gaussian_band(name, read_number(spec.get("centre_um"), path=path, where=f"{where} centre_um",
                                                        what="centre_um [um]"),
                                      read_number(spec.get("fwhm_um"), path=path, where=f"{where} fwhm_um",
                                                  what="fwhm_um [um]"))
             elif shape == "curve":
-                check_keys(spec, ("shape", "file", "wavelength_unit", "response", "vega_magnitude",
-                                  "counting", "note"), path=path, where=where)
+                check_keys(spec, USER_BAND_KEYS["curve"], path=path, where=where)
                 file = spec.get("file")
                 if not isinstance(file, str):
                     raise InputError("a curve band needs file = \"PATH\" (relative to this file)", path, where)
@@ -229,7 +246,7 @@ def _read_user_bands(doc: dict, path: Path, counting: str) -> dict[str, Band]:
             raise InputError(exc.reason, path, where) from None
         band_counting = spec.get("counting", counting)
         if band_counting not in COUNTING_MODES:
-            raise InputError(f"counting must be one of {COUNTING_MODES}, got {band_counting!r}", path,
+            raise InputError(f"counting must be one of {quoted_names(COUNTING_MODES)}, got {band_counting!r}", path,
                              f"{where} counting")
         note = spec.get("note", "")
         if note:
@@ -296,9 +313,7 @@ def _read_host(doc, path, custom, counting) -> HostStar:
     host = doc.get("host")
     if not isinstance(host, dict):
         raise InputError("missing [host] table (host star photometry and distance)", path, "[host]")
-    check_keys(host, ("name", "distance_pc", "parallax_mas", "teff_k", "magnitudes", "spectrum",
-                      "ra_deg", "dec_deg", "pm_ra_mas_yr", "pm_dec_mas_yr"),
-               path=path, where="[host]")
+    check_keys(host, TARGET_KEYS["host"], path=path, where="[host]")
     name = host.get("name", "host")
     if not isinstance(name, str):
         raise InputError(f"expected a string, got {name!r}", path, "[host] name")
@@ -329,7 +344,7 @@ def _read_host(doc, path, custom, counting) -> HostStar:
         where = "[host.spectrum]"
         if not isinstance(spec, dict) or not isinstance(spec.get("file"), str):
             raise InputError('expected a table with file = "PATH" (and wavelength_unit, flux)', path, where)
-        check_keys(spec, ("file", "wavelength_unit", "flux"), path=path, where=where)
+        check_keys(spec, TARGET_KEYS["host.spectrum"], path=path, where=where)
         spath = path.parent / spec["file"]
         if not spath.is_file():
             raise InputError(f"spectrum file {str(spath)!r} not found", path, f"{where} file")
@@ -346,7 +361,7 @@ def _read_host(doc, path, custom, counting) -> HostStar:
         seen[band.name] = key
         system = band.native_system
         if isinstance(val, dict):
-            check_keys(val, ("mag", "error", "system"), path=path, where=where)
+            check_keys(val, TARGET_KEYS["host.magnitudes"], path=path, where=where)
             system = val.get("system", system)
             if system not in ("Vega", "AB"):
                 raise InputError(f"system must be 'Vega' or 'AB', got {system!r}", path, where)
@@ -378,8 +393,7 @@ def _read_host_motion(host, path) -> tuple[float, ...]:
 
 def _read_settings(doc, path) -> CalibrationSettings:
     s = get_table(doc, "settings", path=path)
-    check_keys(s, ("synthesis_systematic_mag", "synthesis_reference_band", "counting", "zero_point_errors"),
-               path=path, where="[settings]")
+    check_keys(s, TARGET_KEYS["settings"], path=path, where="[settings]")
     kw = {}
     if "synthesis_systematic_mag" in s:
         v = read_number(s["synthesis_systematic_mag"], path=path, where="[settings] synthesis_systematic_mag",
@@ -393,7 +407,7 @@ def _read_settings(doc, path) -> CalibrationSettings:
         kw["synthesis_reference_band"] = s["synthesis_reference_band"]
     if "counting" in s:
         if s["counting"] not in COUNTING_MODES:
-            raise InputError(f"counting must be one of {COUNTING_MODES}, got {s['counting']!r}", path,
+            raise InputError(f"counting must be one of {quoted_names(COUNTING_MODES)}, got {s['counting']!r}", path,
                              "[settings] counting")
         kw["counting"] = s["counting"]
     if "zero_point_errors" in s:
@@ -480,7 +494,7 @@ def read_target(path) -> Target:
     comp = doc.get("companion")
     if not isinstance(comp, dict):
         raise InputError('missing [companion] table with name = "..." and photometry = "FILE"', path, "[companion]")
-    check_keys(comp, ("name", "photometry"), path=path, where="[companion]")
+    check_keys(comp, TARGET_KEYS["companion"], path=path, where="[companion]")
     name = comp.get("name")
     if not isinstance(name, str) or not name.strip():
         raise InputError("expected a non-empty name", path, "[companion] name")

@@ -11,10 +11,12 @@ from pathlib import Path
 from ..errors import InputError
 from ..files import atomic_write
 from ..photometry.bands import Band
+from .figure_style import SERIES_COLOURS, house_style, new_figure
 
 __all__ = ["plot_band"]
 
 
+@house_style
 def plot_band(band: Band, path) -> Path:
     """Save a plot of a band's curve (normalised) to ``path`` (PNG, PDF, ...).
 
@@ -33,12 +35,12 @@ def plot_band(band: Band, path) -> Path:
     path = Path(path)
     if path.parent and not path.parent.exists():
         raise InputError("output folder does not exist", path.parent)
-    fig = Figure(figsize=(6.0, 3.6))
+    fig = new_figure(1, height=2.6)
     ax = fig.subplots()
     t = band.throughput / band.throughput.max()
-    ax.plot(band.wavelength, t, color="#1f5f8b", lw=1.6, label=f"curve ({band.response} response)")
+    ax.plot(band.wavelength, t, color=SERIES_COLOURS[0], lw=1.4, label=f"curve ({band.response} response)")
     w = band.weight(band.wavelength)
-    ax.plot(band.wavelength, w / w.max(), color="#c0622f", lw=1.0, ls="--",
+    ax.plot(band.wavelength, w / w.max(), color=SERIES_COLOURS[3], lw=1.0, ls="--",
             label=f"{band.counting}-counting weight")
     ax.axvline(band.pivot_wavelength, color="0.3", lw=0.8, ls=":", label=f"pivot {band.pivot_wavelength:.4f} µm")
     ax.set_xlabel("wavelength [µm]")
@@ -46,7 +48,7 @@ def plot_band(band: Band, path) -> Path:
     title = band.name + (" (approximate)" if band.approximate else "")
     ax.set_title(title)
     ax.set_ylim(0, 1.12)
-    ax.legend(fontsize=8, loc="lower center")
+    ax.legend(fontsize=6.5, loc="lower center")
     fig.tight_layout()
     try:
         with atomic_write(path, suffix=path.suffix or ".png") as tmp:

@@ -1,32 +1,94 @@
-"""Writing a finished figure to disk: one PNG, atomically, or one clear error."""
+"""Writing a finished figure to disk: PNG and/or vector formats, atomically, or one clear error."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
 from ..errors import InputError
-from ..files import atomic_write
+from ..files import atomic_writes
 
-__all__ = ["save_figure"]
+__all__ = ["save_figure", "figure_paths", "check_formats"]
 
 
-def save_figure(fig, path, dpi: int = 130) -> Path:
-    """Write ``fig`` (a :class:`matplotlib.figure.Figure`) as a PNG at ``path``.
+def figure_paths(path, formats=None) -> list[Path]:
+    """The files :func:`save_figure` writes for ``path`` and ``formats``, in that order.
 
-    The folder is created; the file is written to a temporary name and renamed
-    (:func:`motes.files.atomic_write`), so an existing figure is never half
-    overwritten.
+    ``formats`` None: ``path`` itself (a missing suffix becomes ``.png``);
+    otherwise one file per format, ``path`` with that suffix.
+    """
+    path = Path(path)
+    if formats is None:
+        return [path if path.suffix else path.with_suffix(".png")]
+    formats = check_formats(formats)
+    return [path.with_suffix("." + f) for f in formats]
+
+
+def check_formats(formats) -> tuple[str, ...]:
+    """Validate a list of figure formats (``"png"``, ``"pdf"``, ``"svg"``; a string may list several
+    separated by commas); return them lower-cased, without repeats, in order.
 
     Raises
     ------
     motes.errors.InputError
-        The file cannot be written (unwritable folder, disk full), naming it.
+        An empty list or an unknown format, naming what is allowed.
     """
-    path = Path(path)
+    from .figure_style import FIGURE_FORMATS
+
+    if isinstance(formats, str):
+        formats = formats.split(",")
+    out = []
+    for f in formats:
+        f = str(f).strip().lower().lstrip(".")
+        if f not in FIGURE_FORMATS:
+            raise InputError(f"unknown figure format {f!r}; allowed: {', '.join(FIGURE_FORMATS)} "
+                             "(several separated by commas, e.g. png,pdf)")
+        if f not in out:
+            out.append(f)
+    if not out:
+        raise InputError(f"no figure format given; allowed: {', '.join(FIGURE_FORMATS)}")
+    return tuple(out)
+
+
+def save_figure(fig, path, dpi: int | None = None, formats=None) -> Path:
+    """Write ``fig`` (a :class:`matplotlib.figure.Figure`) to ``path``, in one or several formats.
+
+    The folder is created; all files are written to temporary names and
+    renamed together (:func:`motes.files.atomic_writes`), so an existing
+    figure is never half overwritten and no format is left stale.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+    path : str or os.PathLike
+        File name; with ``formats`` its suffix is replaced by each format's.
+    dpi : int, optional
+        PNG resolution (default the house style's, :data:`motes.report.figure_style.PNG_DPI`).
+    formats : sequence of str or str, optional
+        ``"png"``, ``"pdf"`` (vector), ``"svg"`` (vector); default: the
+        suffix of ``path`` (PNG when it has none).
+
+    Returns
+    -------
+    Path
+        The first file written (see :func:`figure_paths` for all of them).
+
+    Raises
+    ------
+    motes.errors.InputError
+        The file cannot be written (unwritable folder, disk full), naming it,
+        or an unknown format.
+    """
+    import matplotlib
+
+    from .figure_style import PNG_DPI
+
+    paths = figure_paths(path, formats)
     try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        with atomic_write(path, suffix=".png") as tmp:
-            fig.savefig(tmp, dpi=dpi)
+        paths[0].parent.mkdir(parents=True, exist_ok=True)
+        # vector files embed their fonts as TrueType (not Type 3), which journals' tools can edit
+        with atomic_writes(paths) as tmps, matplotlib.rc_context({"pdf.fonttype": 42, "ps.fonttype": 42}):
+            for tmp, final in zip(tmps, paths):
+                fig.savefig(tmp, dpi=dpi or PNG_DPI, format=final.suffix.lstrip(".") or "png")
     except OSError as exc:
-        raise InputError(f"cannot write figure: {exc}", path) from None
-    return path
+        raise InputError(f"cannot write figure: {exc}", paths[0]) from None
+    return paths[0]

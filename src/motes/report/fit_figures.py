@@ -12,7 +12,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..files import atomic_write
+from .figure_files import figure_paths, save_figure
+from .figure_style import house_style, new_figure
 
 __all__ = ["write_fit_figures", "plot_colours", "plot_corner", "plot_evidence"]
 
@@ -20,106 +21,34 @@ _COLOURS = ("#1b6ca8", "#c0392b", "#2e8b57", "#8e44ad")
 _N_MODELS_SHOWN = 3
 
 
-def plot_colours(result, path: Path, n_models: int = _N_MODELS_SHOWN) -> Path:
-    """Data and posterior model ratios (median, 68% band) of the best models vs wavelength."""
-    from matplotlib.figure import Figure
+@house_style
+def plot_colours(result, path: Path, n_models: int = _N_MODELS_SHOWN, formats=None, curves=None,
+                 truth_values=None) -> Path:
+    """Data and the best models' band values (median, 68%) vs wavelength, with residuals.
 
-    obs = result.observations
-    lam = obs.wavelength
-    order = np.argsort(lam)
-    fig = Figure(figsize=(7.0, 4.6))
-    ax = fig.subplots()
-    for i, m in enumerate(result.models[:n_models]):
-        c = m.colours
-        col = _COLOURS[i % len(_COLOURS)]
-        med = np.asarray(c["model_median"])[order]
-        ax.fill_between(lam[order], np.asarray(c["model_lo68"])[order], np.asarray(c["model_hi68"])[order],
-                        color=col, alpha=0.2, lw=0)
-        ax.plot(lam[order], med, "-", color=col, lw=1.6,
-                label=f"{m.name} (ln Z {m.ln_z:.1f}; median, 68%)")
-    det = ~obs.is_limit
-    ax.errorbar(lam[det], obs.value[det], yerr=obs.error[det], fmt="o", color="k", ms=5, capsize=2,
-                label="data", zorder=5)
-    if np.any(~det):
-        ax.errorbar(lam[~det], obs.value[~det], yerr=0.3 * obs.value[~det], uplims=True, fmt="v",
-                    color="k", ms=5, zorder=5, label="upper limits")
-    for b, x, y in zip(obs.bands, lam, obs.value):
-        ax.annotate(b.name, (x, y), textcoords="offset points", xytext=(0, 8), ha="center", fontsize=7,
-                    color="0.35")
-    ax.set_xscale("log")
-    ax.set_yscale("log")
-    ax.set_xlabel("pivot wavelength [µm]")
-    ax.set_ylabel("disk / star" + (" [arcsec$^{-2}$]" if obs.normalisation == "surface brightness" else ""))
-    ax.set_title("Disk colours: data and posterior models (Mie spheres)", fontsize=10)
-    ax.legend(fontsize=7, loc="best")
-    fig.tight_layout()
-    with atomic_write(path) as tmp:
-        fig.savefig(tmp, dpi=130)
-    return Path(path)
+    ``curves`` (from :func:`motes.dust.fit.curves.posterior_curves`) adds each
+    model's monochromatic spectrum; ``truth_values`` (demo) the invented
+    truth's band values. See :mod:`motes.report.colours_figure`.
+    """
+    from .colours_figure import draw_colours
+
+    return save_figure(draw_colours(result, n_models, curves=curves, truth_values=truth_values), path,
+                       formats=formats)
 
 
-def plot_corner(model, path: Path, max_points: int = 3000) -> Path:
-    """Pairwise posterior of one model: histograms on the diagonal, 2-D densities below."""
-    from matplotlib.figure import Figure
+@house_style
+def plot_corner(model, path: Path, max_points: int = 3000, formats=None, truth=None) -> Path:
+    """Pairwise posterior of one model: histograms on the diagonal, smoothed 2-D densities with
+    39%/86% contours below, nuisance parameters as small marginals (see
+    :mod:`motes.report.corner_figure`). ``truth``: known values drawn as dotted lines (demo).
+    ``max_points`` is kept for compatibility (every sample enters the histograms)."""
+    from .corner_figure import draw_corner
 
-    names = list(model.sample_names)
-    x = np.array(model.samples, dtype=float)
-    if "scale" in names:                      # the scale spans decades: plot its log
-        j = names.index("scale")
-        x[:, j] = np.log10(x[:, j])
-        names[j] = "log10 scale"
-    if "a_min" in names:
-        j = names.index("a_min")
-        x[:, j] = np.log10(x[:, j])
-        names[j] = "log10 a_min [µm]"
-    p = len(names)
-    best = []
-    for n in model.sample_names:
-        v = model.best.get(n, np.nan)
-        best.append(np.log10(v) if n in ("scale", "a_min") and v > 0 else v)
-    size = max(1.6 * p, 4.0)
-    fig = Figure(figsize=(size, size))
-    axes = fig.subplots(p, p, squeeze=False)
-    lo = np.percentile(x, 0.5, axis=0)
-    hi = np.percentile(x, 99.5, axis=0)
-    span = np.where(hi > lo, hi - lo, 1.0)
-    lo, hi = lo - 0.05 * span, hi + 0.05 * span
-    for i in range(p):
-        for j in range(p):
-            ax = axes[i, j]
-            if j > i:
-                ax.axis("off")
-                continue
-            if i == j:
-                ax.hist(x[:, i], bins=30, range=(lo[i], hi[i]), color=_COLOURS[0], histtype="stepfilled", alpha=0.6)
-                for q in np.percentile(x[:, i], [16, 50, 84]):
-                    ax.axvline(q, color="k", lw=0.8, ls="--" if q != np.median(x[:, i]) else "-")
-                ax.set_yticks([])
-            else:
-                h, xe, ye = np.histogram2d(x[:, j], x[:, i], bins=25, range=[[lo[j], hi[j]], [lo[i], hi[i]]])
-                ax.imshow(h.T, origin="lower", extent=(xe[0], xe[-1], ye[0], ye[-1]), aspect="auto",
-                          cmap="Blues")
-                if np.isfinite(best[j]) and np.isfinite(best[i]):
-                    ax.plot(best[j], best[i], "x", color="#c0392b", ms=6)
-                ax.set_ylim(lo[i], hi[i])
-            ax.set_xlim(lo[j], hi[j])
-            ax.tick_params(labelsize=6)
-            if i == p - 1:
-                ax.set_xlabel(names[j], fontsize=7)
-            else:
-                ax.set_xticklabels([])
-            if j == 0 and i > 0:
-                ax.set_ylabel(names[i], fontsize=7)
-            elif j > 0:
-                ax.set_yticklabels([])
-    fig.suptitle(f"Posterior of {model.name} (dashes: 16/84%; x: maximum likelihood)", fontsize=9)
-    fig.tight_layout()
-    with atomic_write(path) as tmp:
-        fig.savefig(tmp, dpi=110)
-    return Path(path)
+    return save_figure(draw_corner(model, truth=truth), path, formats=formats)
 
 
-def plot_evidence(result, path: Path) -> Path:
+@house_style
+def plot_evidence(result, path: Path, formats=None) -> Path:
     """ln Z - ln Z(best) per model, with 1-sigma errors and the Kass & Raftery reading breaks.
 
     A linear axis from -12 to +2 keeps the breaks at ln B = -1, -3, -5 (Kass &
@@ -132,7 +61,7 @@ def plot_evidence(result, path: Path) -> Path:
     names = [m.name for m in result.models]
     d = np.array([m.ln_z - result.best.ln_z for m in result.models])
     err = np.array([m.ln_z_err for m in result.models])
-    fig = Figure(figsize=(6.8, 0.45 * len(names) + 1.7))
+    fig = new_figure(2, height=0.4 * len(names) + 1.5)
     ax = fig.subplots()
     y = np.arange(len(names))[::-1]
     left, right = -12.0, 1.5
@@ -163,15 +92,29 @@ def plot_evidence(result, path: Path) -> Path:
     ax.set_title("Evidence per model, relative to the best", fontsize=10)
     ax.legend(loc="lower left", fontsize=7, frameon=False)
     fig.tight_layout()
-    with atomic_write(path) as tmp:
-        fig.savefig(tmp, dpi=130)
-    return Path(path)
+    return save_figure(fig, path, formats=formats)
 
 
-def write_fit_figures(result, folder: Path) -> tuple[Path, ...]:
-    """Write the colour, corner and evidence figures of a fit into ``folder``; return the paths."""
+def write_fit_figures(result, folder: Path, formats=None, curves=None, truth=None) -> tuple[Path, ...]:
+    """Write the colour, corner and evidence figures of a fit into ``folder``; return the paths.
+
+    Parameters
+    ----------
+    result : FitResult
+    folder : path-like
+    formats : sequence of str, optional
+        Each figure in each format (default PNG), see :func:`motes.report.save_figure`.
+    curves : dict of str to ModelCurve, optional
+        Monochromatic model curves for the colour figure.
+    truth : dict, optional
+        Invented truth (demo) drawn on the corner figure.
+    """
     folder = Path(folder)
-    files = [plot_colours(result, folder / "colours.png"),
-             plot_corner(result.best, folder / f"corner_{result.best.folder.name if result.best.folder else 'best'}.png"),
-             plot_evidence(result, folder / "evidence.png")]
+    corner = folder / f"corner_{result.best.folder.name if result.best.folder else 'best'}.png"
+    plot_colours(result, folder / "colours.png", formats=formats, curves=curves)
+    plot_corner(result.best, corner, formats=formats, truth=truth)
+    plot_evidence(result, folder / "evidence.png", formats=formats)
+    files = []
+    for p in (folder / "colours.png", corner, folder / "evidence.png"):
+        files += figure_paths(p, formats)
     return tuple(files)

@@ -3,7 +3,7 @@
 :func:`format_fit_report` renders a :class:`motes.dust.fit.results.FitResult`;
 :func:`write_fit_report` writes a run's report files into its run folder (the
 figures of :mod:`motes.report.fit_figures`, then ``summary.txt``, which lists
-every file of the run).
+every file of the run and what to cite, and the report page ``report.html``).
 """
 
 from __future__ import annotations
@@ -30,12 +30,19 @@ def _fmt(x, digits=3):
     return f"{x:.{digits}g}" if ax < 1 else f"{x:.{max(digits - int(math.log10(ax)) - 1, 0) + 1}f}"
 
 
-def format_fit_report(result: FitResult) -> str:
-    """The text summary printed by ``motes fit`` and written to ``summary.txt``."""
+def format_fit_report(result: FitResult, references=None) -> str:
+    """The text summary printed by ``motes fit`` and written to ``summary.txt``.
+
+    ``references`` (what to cite) default to
+    :func:`motes.report.run_citations.fit_citations` of ``result``; ``()`` leaves them out.
+    """
     obs = result.observations
     lines = [f"motes fit of {result.source}",
              f"data: {len(obs.bands)} bands ({obs.n_detections} detections), {obs.normalisation} "
-             f"from {obs.path}", ""]
+             f"from {obs.path}"
+             + (f"; {int(obs.is_polarised.sum())} of the rows in polarised intensity "
+                f"({', '.join(b for b, p in zip(obs.band_names, obs.is_polarised) if p)}), one flux scale with "
+                "the total-intensity rows" if getattr(obs, "has_polarised", False) else ""), ""]
     lines.append("Models ranked by evidence (ln B = ln Z - ln Z(best), and vs the full set):")
     lines.append(f"  {'rank':>4}  {'model':<40} {'ln Z':>9} {'±':>5}  {'ln B best':>9}  {'reading':<13}"
                  f" {'ln B full':>9}  {'P(model)':>8}")
@@ -66,13 +73,22 @@ def format_fit_report(result: FitResult) -> str:
     lines += ["", "Caveats:"] + [f"  - {c}" for c in result.caveats]
     if result.notes:
         lines += ["", "Notes:"] + [f"  - {n}" for n in result.notes]
+    if references is None:
+        from .run_citations import fit_citations
+
+        references = fit_citations(result)
+    if references:
+        from ..citations import format_references
+
+        lines += [""] + format_references(references)
     if result.files:
         lines += ["", "Files written:"] + [f"  {p}" for p in result.files]
     return "\n".join(lines)
 
 
-def write_fit_report(result: FitResult, folder=None, figures: bool = True) -> FitResult:
-    """Write a fit's report files: the figures (optional), then ``summary.txt``.
+def write_fit_report(result: FitResult, folder=None, figures: bool = True, page: bool = True,
+                     formats=None, curves=None, truth=None) -> FitResult:
+    """Write a fit's report files: the figures (optional), ``summary.txt`` and ``report.html``.
 
     Parameters
     ----------
@@ -82,13 +98,24 @@ def write_fit_report(result: FitResult, folder=None, figures: bool = True) -> Fi
         Where the files go; default the run folder, ``result.run_dir``.
     figures : bool
         Write the colour, corner and evidence figures.
+    formats : sequence of str, optional
+        Figure formats (default PNG), see :func:`motes.report.save_figure`.
+    curves : dict, optional
+        Monochromatic model curves for the colour figure
+        (:func:`motes.dust.fit.curves.posterior_curves`).
+    truth : dict, optional
+        Invented truth (demo), drawn on the corner figure.
+    page : bool
+        Write the self-contained report page ``report.html``
+        (:func:`motes.report.html_page.write_fit_page`): the summary text,
+        tables, figures, verdicts, what to cite and versions.
 
     Returns
     -------
     FitResult
         ``result`` with ``files`` listing the run's tables, ``summary.txt``,
-        the figures and the per-model folders (the list ``summary.txt`` ends
-        with).
+        the figures, ``report.html`` and the per-model folders (the list
+        ``summary.txt`` ends with).
     """
     folder = Path(folder) if folder is not None else Path(result.run_dir)
     model_folders = [m.folder for m in result.models]
@@ -97,8 +124,18 @@ def write_fit_report(result: FitResult, folder=None, figures: bool = True) -> Fi
     if figures:
         from .fit_figures import write_fit_figures
 
-        files += list(write_fit_figures(result, folder))
+        files += list(write_fit_figures(result, folder, formats=formats, curves=curves, truth=truth))
+    if page:
+        files.append(folder / "report.html")
     files += model_folders
     result = dataclasses.replace(result, files=tuple(files))
-    write_text_atomic(summary, format_fit_report(result) + "\n")
+    from .run_citations import fit_citations
+
+    references = fit_citations(result)
+    text = format_fit_report(result, references)
+    write_text_atomic(summary, text + "\n")
+    if page:
+        from .html_page import write_fit_page
+
+        write_fit_page(result, text, references, folder)
     return result

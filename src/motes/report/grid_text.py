@@ -1,4 +1,4 @@
-"""Grid summaries as text: one plain-language line per material.
+"""Grid summaries as text: what ``motes grid summarize`` prints, one plain-language line per material.
 
 The numbers are those of :class:`motes.dust.grid.summary.GridSummary` (the
 chi-square profile of each material's fraction); this module only words them.
@@ -10,7 +10,34 @@ import numpy as np
 
 from ..dust.grid.summary import ABSENCE_DELTA_CHI2, GridSummary
 
-__all__ = ["format_grid_verdicts"]
+__all__ = ["format_grid_verdicts", "format_grid_summary"]
+
+
+def format_grid_summary(summary: GridSummary, top: int = 10) -> list[str]:
+    """The lines ``motes grid summarize`` prints: counts, best mixtures, one line per material, notes.
+
+    Parameters
+    ----------
+    summary : GridSummary
+    top : int
+        Best mixtures listed (at most those the summary kept).
+
+    Returns
+    -------
+    list of str
+    """
+    lines = [f"store {summary.store}: {summary.n_rows:,} of {summary.n_points:,} points; "
+             f"chi2_min = {summary.chi2_min:.3f} for {summary.dof} degrees of freedom",
+             "best mixtures:"]
+    best = summary.best
+    for row in best[:min(len(best), top)]:
+        mix = ", ".join(f"{m} {row['f_' + m]:.3g}" for m in summary.materials)
+        lines.append(f"  #{row['rank']:<3d} Δχ² = {row['delta_chi2']:7.3f}  {mix}; porosity {row['porosity']:.3g}, "
+                     f"a_min {row['a_min']:.3g} µm, q {row['q']:.3g}, a_max {row['a_max']:.4g} µm")
+    lines.append("materials (chi-square profile over everything else):")
+    lines += [f"  {line}" for line in format_grid_verdicts(summary)]
+    lines += [f"note: {note}" for note in summary.notes]
+    return lines
 
 
 def format_grid_verdicts(summary: GridSummary) -> list[str]:

@@ -17,12 +17,14 @@ from matplotlib.figure import Figure
 import numpy as np
 
 from ..files import atomic_write
+from .figure_style import SERIES_COLOURS, house_style
 
 __all__ = ["plot_optical_constants"]
 
-_COLOURS = ("#1b6a8f", "#c0392b", "#2e8b57", "#8e44ad", "#d08c2f", "#34495e", "#b03a74")
+_COLOURS = SERIES_COLOURS + ("0.3",)
 
 
+@house_style
 def plot_optical_constants(materials, path, *, wavelength_range=None, title=None) -> Path:
     """Plot n and k of one or several materials.
 

@@ -15,6 +15,7 @@ import numpy as np
 
 from ..companion.motion import MotionTest, background_track
 from .figure_files import save_figure
+from .figure_style import house_style
 
 __all__ = ["plot_motion", "motion_figure_name"]
 
@@ -55,7 +56,8 @@ def _zoom(ax, astro, track) -> None:
     inset.set_title("measured, zoomed [mas]", fontsize=7)
 
 
-def plot_motion(result: MotionTest, path, title: str | None = None) -> Path:
+@house_style
+def plot_motion(result: MotionTest, path, title: str | None = None, formats=None) -> Path:
     """Draw the common-proper-motion figure of ``result`` into the PNG ``path``.
 
     Parameters
@@ -63,6 +65,8 @@ def plot_motion(result: MotionTest, path, title: str | None = None) -> Path:
     result : MotionTest
     path : str or Path
     title : str, optional
+    formats : sequence of str, optional
+        ``("png", "pdf")`` and so on; default the suffix of ``path``.
 
     Returns
     -------
@@ -117,4 +121,4 @@ def plot_motion(result: MotionTest, path, title: str | None = None) -> Path:
     verdict = f"{result.verdict}: ln B = {result.ln_bayes_factor:.1f}, host motion {result.motion_sigma:.1f}σ"
     ax.set_title((title + "\n" if title else "") + verdict, fontsize=10)
     fig.tight_layout()
-    return save_figure(fig, path)
+    return save_figure(fig, path, formats=formats)

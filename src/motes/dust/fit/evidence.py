@@ -268,9 +268,11 @@ def summarise_posterior(samples, names):
     Returns
     -------
     astropy.table.Table
-        Columns parameter, median, lo68, hi68, lo95, hi95, upper95 (the 95th
-        percentile: the one-sided 95% upper limit, used for fractions of
-        unfavoured materials).
+        Columns parameter, unit (:func:`parameter_unit`: ``"um"`` for grain
+        sizes, ``"deg"`` for the angle, empty for pure numbers), median, lo68,
+        hi68, lo95, hi95, upper95 (the 95th percentile: the one-sided 95% upper
+        limit, used for fractions of unfavoured materials), every number in
+        that row's unit.
     """
     from astropy.table import Table
 
@@ -278,6 +280,7 @@ def summarise_posterior(samples, names):
     q = np.percentile(samples, [50, 16, 84, 2.5, 97.5, 95], axis=0)
     table = Table()
     table["parameter"] = list(names)
+    table["unit"] = [parameter_unit(n) for n in names]   # one unit per row: the rows are different quantities
     for i, col in enumerate(("median", "lo68", "hi68", "lo95", "hi95", "upper95")):
         table[col] = q[i]
     return table

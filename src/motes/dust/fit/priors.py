@@ -36,11 +36,14 @@ __all__ = [
     "ParameterSpace",
     "dirichlet_from_cube",
     "PRIOR_KINDS",
+    "PRIOR_KEYS",
     "parse_prior",
 ]
 
 #: Accepted prior kinds.
 PRIOR_KINDS = ("uniform", "log-uniform", "fixed")
+#: Keys of a prior table, e.g. ``porosity = { prior = "uniform", lower = 0.0, upper = 0.8 }``.
+PRIOR_KEYS = ("prior", "lower", "upper", "value", "relative_to")
 
 
 def dirichlet_from_cube(u) -> np.ndarray:
@@ -149,7 +152,7 @@ def parse_prior(entry, name: str, path=None, allow_relative: bool = False) -> Pr
         entry = {"prior": "fixed", "value": float(entry)}
     if not isinstance(entry, dict):
         raise InputError(f"expected a number or a table {{prior, lower, upper}}, got {entry!r}", path, where)
-    check_keys(entry, ("prior", "lower", "upper", "value", "relative_to"), path=path, where=where)
+    check_keys(entry, PRIOR_KEYS, path=path, where=where)
     kind = str(entry.get("prior", "fixed" if "value" in entry else "uniform")).strip().lower()
     kind = {"loguniform": "log-uniform", "log_uniform": "log-uniform"}.get(kind, kind)
     relative = entry.get("relative_to")
@@ -255,7 +258,8 @@ class ParameterSpace:
         else:
             rows.append(("fractions", f"{self.materials[0]} only (fraction 1)"))
         for n in PRIOR_PARAMETERS:
-            rows.append((n, getattr(self, n).describe()))
+            prior, unit = getattr(self, n), PARAMETERS[n].unit_text
+            rows.append((n, prior.describe() + (f" {unit}" if unit and prior.relative_to is None else "")))
         rows.append(("scale", f"log-uniform [{self.scale.lower:g}, {self.scale.upper:g}], "
                      + ("sampled" if self.sample_scale else "marginalised numerically")))
         return rows

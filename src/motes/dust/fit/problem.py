@@ -20,7 +20,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ...errors import FitError, MotesError, quoted_names
+from ...errors import FitError, InputError, MotesError, quoted_names
 from ...parameters import MIXTURE_PARAMETERS
 from .spec import FitSpec, ModelSpec
 from ..likelihood import chi_square_with_best_scale, effective_errors, ln_likelihood
@@ -44,11 +44,19 @@ ZERO_LIKELIHOOD = -1e300
 
 
 def read_fit_photometry(spec: FitSpec) -> DiskPhotometry:
-    """Read the disk photometry of a fit, with the description's user bands."""
-    return read_disk_photometry(spec.photometry_path, custom_bands=spec.description.custom_bands or None)
+    """Read the disk photometry of a fit, with the description's user bands.
+
+    Problems name the file as the description gave it (not its absolute path).
+    """
+    try:
+        return read_disk_photometry(spec.photometry_path, custom_bands=spec.description.custom_bands or None)
+    except InputError as exc:
+        if exc.path != str(spec.photometry_path):
+            raise
+        raise InputError(exc.reason, spec.photometry_shown, exc.where) from None
 
 
-def build_colour_model(spec: FitSpec, materials, bands):
+def build_colour_model(spec: FitSpec, materials, bands, intensities=None):
     """The disk-colour forward model for a subset of the candidate materials.
 
     Parameters
@@ -58,6 +66,9 @@ def build_colour_model(spec: FitSpec, materials, bands):
         Names from the description's ``[[materials]]``, in order.
     bands : tuple of Band
         The photometry's bands, in order.
+    intensities : tuple of str, optional
+        ``"total"``/``"polarised"`` per band (the photometry's ``intensity``);
+        passed only when the data have polarised rows.
 
     Returns
     -------
@@ -65,7 +76,7 @@ def build_colour_model(spec: FitSpec, materials, bands):
         Built from the description with only these materials
         (:meth:`motes.dust.model.description.ModelDescription.subset`).
     """
-    return spec.description.subset(materials).build_model(bands=bands)
+    return spec.description.subset(materials).build_model(bands=bands, intensities=intensities)
 
 
 def _blowout_function(spec: FitSpec, colour_model):
@@ -127,6 +138,11 @@ class FitProblem:
         if space.angle.free and self._angle_keyword is None:
             raise FitError("a free scattering angle needs a forward model whose flux_ratio takes an angle; "
                            "this one does not: fix angle in [parameters]")
+        if obs.has_polarised and tuple(getattr(colour_model, "intensities", ())) != tuple(obs.intensity):
+            raise FitError(f"{obs.path or 'the photometry'}: the data have polarised-intensity rows "
+                           f"({', '.join(b for b, p in zip(obs.band_names, obs.is_polarised) if p)}), but the "
+                           "forward model has no polarised columns for them")
+        self._polarised = obs.is_polarised      # polarised model values may be negative
 
     # ------------------------------------------------------------ forward
     def model_ratios(self, theta) -> np.ndarray:
@@ -146,7 +162,7 @@ class FitProblem:
             flux = self.model_ratios(theta)
         except MotesError:
             return np.full(theta.shape[0], ZERO_LIKELIHOOD)
-        bad = ~np.all(np.isfinite(flux) & (flux >= 0), axis=-1)
+        bad = ~np.all(np.isfinite(flux) & ((flux >= 0) | self._polarised), axis=-1)
         flux = np.where(bad[:, None], 1.0, flux)
         if self.space.sample_scale:
             out = ln_likelihood(p["scale"][:, None] * flux, self.obs, p["systematic"])
@@ -224,7 +240,13 @@ class ProblemHandle:
         if problem is None:
             obs = read_fit_photometry(self.spec)
             factory = self.model_factory or build_colour_model
-            colour_model = factory(self.spec, self.model.materials, obs.bands)
+            if obs.has_polarised:
+                if "intensities" not in inspect.signature(factory).parameters:
+                    raise FitError(f"{obs.path}: the data have polarised-intensity rows, but the model factory "
+                                   "takes no intensities (it models total intensity only)")
+                colour_model = factory(self.spec, self.model.materials, obs.bands, intensities=obs.intensity)
+            else:
+                colour_model = factory(self.spec, self.model.materials, obs.bands)
             blowout = None
             a_min = self.spec.parameters.get("a_min")
             if a_min is not None and a_min.relative_to == "blowout":
@@ -253,8 +275,13 @@ class ProblemHandle:
         self._trace()
         return float(self.build().ln_likelihood(np.asarray(v)[None, :])[0])
 
+    def log_likelihood_batch(self, theta) -> np.ndarray:
+        """ln L of parameter vectors theta[N, ndim] in one vectorised call, ndarray[N]."""
+        self._trace()
+        return np.asarray(self.build().ln_likelihood(np.atleast_2d(np.asarray(theta, dtype=float))), dtype=float)
+
     def prior_transform(self, u) -> np.ndarray:
-        """dynesty prior transform of one unit-cube point."""
+        """dynesty prior transform of one unit-cube point (or of points u[N, ndim])."""
         return self.build().space.transform(np.asarray(u, dtype=float))
 
     def __getstate__(self):
@@ -274,6 +301,10 @@ class HandleLikelihood:
     def __call__(self, v):
         return self.handle.log_likelihood(v)
 
+    def batch(self, theta) -> np.ndarray:
+        """ln L of theta[N, ndim] at once (used by :class:`motes.dust.fit.batch.BatchPool`)."""
+        return self.handle.log_likelihood_batch(theta)
+
 
 class HandlePriorTransform:
     """Picklable ``prior_transform(u)`` bound to a :class:`ProblemHandle`."""
@@ -283,3 +314,7 @@ class HandlePriorTransform:
 
     def __call__(self, u):
         return self.handle.prior_transform(u)
+
+    def batch(self, u) -> np.ndarray:
+        """Transform of unit-cube points u[N, ndim] at once."""
+        return self.handle.prior_transform(np.atleast_2d(u))

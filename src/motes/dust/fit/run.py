@@ -80,6 +80,14 @@ class FitRunSettings:
 
 
 # ------------------------------------------------------------ validation
+def _without_context(text: str, spec: FitSpec, model) -> str:
+    """``text`` less a leading "FILE: " and "model 'NAME': ", which the caller adds once."""
+    prefixes = (f"{spec.source}: ", f"model '{model.name}': ")
+    while text.startswith(prefixes):
+        text = text.removeprefix(prefixes[0]) if text.startswith(prefixes[0]) else text.removeprefix(prefixes[1])
+    return text
+
+
 def prepare_fit(spec: FitSpec, model_factory=None):
     """Check a fit before running it; return the data and one handle per model.
 
@@ -109,7 +117,7 @@ def prepare_fit(spec: FitSpec, model_factory=None):
             if prepare is not None:
                 prepare()          # build or load the fast path's tables once, before any worker starts
         except MotesError as exc:
-            raise FitError(f"{spec.source}: model '{model.name}': {exc}") from None
+            raise FitError(f"{spec.source}: model '{model.name}': {_without_context(str(exc), spec, model)}") from None
         need = problem.space.n_effective
         if obs.n_detections < need:
             raise FitError(
@@ -207,7 +215,6 @@ def _postprocess(handle: ProblemHandle, run, spec: FitSpec, obs, folder: Path, s
     dof = obs.n_detections - space.n_effective
 
     summary = summarise_posterior(samples, sample_names)
-    summary["unit"] = [parameter_unit(n) for n in sample_names]   # a_min, a_max in um, angle in deg
     pick = rng.choice(samples.shape[0], size=min(_N_PREDICTIVE, samples.shape[0]), replace=False)
     pred = problem.model_ratios(eq[pick]) * scale[pick][:, None]
     best_theta = run.samples[top][i][None, :]
@@ -217,6 +224,8 @@ def _postprocess(handle: ProblemHandle, run, spec: FitSpec, obs, folder: Path, s
     for name, row in zip(("model_median", "model_lo68", "model_hi68", "model_lo95", "model_hi95"), q):
         colours[name] = row
     colours["model_best"] = best_model
+    for name in ("model_median", "model_lo68", "model_hi68", "model_lo95", "model_hi95", "model_best"):
+        colours[name].unit = colours["value"].unit      # the data's: none for flux ratios, 1/arcsec2 for SB
     colours.meta["model"] = handle.model.name
 
     result = ModelResult(

@@ -11,12 +11,24 @@ renames it); :func:`run_nested_model` resumes with
 The sampler state file is dynesty's own (a pickle, readable only by the same
 dynesty version); motes' *results* are written in open formats elsewhere.
 
-Workers: the sampler always calls the likelihood through dynesty's
-``dynesty.pool`` function cache (set in the driver process too), so a
-checkpoint holds no reference to a particular pool and resumes with any number
-of workers; with ``workers > 1`` a ``dynesty.pool.Pool`` of that many
-processes (spawned, each building the forward model once from the fit
-description) evaluates proposals in parallel, ``queue_size = workers``.
+Workers and batches: the sampler always calls the likelihood through
+dynesty's ``dynesty.pool`` function cache (set in the driver process too), so
+a checkpoint holds no reference to a particular pool and resumes with any
+number of workers. The pool is a :class:`motes.dust.fit.batch.BatchPool`: its
+``map`` steps a queue of proposals in lockstep and evaluates each step's
+points in one vectorised likelihood call (in this process with one worker;
+with ``workers > 1`` each of that many processes (forked on Linux, inheriting
+the driver's forward model; spawned elsewhere, building it once from the fit
+description) steps a contiguous part of the
+queue). The queue holds ``min(32, nlive / (4 workers))`` walks per worker
+(:func:`motes.dust.fit.batch.queue_size`); a likelihood without a ``batch``
+method gets one point per worker, as dynesty's own pool would.
+
+Checkpoints are written every ``checkpoint_every`` seconds *and* every
+``checkpoint_iterations`` iterations, whichever comes first, so that a model
+of a few seconds can also resume mid-run; a checkpoint by iterations waits at
+least ``CHECKPOINT_COST_FACTOR`` (50) times as long as the previous one took to
+write, which keeps their cost below ~2% of the run.
 """
 
 from __future__ import annotations
@@ -59,6 +71,9 @@ class NestedRun:
         True when this session continued from a checkpoint.
     wall_time : float [s]
         Wall time of this session.
+    checkpoints : int
+        Checkpoints written by progress (every ``checkpoint_iterations``) in
+        this session; dynesty's timed ones and the final one come on top.
     """
 
     ln_z: float
@@ -71,6 +86,7 @@ class NestedRun:
     information: float
     resumed: bool
     wall_time: float
+    checkpoints: int = 0
 
     def equal_weight_samples(self, n: int, rng: np.random.Generator) -> np.ndarray:
         """Resample to at most ``n`` equally weighted posterior samples, ndarray[n', ndim]."""
@@ -86,22 +102,24 @@ class NestedRun:
 
 @contextlib.contextmanager
 def open_pool(workers: int, loglike, prior_transform):
-    """Context manager: a dynesty process pool, or ``None`` for one worker.
+    """Context manager: a :class:`~motes.dust.fit.batch.BatchPool` of ``workers`` processes.
 
+    With one worker everything runs in this process; the pool's ``map``
+    still evaluates a whole queue of proposals in vectorised batches when
+    ``loglike`` has a ``batch`` method (:class:`~motes.dust.fit.problem.HandleLikelihood`).
     The driver process always gets dynesty's function cache set to
     ``loglike``/``prior_transform``, so samplers built on
-    ``dynesty.pool.loglike_cache``/``prior_transform_cache`` work with and
-    without a pool, and so do their checkpoints.
+    ``dynesty.pool.loglike_cache``/``prior_transform_cache`` work with any
+    pool, and so do their checkpoints.
     """
     from dynesty import pool as dpool
+
+    from .batch import BatchPool
 
     if workers < 1:
         raise FitError(f"workers must be >= 1, got {workers}")
     dpool.initializer(loglike, prior_transform, (), {}, (), {})
-    if workers == 1:
-        yield None
-        return
-    with dpool.Pool(workers, loglike, prior_transform) as pool:
+    with BatchPool(workers, loglike, prior_transform, size=workers) as pool:
         yield pool
 
 
@@ -138,6 +156,53 @@ class _Progress:
             self.bar.close()
 
 
+#: A checkpoint by progress waits at least this many times as long as the previous one took to write:
+#: checkpoints then cost at most ~2% of the wall time, however large the sampler state grows.
+CHECKPOINT_COST_FACTOR = 50.0
+
+
+class _Checkpointer:
+    """dynesty ``print_func``: the progress line, plus a checkpoint every ``every`` iterations.
+
+    dynesty's own checkpoints come by time (``checkpoint_every``); this adds
+    checkpoints by progress, at the same points of the loop where dynesty
+    saves (never while the final live points are being added), spaced by at
+    least CHECKPOINT_COST_FACTOR times the last one's writing time.
+    """
+
+    def __init__(self, progress: _Progress, every: int, path: Path):
+        self.progress = progress
+        self.every = int(every)
+        self.path = str(path)
+        self.sampler = None
+        self.last = None
+        self.written = 0
+        self.cost = 0.0
+        self.saved_at = -math.inf
+
+    def __call__(self, result, niter, ncall, add_live_it=None, **kwargs):
+        self.progress(result, niter, ncall, add_live_it=add_live_it, **kwargs)
+        if self.sampler is None or add_live_it is not None:
+            return
+        it = int(getattr(self.sampler, "it", 0))
+        if self.last is None:
+            self.last = it
+        if it - self.last < self.every or time.perf_counter() - self.saved_at < CHECKPOINT_COST_FACTOR * self.cost:
+            return
+        state = getattr(self.sampler, "internal_state", None)
+        if state is not None:
+            from dynesty.dynamicsampler import DynamicSamplerStatesEnum as S
+
+            if state in (S.INBASEADDLIVE, S.INBATCHADDLIVE, S.BATCH_DONE):
+                return
+        start = time.perf_counter()
+        self.sampler.save(self.path)
+        self.saved_at = time.perf_counter()
+        self.cost = self.saved_at - start
+        self.last = it
+        self.written += 1
+
+
 def run_nested_model(ndim: int, settings: SamplerSettings, checkpoint: Path, *, pool=None,
                      workers: int = 1, seed_key: int = 0, resume: bool = True,
                      progress: bool = True, label: str = "") -> NestedRun:
@@ -169,10 +234,14 @@ def run_nested_model(ndim: int, settings: SamplerSettings, checkpoint: Path, *, 
     import dynesty
     from dynesty import pool as dpool
 
+    from .batch import queue_size as _queue_size
+
     start = time.perf_counter()
     checkpoint = Path(checkpoint)
     sampler_cls = dynesty.DynamicNestedSampler if settings.kind == "dynamic" else dynesty.NestedSampler
     resumed = bool(resume and checkpoint.exists())
+    nlive = settings.nlive if settings.kind != "dynamic" else min(settings.nlive, settings.nlive_batch)
+    queue = 1 if pool is None else _queue_size(workers, nlive, bool(getattr(pool, "batched", False)))
     if resumed:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -181,11 +250,11 @@ def run_nested_model(ndim: int, settings: SamplerSettings, checkpoint: Path, *, 
         samplers = [sampler] + [s for s in (getattr(sampler, "sampler", None),
                                             getattr(sampler, "batch_sampler", None)) if s is not None]
         for s in samplers:
-            s.queue_size = workers if pool is not None else 1
+            s.queue_size = queue
     else:
         rng = np.random.default_rng([int(settings.seed), int(seed_key)])
         kwargs = dict(bound=settings.bound, sample=settings.sample, rstate=rng,
-                      pool=pool, queue_size=workers if pool is not None else None)
+                      pool=pool, queue_size=queue if pool is not None else None)
         if settings.kind == "dynamic":
             sampler = sampler_cls(dpool.loglike_cache, dpool.prior_transform_cache, ndim, **kwargs)
         else:
@@ -194,19 +263,21 @@ def run_nested_model(ndim: int, settings: SamplerSettings, checkpoint: Path, *, 
     checkpoint.parent.mkdir(parents=True, exist_ok=True)
     initial = int(getattr(sampler, "it", 1)) - 1 if resumed else 0
     bar = _Progress(label, progress, initial=max(initial, 0))
+    saver = _Checkpointer(bar, settings.checkpoint_iterations, checkpoint)
+    saver.sampler = sampler
     try:
         if settings.kind == "dynamic":
             sampler.run_nested(nlive_init=settings.nlive, dlogz_init=settings.dlogz,
                                nlive_batch=settings.nlive_batch, maxbatch=settings.maxbatch,
                                wt_kwargs={"pfrac": settings.pfrac}, maxcall=settings.maxcall,
-                               print_progress=progress, print_func=bar,
+                               print_progress=True, print_func=saver,
                                checkpoint_file=str(checkpoint),
                                checkpoint_every=settings.checkpoint_every, resume=resumed)
         else:
             with warnings.catch_warnings():
                 warnings.filterwarnings("ignore", message="You are resuming a finished static run")
                 sampler.run_nested(dlogz=settings.dlogz, maxcall=settings.maxcall,
-                                   print_progress=progress, print_func=bar,
+                                   print_progress=True, print_func=saver,
                                    checkpoint_file=str(checkpoint),
                                    checkpoint_every=settings.checkpoint_every, resume=resumed)
     finally:
@@ -226,4 +297,5 @@ def run_nested_model(ndim: int, settings: SamplerSettings, checkpoint: Path, *, 
         information=float(res["information"][-1]),
         resumed=resumed,
         wall_time=time.perf_counter() - start,
+        checkpoints=saver.written,
     )

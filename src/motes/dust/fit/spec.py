@@ -44,6 +44,7 @@ with grid descriptions and read by :mod:`motes.dust.model.description`; the fit 
     sample = "rwalk"
     seed = 1
     checkpoint_every = 30                   # [s]
+    checkpoint_iterations = 500             # or after this many iterations, whichever first
 
 Defaults (every key is optional except ``[data] photometry`` and the model
 sections) are those of :class:`SamplerSettings` and :class:`ParameterSpace`.
@@ -72,6 +73,7 @@ __all__ = [
     "ModelSpec",
     "FitSpec",
     "MODEL_SETS",
+    "FIT_KEYS",
     "read_fit_description",
     "parse_fit_description",
     "build_model_set",
@@ -106,6 +108,9 @@ class SamplerSettings:
         Seed of the samplers' random generators (one stream per model).
     checkpoint_every : float
         Seconds between checkpoints.
+    checkpoint_iterations : int
+        Iterations between checkpoints: a checkpoint is written after this
+        many iterations or ``checkpoint_every`` seconds, whichever comes first.
     n_posterior : int
         Equal-weight posterior samples written per model (at most).
     nlive_batch, maxbatch : int
@@ -122,18 +127,27 @@ class SamplerSettings:
     maxcall: int | None = None
     seed: int = 1
     checkpoint_every: float = 30.0
+    checkpoint_iterations: int = 500
     n_posterior: int = 4000
     nlive_batch: int = 100
     maxbatch: int = 4
     pfrac: float = 0.5
 
     def __post_init__(self):
+        for name in ("nlive", "seed", "n_posterior", "nlive_batch", "maxbatch", "maxcall"):
+            value = getattr(self, name)
+            if not (isinstance(value, int) and not isinstance(value, bool)) and not (name == "maxcall" and value is None):
+                raise FitError(f"{name} must be a whole number, got {value!r}")
+        for name in ("dlogz", "checkpoint_every", "pfrac"):
+            value = getattr(self, name)
+            if isinstance(value, bool) or not isinstance(value, (int, float)):
+                raise FitError(f"{name} must be a number, got {value!r}")
         if self.kind not in _SAMPLER_KINDS:
-            raise FitError(f"sampler kind must be one of {_SAMPLER_KINDS}, got {self.kind!r}")
+            raise FitError(f"kind must be one of {quoted_names(_SAMPLER_KINDS)}, got {self.kind!r}")
         if self.bound not in _BOUNDS:
-            raise FitError(f"sampler bound must be one of {_BOUNDS}, got {self.bound!r}")
+            raise FitError(f"bound must be one of {quoted_names(_BOUNDS)}, got {self.bound!r}")
         if self.sample not in _SAMPLES:
-            raise FitError(f"sampler sample must be one of {_SAMPLES}, got {self.sample!r}")
+            raise FitError(f"sample must be one of {quoted_names(_SAMPLES)}, got {self.sample!r}")
         for name in ("nlive", "n_posterior", "nlive_batch"):
             if int(getattr(self, name)) < 10:
                 raise FitError(f"sampler {name} must be >= 10, got {getattr(self, name)!r}")
@@ -141,6 +155,10 @@ class SamplerSettings:
             raise FitError(f"sampler dlogz must be > 0, got {self.dlogz!r}")
         if not self.checkpoint_every > 0:
             raise FitError(f"sampler checkpoint_every must be > 0 s, got {self.checkpoint_every!r}")
+        if isinstance(self.checkpoint_iterations, bool) or not isinstance(self.checkpoint_iterations, int) \
+                or self.checkpoint_iterations < 1:
+            raise FitError(f"sampler checkpoint_iterations must be a whole number >= 1, "
+                           f"got {self.checkpoint_iterations!r}")
         if not 0 <= self.pfrac <= 1:
             raise FitError(f"sampler pfrac must lie in [0, 1], got {self.pfrac!r}")
         if self.maxcall is not None and self.maxcall < 1:
@@ -271,6 +289,9 @@ class FitSpec:
         SHA-256 of the description text, the photometry file and every file
         the description names (materials, spectrum, filter curves); a run
         folder only resumes a run with the same digest.
+    photometry_given : str
+        The photometry file as written, joined to the description's folder as
+        the user gave it (for messages; ``photometry_path`` is absolute).
     """
 
     description: ModelDescription
@@ -287,6 +308,12 @@ class FitSpec:
     source: str = "<string>"
     text: str = field(default="", repr=False)
     digest: str = ""
+    photometry_given: str = ""
+
+    @property
+    def photometry_shown(self) -> str:
+        """The photometry file as the user named it (folder of the description + ``[data] photometry``)."""
+        return self.photometry_given or str(self.photometry_path)
 
     @property
     def full_model(self) -> ModelSpec | None:
@@ -303,6 +330,17 @@ class FitSpec:
                                   blowout=blowout, **self.parameters)
         except FitError as exc:
             raise FitError(f"{self.source}: model '{model.name}': {exc}") from None
+
+
+#: Keys each fit section accepts, by table (docs/descriptions.md lists them; a prior
+#: table's keys are :data:`motes.dust.fit.priors.PRIOR_KEYS`).
+FIT_KEYS = {
+    "data": ("photometry",),
+    "parameters": _PARAMETERS,
+    "scale": ("lower", "upper", "treatment"),
+    "models": ("set", "keep", "list"),
+    "sampler": tuple(SamplerSettings.__dataclass_fields__),
+}
 
 
 def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> FitSpec:
@@ -337,7 +375,7 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     data = get_table(doc, "data", path=path)
     if "photometry" not in data or not isinstance(data["photometry"], str):
         raise InputError("needs photometry = \"FILE\" (the disk photometry table)", path, "[data]")
-    check_keys(data, ("photometry",), path=path, where="[data]")
+    check_keys(data, FIT_KEYS["data"], path=path, where="[data]")
     photometry_path = (base_dir / data["photometry"]).resolve()
 
     mats = doc.get("materials")
@@ -352,7 +390,8 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         materials.append(m["name"])
     materials = tuple(materials)
 
-    params = check_keys(get_table(doc, "parameters", path=path), _PARAMETERS, path=path, where="[parameters]")
+    params = check_keys(get_table(doc, "parameters", path=path), FIT_KEYS["parameters"], path=path,
+                        where="[parameters]")
     parameters = {}
     for name in _PARAMETERS:
         if name in params:
@@ -367,8 +406,17 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
             if not PARAMETERS[name].contains(lo):
                 raise InputError(f"{name} must be > 0 {PARAMETERS[name].unit_text}, got {p.describe()}", path,
                                  f"[parameters] {name}")
+    for name in ("porosity", "q"):   # refused here, naming the field, rather than once per model
+        p, declared = parameters.get(name), PARAMETERS[name]
+        if p is not None and not declared.contains([p.value] if p.kind == "fixed" else [p.lower, p.upper]).all():
+            raise InputError(f"{name} must lie in {declared.interval} ({declared.meaning}), got {p.describe()}",
+                             path, f"[parameters] {name}")
+    a_min = parameters.get("a_min")
+    if a_min is not None and a_min.relative_to == "blowout" and not description.star.has_luminosity_and_mass:
+        raise InputError('relative_to = "blowout" needs the blow-out size, hence [star] luminosity and mass',
+                         path, "[parameters] a_min")
 
-    scale_t = check_keys(get_table(doc, "scale", path=path), ("lower", "upper", "treatment"), path=path,
+    scale_t = check_keys(get_table(doc, "scale", path=path), FIT_KEYS["scale"], path=path,
                          where="[scale]")
     treatment = str(scale_t.get("treatment", "marginalise")).lower()
     treatment = {"marginalize": "marginalise"}.get(treatment, treatment)
@@ -381,7 +429,7 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     except (TypeError, ValueError):
         raise InputError("lower and upper must be numbers", path, "[scale]") from None
 
-    models_t = check_keys(get_table(doc, "models", path=path), ("set", "keep", "list"), path=path, where="[models]")
+    models_t = check_keys(get_table(doc, "models", path=path), FIT_KEYS["models"], path=path, where="[models]")
     kind = str(models_t.get("set", "each-removed")).lower().replace("_", "-")
     keep = models_t.get("keep", [])
     if isinstance(keep, str):
@@ -401,7 +449,7 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     except FitError as exc:
         raise FitError(f"{path}: {exc}") from None
 
-    sampler_t = check_keys(get_table(doc, "sampler", path=path), tuple(SamplerSettings.__dataclass_fields__),
+    sampler_t = check_keys(get_table(doc, "sampler", path=path), FIT_KEYS["sampler"],
                            path=path, where="[sampler]")
     try:
         sampler = SamplerSettings(**sampler_t)
@@ -422,7 +470,7 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         description=description, base_dir=base_dir, materials=materials, photometry_path=photometry_path,
         parameters=parameters, scale=scale, sample_scale=(treatment == "sample"), model_set=kind,
         keep=tuple(keep), models=models, sampler=sampler, source=source, text=text,
-        digest=digest.hexdigest(),
+        digest=digest.hexdigest(), photometry_given=str(base_dir / data["photometry"]),
     )
 
 
@@ -449,6 +497,10 @@ def read_fit_description(path) -> FitSpec:
     path = Path(path)
     try:
         text = path.read_text()
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the fit description: {exc}", path) from None
+    except FileNotFoundError:
+        raise InputError("fit description not found", path) from None
+    except OSError as exc:
+        raise InputError(f"cannot read the fit description ({exc.strerror or exc})", path) from None
+    except UnicodeDecodeError:
+        raise InputError("cannot read the fit description: it is not UTF-8 text", path) from None
     return parse_fit_description(text, base_dir=path.parent, source=str(path))

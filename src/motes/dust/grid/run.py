@@ -149,7 +149,7 @@ class GridProbe:
 
 def store_manifest(spec: GridSpec, observations: DiskPhotometry) -> dict:
     """The manifest a store of this grid gets (see :class:`GridStore`)."""
-    bands = list(observations.band_names)
+    bands = list(observations.row_keys)     # "<band>_polarised" for polarised-intensity rows
     columns = (["key"] + [fraction_column(m) for m in spec.materials] + list(AXES)
                + [model_column(b) for b in bands] + ["scale", "chi2", "dof"])
     return {
@@ -172,6 +172,7 @@ def store_manifest(spec: GridSpec, observations: DiskPhotometry) -> dict:
             "is_limit": [bool(x) for x in observations.is_limit],
             "normalisation": observations.normalisation,
             "notes": list(observations.notes),
+            **({"intensity": list(observations.intensity)} if observations.has_polarised else {}),
         },
     }
 

@@ -66,6 +66,7 @@ __all__ = [
     "GridSpec",
     "GridPoints",
     "AXES",
+    "GRID_KEYS",
     "DEFAULT_MAX_POINTS",
     "read_grid_description",
     "parse_grid_description",
@@ -81,6 +82,13 @@ AXES = MIXTURE_PARAMETERS   # porosity, a_min, q, a_max (motes.parameters)
 _AXIS_DEFAULTS = {"q": (PARAMETERS["q"].default,)}   # q = 3.5 (Dohnanyi 1969); a_max defaults to [model] a_max
 _GRID_KEYS = ("fraction_step", "fraction_bounds", *AXES, "chunk_size")
 _GRID_TABLES = ("data", "grid")
+#: Keys each grid section accepts, by table (docs/descriptions.md lists them); ``axis range``
+#: is an axis written as a table, e.g. ``a_min = { start = 0.5, stop = 8.0, num = 5 }``.
+GRID_KEYS = {
+    "data": ("photometry",),
+    "grid": _GRID_KEYS,
+    "axis range": ("start", "stop", "num", "spacing"),
+}
 _MAX_CHUNK = 1000
 _MIN_CHUNK = 16
 
@@ -284,7 +292,7 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
     base_dir = Path(base_dir)
     materials = _material_names(doc, source)
     grid = get_table(doc, "grid", path=source, required=True, expected="fraction_step, porosity, a_min, ...")
-    check_keys(grid, _GRID_KEYS, path=source, where="[grid]")
+    check_keys(grid, GRID_KEYS["grid"], path=source, where="[grid]")
     divisions = _divisions(grid.get("fraction_step"), source)
     bounds = _bounds(grid.get("fraction_bounds", {}), materials, divisions, source)
     try:
@@ -419,7 +427,7 @@ def _axis(grid, name, source) -> tuple[float, ...]:
 
 
 def _axis_range(raw, source, where) -> list[float]:
-    check_keys(raw, ("start", "stop", "num", "spacing"), path=source, where=where, required=("start", "stop", "num"))
+    check_keys(raw, GRID_KEYS["axis range"], path=source, where=where, required=("start", "stop", "num"))
     start, stop, num = raw["start"], raw["stop"], raw["num"]
     spacing = raw.get("spacing", "linear")
     if not isinstance(num, int) or isinstance(num, bool) or num < 0 or spacing not in ("linear", "log"):
@@ -437,7 +445,7 @@ def _photometry_path(doc, base_dir, source) -> Path:
     if not isinstance(data, dict) or not isinstance(data.get("photometry"), str):
         raise InputError("missing [data] photometry = \"FILE\" (the disk photometry to compare against)",
                          path=source)
-    check_keys(data, ("photometry",), path=source, where="[data]")
+    check_keys(data, GRID_KEYS["data"], path=source, where="[data]")
     typed = Path(base_dir) / data["photometry"]
     if not typed.is_file():   # named as the user gave it, not as the resolved absolute path
         raise InputError(f"cannot read the photometry file {typed}", path=source, where="[data] photometry")

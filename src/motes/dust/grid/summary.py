@@ -32,6 +32,7 @@ from astropy.table import Table
 
 from ...errors import GridError
 from ...files import atomic_write
+from ...parameters import PARAMETERS
 from .spec import AXES
 from .store import GridStore, fraction_column, model_column
 
@@ -258,6 +259,8 @@ def _axis_table(axes, best, like, count, chi2_min) -> Table:
             rows["relative_likelihood"].append(like[name][i])
             rows["share"].append(like[name][i] / total if total > 0 else np.nan)
     table = Table(rows)
+    # one unit per row (the rows are different quantities): "um" for a_min, a_max, "" for pure numbers
+    table.add_column([PARAMETERS[str(a)].unit_text for a in table["axis"]], name="unit", index=2)
     table["value"].description = "porosity: vacuum fraction; a_min, a_max: um; q: size slope"
     return table
 

@@ -34,7 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ... import __version__
-from ...errors import GridError, MotesError
+from ...errors import GridError, InputError, MotesError
 from .spec import AXES, GridSpec
 from .store import GridStore, fraction_column, model_column
 from ..likelihood import chi_square_with_best_scale
@@ -74,7 +74,10 @@ def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
         function enumerates, the model's default set; any tile still missing
         is built when a point needs it.
     """
-    model = spec.description.build_model(bands=observations.bands)
+    if observations.has_polarised:
+        model = spec.description.build_model(bands=observations.bands, intensities=observations.intensity)
+    else:
+        model = spec.description.build_model(bands=observations.bands)
     mixtures = grid_mixtures(spec)
     if mixtures is None:
         model.prepare()
@@ -111,8 +114,18 @@ def grid_mixtures(spec: GridSpec, limit: int = GRID_MIXTURE_LIMIT):
 
 
 def read_grid_observations(spec: GridSpec) -> DiskPhotometry:
-    """The disk photometry a grid compares to (``[data] photometry``), with the description's user bands."""
-    return read_disk_photometry(spec.photometry, custom_bands=spec.description.custom_bands)
+    """The disk photometry a grid compares to (``[data] photometry``), with the description's user bands.
+
+    Problems name the file relative to the current folder when it lies below it
+    (as the user gave it), not by the absolute path the spec keeps.
+    """
+    try:
+        return read_disk_photometry(spec.photometry, custom_bands=spec.description.custom_bands)
+    except InputError as exc:
+        if exc.path != str(spec.photometry):
+            raise
+        shown = os.path.relpath(spec.photometry)
+        raise InputError(exc.reason, spec.photometry if shown.startswith("..") else shown, exc.where) from None
 
 
 class GridEvaluator:
@@ -135,6 +148,10 @@ class GridEvaluator:
         self.spec = spec
         self.observations = observations if observations is not None else read_grid_observations(spec)
         self.model = (model_factory or build_disk_model)(spec, self.observations)
+        obs = self.observations
+        if obs.has_polarised and tuple(getattr(self.model, "intensities", ())) != tuple(obs.intensity):
+            raise GridError(f"{obs.path or 'the photometry'}: the data have polarised-intensity rows, but the "
+                            "grid's forward model has no polarised columns for them")
 
     def evaluate(self, keys) -> dict[str, np.ndarray]:
         """Store columns for the given keys.
@@ -152,7 +169,7 @@ class GridEvaluator:
         pts = self.spec.points(keys)
         flux = np.asarray(self.model.flux_ratio(pts.fractions, pts.porosity, pts.a_min, pts.q,
                                                 a_max=pts.a_max), dtype=float)
-        bands = self.observations.band_names
+        bands = self.observations.row_keys      # band names; "<band>_polarised" for polarised rows
         if flux.shape != (len(pts), len(bands)):
             raise GridError(f"the model returned shape {flux.shape}, expected ({len(pts)}, {len(bands)})")
         scale, chi2, dof = chi_square_with_best_scale(flux, self.observations)

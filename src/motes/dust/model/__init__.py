@@ -10,7 +10,8 @@ Reads as the data flow of one model evaluation:
   and the interface of the fast one;
 - :mod:`~motes.dust.model.tables` and :mod:`~motes.dust.model.tablebuild` —
   the fast path's lookup tables, their build and cache;
-- :mod:`~motes.dust.model.mixture` — the optics of one mixture (``motes optics``).
+- :mod:`~motes.dust.model.mixture` — the optics of one mixture (``motes optics``);
+- :mod:`~motes.dust.model.thermal` — the same mixture's thermal emission.
 """
 
 from __future__ import annotations
@@ -28,6 +29,7 @@ from .geometry import PHASES, ScatteringGeometry
 from .mixture import MixtureOptics, MixtureParameters, compute_mixture_optics, read_mixture_file
 from .sampling import SizeSampling, size_parameter_rule, weighted_gauss_nodes
 from .tables import LookupTable, TableSpec, cache_directory, table_for_model
+from .thermal import ThermalResult, ThermalSettings, compute_thermal, read_thermal_settings
 
 __all__ = [
     "BandOptics",
@@ -45,11 +47,15 @@ __all__ = [
     "SizeSampling",
     "StarDescription",
     "TableSpec",
+    "ThermalResult",
+    "ThermalSettings",
     "cache_directory",
     "compute_mixture_optics",
+    "compute_thermal",
     "model_from_description",
     "parse_model_description",
     "read_mixture_file",
+    "read_thermal_settings",
     "read_model_description",
     "size_parameter_rule",
     "table_for_model",

@@ -34,6 +34,15 @@ distribution at that wavelength::
     R(lambda) = p_HG(theta; g_bar) integral n pi a^2 Q_sca da,
     g_bar = integral n a^2 Q_sca g da / integral n a^2 Q_sca da.
 
+Polarised intensity: with ``intensities`` naming an output column
+``"polarised"``, that column is the same integral with ``|S1|^2 - |S2|^2``
+(= -2 S12, Bohren & Huffman 1983 eq. 4.77) in place of ``|S1|^2 + |S2|^2``:
+signed, positive when the light is polarised perpendicular to the scattering
+plane. Total and polarised columns share the model's normalisation (one flux
+scale), so their ratio per band is the degree of polarisation -S12/S11 of the
+band-integrated light. Henyey-Greenstein carries no polarisation: a model with
+``phase="hg"`` and polarised columns is refused.
+
 Real grains are not Mie spheres: irregular and aggregate grains scatter
 differently (especially in the phase function). Every result carries that note.
 """
@@ -63,7 +72,15 @@ __all__ = [
     "FRACTIONS_NOTE",
     "METHODS",
     "PHASES",
+    "INTENSITIES",
 ]
+
+#: What an output column of the model holds: total or polarised intensity.
+INTENSITIES = ("total", "polarised")
+#: spellings accepted for the polarised kind (both trades' spellings)
+_POLARISED_SPELLINGS = {"polarised": "polarised", "polarized": "polarised", "total": "total"}
+HG_NO_POLARISATION = ("the Henyey-Greenstein phase function carries no polarisation, so it cannot model "
+                      "polarised intensity; use phase = 'mie' for polarised colours")
 
 METHODS = ("fast", "exact")
 MIE_SPHERES_NOTE = ("real grains are not Mie spheres: irregular, porous aggregates scatter with other "
@@ -97,6 +114,9 @@ class BandOptics:
     density : float [g cm^-3]
         Mixture density (nan if a component's density is unknown).
     notes : tuple of str
+    polarised_flux_ratio : ndarray[n_bands] [sr^-1] or None
+        Polarised-intensity disk/star ratio (signed; same normalisation as
+        ``flux_ratio``); None with the Henyey-Greenstein phase function.
     """
 
     bands: tuple[str, ...]
@@ -108,6 +128,14 @@ class BandOptics:
     pivot: np.ndarray
     density: float
     notes: tuple[str, ...]
+    polarised_flux_ratio: np.ndarray | None = None
+
+    @property
+    def degree_of_polarisation(self) -> np.ndarray | None:
+        """Per band ``-S12 / S11`` of the band-integrated light (polarised / total ratio)."""
+        if self.polarised_flux_ratio is None:
+            return None
+        return self.polarised_flux_ratio / self.flux_ratio
 
     def colours(self, reference: int = 0) -> np.ndarray:
         """Magnitudes relative to band ``reference``: -2.5 log10(R_b / R_ref)."""
@@ -159,6 +187,9 @@ class DiskColourModel:
         ``NODE_K_RATIO``).
     size_sampling : SizeSampling
         Size-parameter quadrature of the exact path.
+    intensities : sequence of {"total", "polarised"}, optional
+        What each output column holds (one per band; default all total). A
+        band may appear twice, once per kind.
 
     Notes
     -----
@@ -171,9 +202,10 @@ class DiskColourModel:
     def __init__(self, materials, bands, *, star_teff=None, star_spectrum=None,
                  mixing="bruggeman", matrix=None, geometry=ScatteringGeometry(),
                  method="fast", a_max=1000.0, wavelength_nodes: int = 8,
-                 size_sampling: SizeSampling = SizeSampling(), table_spec=None):
+                 size_sampling: SizeSampling = SizeSampling(), table_spec=None, intensities=None):
         self.materials = tuple(_as_material(m, i) for i, m in enumerate(materials))
         self.bands = tuple(_as_band(b, i) for i, b in enumerate(bands))
+        self.intensities = self._check_intensities(intensities, geometry)
         if not self.materials:
             raise InputError("a dust model needs at least one material", where="materials")
         if not self.bands:
@@ -204,6 +236,40 @@ class DiskColourModel:
         self._setup_nodes()
 
     # ------------------------------------------------------------ set-up
+    def _check_intensities(self, intensities, geometry) -> tuple[str, ...]:
+        n = len(self.bands)
+        if intensities is None:
+            return ("total",) * n
+        if isinstance(intensities, str):
+            intensities = (intensities,) * n
+        out = []
+        for i, item in enumerate(intensities):
+            kind = _POLARISED_SPELLINGS.get(str(item).strip().lower())
+            if kind is None:
+                raise InputError(f"intensities[{i}] must be 'total' or 'polarised', got {item!r}",
+                                 where="intensities")
+            out.append(kind)
+        if len(out) != n:
+            raise InputError(f"intensities must have one entry per band ({n}), got {len(out)}",
+                             where="intensities")
+        pairs = [(b.name, k) for b, k in zip(self.bands, out)]
+        if len(set(pairs)) != len(pairs):
+            dup = sorted({f"{b} ({k})" for b, k in pairs if pairs.count((b, k)) > 1})
+            raise InputError(f"band(s) {dup} listed twice with the same intensity", where="bands")
+        if "polarised" in out and isinstance(geometry, ScatteringGeometry) and geometry.phase != "mie":
+            raise InputError(HG_NO_POLARISATION, where="[geometry] phase")
+        return tuple(out)
+
+    @property
+    def has_polarised(self) -> bool:
+        """True when some output column is polarised intensity."""
+        return "polarised" in self.intensities
+
+    @property
+    def has_total(self) -> bool:
+        """True when some output column is total intensity."""
+        return "total" in self.intensities
+
     def _matrix_index(self, matrix):
         if matrix is None:
             return 0
@@ -271,6 +337,7 @@ class DiskColourModel:
         self.node_wavelength = np.concatenate(nodes)
         self.node_weight = np.concatenate(weights)
         self.node_band = np.concatenate(owner)
+        self._node_polarised = np.array([self.intensities[b] == "polarised" for b in self.node_band], dtype=bool)
         # band-average matrix [L, B]
         avg = np.zeros((self.node_wavelength.size, len(self.bands)))
         avg[np.arange(self.node_wavelength.size), self.node_band] = self.node_weight
@@ -400,14 +467,27 @@ class DiskColourModel:
         Returns
         -------
         ndarray[N, n_bands] [sr^-1]
-            Band-averaged cross-section-weighted ``Q_sca p(theta)``.
+            Band-averaged cross-section-weighted ``Q_sca p(theta)``; in a
+            polarised column (``intensities``) its polarised twin, signed.
         """
         f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
         m = self.effective_index(f, p)
-        if self.method == "fast":
-            node = self._fast_table().node_values(m, self.node_wavelength, a_min, q, a_max)
-        else:
-            node = self.node_values_exact(m, self.node_wavelength, a_min, q, a_max)
+        if not self.has_polarised:
+            if self.method == "fast":
+                node = self._fast_table().node_values(m, self.node_wavelength, a_min, q, a_max)
+            else:
+                node = self.node_values_exact(m, self.node_wavelength, a_min, q, a_max)
+            return node @ self._band_matrix
+        node = np.empty(m.shape)
+        for quantity, cols in (("total", ~self._node_polarised), ("polarised", self._node_polarised)):
+            if not cols.any():
+                continue
+            if self.method == "fast":
+                node[:, cols] = self._fast_table().node_values(m[:, cols], self.node_wavelength[cols],
+                                                                a_min, q, a_max, quantity=quantity)
+            else:
+                node[:, cols] = self.node_values_exact(m[:, cols], self.node_wavelength[cols], a_min, q, a_max,
+                                                       quantity=quantity)
         return node @ self._band_matrix
 
     def _fast_table(self):
@@ -433,7 +513,8 @@ class DiskColourModel:
         self._table = table_for_model(self, fractions=fractions, porosity=porosity)
 
     @accepts_quantities
-    def node_values_exact(self, m, wavelength, a_min, q, a_max, sampling: SizeSampling | None = None):
+    def node_values_exact(self, m, wavelength, a_min, q, a_max, sampling: SizeSampling | None = None,
+                          quantity: str = "total"):
         """Monochromatic flux ratio R(lambda) by direct Mie quadrature.
 
         Parameters
@@ -444,11 +525,19 @@ class DiskColourModel:
         a_min, q, a_max : ndarray[N]
         sampling : SizeSampling, optional
             Default: the model's ``size_sampling``.
+        quantity : {"total", "polarised"}
+            Total intensity, or polarised intensity (``|S1|^2 - |S2|^2``, signed;
+            Mie phase function only).
 
         Returns
         -------
         ndarray[N, L] [sr^-1]
         """
+        if quantity not in INTENSITIES:
+            raise InputError(f"quantity must be one of {quoted_names(INTENSITIES)}, got {quantity!r}",
+                             where="quantity")
+        if quantity == "polarised" and self.geometry.phase != "mie":
+            raise InputError(HG_NO_POLARISATION, where="[geometry] phase")
         sampling = sampling or self.size_sampling
         m = mie.check_index(np.atleast_2d(m))
         wavelength = np.asarray(wavelength, dtype=float)
@@ -467,7 +556,10 @@ class DiskColourModel:
                 mm.append(np.full(t.size, m[i, j]))
                 owner.append(np.full(t.size, j))
             t, w, mm, owner = (np.concatenate(v) for v in (ts, ws, mm, owner))
-            if self.geometry.phase == "mie":
+            if quantity == "polarised":
+                s = mie.polarised_scattered_intensity(mm, t, theta)
+                integral = np.bincount(owner, w * 0.5 * t ** (-q[i]) * s, minlength=n_lam)
+            elif self.geometry.phase == "mie":
                 s = mie.scattered_intensity(mm, t, theta)
                 integral = np.bincount(owner, w * 0.5 * t ** (-q[i]) * s, minlength=n_lam)
             else:
@@ -480,8 +572,11 @@ class DiskColourModel:
         return out
 
     @accepts_quantities
-    def monochromatic_flux_ratio(self, wavelength, fractions, porosity, a_min, q, a_max=None) -> np.ndarray:
+    def monochromatic_flux_ratio(self, wavelength, fractions, porosity, a_min, q, a_max=None,
+                                 quantity: str = "total") -> np.ndarray:
         """R(lambda) [sr^-1] at given wavelengths (no band average), exact path.
+
+        ``quantity="polarised"`` gives the polarised-intensity ratio (signed).
 
         Returns
         -------
@@ -490,10 +585,11 @@ class DiskColourModel:
         wavelength = np.atleast_1d(np.asarray(wavelength, dtype=float))
         f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
         m = self.effective_index(f, p, wavelength)
-        return self.node_values_exact(m, wavelength, a_min, q, a_max)
+        return self.node_values_exact(m, wavelength, a_min, q, a_max, quantity=quantity)
 
     @accepts_quantities
-    def band_optics(self, fractions, porosity, a_min, q, a_max=None, n_per_efold: int = 24) -> BandOptics:
+    def band_optics(self, fractions, porosity, a_min, q, a_max=None, n_per_efold: int = 24,
+                    polarised: bool = False) -> BandOptics:
         """Flux ratio, albedo, g and Q_ext per band for ONE mixture (exact path).
 
         Parameters
@@ -503,12 +599,22 @@ class DiskColourModel:
         n_per_efold : int
             Gauss-Legendre nodes per e-fold of a for the efficiency averages
             (Q_ext, Q_sca and g are smooth in a once averaged over a band).
+        polarised : bool
+            Also the polarised-intensity ratio of every band (Mie phase
+            function only; ``polarised_flux_ratio`` stays None with HG).
+
+        ``flux_ratio`` is the total intensity of every band, whatever the
+        model's ``intensities``.
         """
         f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
         if f.shape[0] != 1:
             raise InputError("band_optics takes one mixture (fractions of shape (K,))", where="fractions")
         ratio = (self.node_values_exact(self.effective_index(f, p), self.node_wavelength, a_min, q, a_max)
                  @ self._band_matrix)[0]
+        pol_ratio = None
+        if polarised and self.geometry.phase == "mie":
+            pol_ratio = (self.node_values_exact(self.effective_index(f, p), self.node_wavelength, a_min, q, a_max,
+                                                quantity="polarised") @ self._band_matrix)[0]
         from ...optics.sizes import PowerLaw
 
         a, w = PowerLaw(float(a_min[0]), float(a_max[0]), float(q[0])).quadrature(n_per_efold)
@@ -524,7 +630,8 @@ class DiskColourModel:
         m_piv = self.effective_index(f, p, pivots)[0]
         return BandOptics(bands=tuple(b.name for b in self.bands), flux_ratio=ratio, albedo=albedo, g=g,
                           q_ext=cext @ bm, m_pivot=m_piv, pivot=pivots,
-                          density=float(np.ravel(self.density(f, p))[0]), notes=self.notes)
+                          density=float(np.ravel(self.density(f, p))[0]), notes=self.notes,
+                          polarised_flux_ratio=pol_ratio)
 
     @accepts_quantities
     def radiation_pressure_efficiency(self, fractions, porosity, a, n_wavelengths: int = 64):
@@ -619,4 +726,6 @@ class DiskColourModel:
             f"geometry: scattering angles {', '.join(f'{a:g}' for a in self.geometry.angles_deg)} deg, "
             f"phase function {self.geometry.phase}",
             f"method: {self.method}; default a_max {self.a_max:g} um; Mie: {mie.solver_summary()}",
-        ])
+        ] + ([f"polarised intensity in band(s): "
+              f"{', '.join(b.name for b, k in zip(self.bands, self.intensities) if k == 'polarised')}"]
+             if self.has_polarised else []))

@@ -61,6 +61,7 @@ from .colours import METHODS, PHASES, DiskColourModel, ScatteringGeometry
 
 __all__ = [
     "MODEL_TABLES",
+    "MODEL_KEYS",
     "StarDescription",
     "ModelDescription",
     "parse_model_description",
@@ -78,6 +79,18 @@ _MODEL_KEYS = {"bands", "a_max", "method", "wavelength_nodes"}
 #: Top-level tables of a model description; the file of each command adds its own
 #: (``[mixture]``, ``[data]``, ``[grid]``, ...) and refuses any other.
 MODEL_TABLES = ("star", "materials", "mixing", "geometry", "model", "bands")
+
+_STAR_SPECTRUM_KEYS = ("file", "wavelength_unit", "flux")
+#: Keys each model section accepts, by table (docs/descriptions.md lists them; user
+#: bands ``[bands.NAME]`` are those of :data:`motes.photometry.targets.USER_BAND_KEYS`).
+MODEL_KEYS = {
+    "star": _STAR_KEYS,
+    "star.spectrum": _STAR_SPECTRUM_KEYS,
+    "materials": _MATERIAL_KEYS,
+    "mixing": _MIXING_KEYS,
+    "geometry": _GEOMETRY_KEYS,
+    "model": _MODEL_KEYS,
+}
 
 
 @accepts_quantities
@@ -170,7 +183,7 @@ class ModelDescription:
                              path=self.source, where="[mixing] matrix")
         return dataclasses.replace(self, materials=tuple(m for m in self.materials if m.name in wanted))
 
-    def build_model(self, bands=None, method: str | None = None) -> DiskColourModel:
+    def build_model(self, bands=None, method: str | None = None, intensities=None) -> DiskColourModel:
         """The :class:`DiskColourModel` described.
 
         Parameters
@@ -180,7 +193,14 @@ class ModelDescription:
             description's user bands first. Default: ``[model] bands``.
         method : {"fast", "exact"}, optional
             Overrides ``[model] method``.
+        intensities : sequence of {"total", "polarised"}, optional
+            What each band's column holds (e.g. the data's ``intensity``);
+            default all total.
         """
+        if intensities is not None and "polarised" in tuple(intensities) and self.geometry.phase != "mie":
+            raise InputError("the photometry has polarised-intensity rows, but the description's phase function "
+                             "is Henyey-Greenstein, which carries no polarisation; set [geometry] phase = 'mie' "
+                             "or leave the polarised rows out", path=self.source, where="[geometry] phase")
         if bands is None:
             bands = self.bands
         else:
@@ -193,7 +213,8 @@ class ModelDescription:
             return DiskColourModel(
                 self.materials, bands, star_teff=self.star.teff, star_spectrum=self.star.spectrum,
                 mixing=self.mixing, matrix=self.matrix, geometry=self.geometry,
-                method=method or self.method, a_max=self.a_max, wavelength_nodes=self.wavelength_nodes)
+                method=method or self.method, a_max=self.a_max, wavelength_nodes=self.wavelength_nodes,
+                intensities=intensities)
         except InputError as exc:
             if exc.path is not None:
                 raise
@@ -221,7 +242,7 @@ def _read_star(doc, source, base_dir) -> StarDescription:
         spec = star["spectrum"]
         if isinstance(spec, str):
             spec = {"file": spec}
-        check_keys(spec, {"file", "wavelength_unit", "flux"}, path=source, where="[star] spectrum")
+        check_keys(spec, _STAR_SPECTRUM_KEYS, path=source, where="[star] spectrum")
         if not isinstance(spec.get("file"), str):
             raise InputError('expected spectrum = "PATH" or { file = "PATH", wavelength_unit = "um", '
                              'flux = "f_lambda" }', path=source, where="[star] spectrum")
@@ -328,7 +349,7 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
     matrix = mixing.get("matrix")
     names = [m.name for m in materials]
     if matrix is not None and matrix != "vacuum" and matrix not in names:
-        raise InputError(f"matrix must be one of the materials {names} or 'vacuum', got {matrix!r}",
+        raise InputError(f"matrix must be one of the materials {quoted_names(names)} or 'vacuum', got {matrix!r}",
                          path=source, where="[mixing] matrix")
     if matrix is not None and rule != "maxwell_garnett":
         raise InputError("matrix is used by rule = 'maxwell_garnett' only", path=source, where="[mixing] matrix")

@@ -12,7 +12,10 @@ A mixture file is a model description (:mod:`motes.dust.model.description`) plus
     reference_band = "2mass_j"                   # optional: colours relative to it
 
 The per-band numbers come from the exact path (miepython at every node): one
-mixture is cheaper to compute directly than to tabulate.
+mixture is cheaper to compute directly than to tabulate. With the Mie phase
+function the polarised intensity (``|S1|^2 - |S2|^2``, signed) and the degree
+of polarisation per band come with them; Henyey-Greenstein carries no
+polarisation, so they are left out (and a note says so).
 """
 
 from __future__ import annotations
@@ -82,6 +85,7 @@ class MixtureOptics:
     q_ext: np.ndarray
     q_sca: np.ndarray
     notes: tuple[str, ...]
+    spectrum_polarised_ratio: np.ndarray | None = None
 
     @property
     def colours(self) -> np.ndarray:
@@ -95,7 +99,9 @@ class MixtureOptics:
         -------
         astropy.table.Table
             Columns ``band, pivot [um], n_eff, k_eff, flux_ratio [1/sr], colour [mag],
-            albedo, g, q_ext``; the mixture and the notes in ``meta``.
+            albedo, g, q_ext`` and, with the Mie phase function,
+            ``polarised_flux_ratio [1/sr]`` and ``degree_of_polarisation``; the
+            mixture and the notes in ``meta``.
         """
         from astropy.table import Table
         import astropy.units as u
@@ -111,6 +117,9 @@ class MixtureOptics:
         t["albedo"] = o.albedo
         t["g"] = o.g
         t["q_ext"] = o.q_ext
+        if o.polarised_flux_ratio is not None:
+            t["polarised_flux_ratio"] = o.polarised_flux_ratio / u.sr
+            t["degree_of_polarisation"] = o.degree_of_polarisation
         p = self.parameters
         t.meta.update({"materials": list(self.description.material_names), "fractions": list(p.fractions),
                        "porosity": p.porosity, "a_min_um": p.a_min, "a_max_um": p.a_max, "q": p.q,
@@ -155,11 +164,15 @@ def parse_mixture(doc: dict, description: ModelDescription) -> MixtureParameters
 
 
 def read_mixture_file(path) -> tuple[ModelDescription, MixtureParameters]:
-    """Read a mixture file: the model description and its ``[mixture]``."""
+    """Read a mixture file: the model description and its ``[mixture]``.
+
+    An optional ``[thermal]`` table (:mod:`motes.dust.model.thermal`) is allowed
+    and read by :func:`motes.dust.model.thermal.read_thermal_settings`.
+    """
     import tomllib
 
     path = Path(path)
-    desc = read_model_description(path, extra_tables=("mixture",))
+    desc = read_model_description(path, extra_tables=("mixture", "thermal"))
     doc = tomllib.loads(path.read_text())
     return desc, parse_mixture(doc, desc)
 
@@ -181,11 +194,11 @@ def compute_mixture_optics(description: ModelDescription, mixture: MixtureParame
     reference = 0
     if mixture.reference_band is not None:
         if mixture.reference_band not in names:
-            raise InputError(f"reference_band {mixture.reference_band!r} is not one of the bands {names}",
+            raise InputError(f"reference_band {mixture.reference_band!r} is not one of the bands {quoted_names(names)}",
                              path=description.source, where="[mixture] reference_band")
         reference = names.index(mixture.reference_band)
     f = np.array(mixture.fractions)
-    optics = model.band_optics(f, mixture.porosity, mixture.a_min, mixture.q, mixture.a_max)
+    optics = model.band_optics(f, mixture.porosity, mixture.a_min, mixture.q, mixture.a_max, polarised=True)
     blow = None
     notes = list(optics.notes)
     star = description.star
@@ -204,9 +217,15 @@ def compute_mixture_optics(description: ModelDescription, mixture: MixtureParame
     m_lam = model.effective_index(f[None, :], mixture.porosity, lam)
     curve = model.node_values_exact(m_lam, lam, mixture.a_min, mixture.q, mixture.a_max,
                                     sampling=SizeSampling(c0=1e-3))[0]
+    pol_curve = None
+    if model.geometry.phase == "mie":
+        pol_curve = model.node_values_exact(m_lam, lam, mixture.a_min, mixture.q, mixture.a_max,
+                                            sampling=SizeSampling(c0=1e-3), quantity="polarised")[0]
+    else:
+        notes.append("no polarised intensity: the Henyey-Greenstein phase function carries no polarisation")
     # efficiencies against size at the band pivots
     radius = np.geomspace(0.01, max(mixture.a_max, 10.0), 240)
     e = mie.efficiencies(optics.m_pivot[:, None], 2 * np.pi * radius[None, :] / optics.pivot[:, None])
     return MixtureOptics(description, mixture, model.bands, model.describe(), optics, reference, blow, lam, curve,
-                         radius, e.q_ext, e.q_sca, tuple(dict.fromkeys(notes)))
+                         radius, e.q_ext, e.q_sca, tuple(dict.fromkeys(notes)), spectrum_polarised_ratio=pol_curve)
 

@@ -25,6 +25,7 @@ from .sampling import SizeSampling, bin_rule
 __all__ = [
     "FORMAT_VERSION",
     "N_MOMENTS",
+    "QUANTITIES",
     "TableSpec",
     "build_node",
     "build_tile",
@@ -102,14 +103,24 @@ class TableSpec:
         return hashlib.sha256(payload.encode()).hexdigest()[:20]
 
 
-def channel_key(geometry) -> str:
-    # the Henyey-Greenstein channels do not depend on the angles
+#: What a table tabulates: the total intensity (``|S1|^2 + |S2|^2``, or the Henyey-Greenstein
+#: channels) or the polarised intensity (``|S1|^2 - |S2|^2``, Mie phase function only).
+QUANTITIES = ("total", "polarised")
+
+
+def channel_key(geometry, quantity: str = "total") -> str:
+    # the Henyey-Greenstein channels do not depend on the angles; the polarised table is its own
+    # cache folder (built only for runs with polarised colours), the total one keeps its key
+    if quantity == "polarised":
+        return "polarised:" + geometry.key()
     return "hg" if geometry.phase == "hg" else geometry.key()
 
 
 # ------------------------------------------------------------------- building
-def _channels(geometry, m: np.ndarray, t: np.ndarray) -> np.ndarray:
+def _channels(geometry, m: np.ndarray, t: np.ndarray, quantity: str = "total") -> np.ndarray:
     """Integrand channels s(t) [n_channels, n] for indices m (same length as t)."""
+    if quantity == "polarised":
+        return mie.polarised_scattered_intensity(m, t, geometry.angles_rad)[None, :]
     if geometry.phase == "mie":
         return mie.scattered_intensity(m, t, geometry.angles_rad)[None, :]
     e = mie.efficiencies(m, t)
@@ -122,8 +133,8 @@ def rayleigh_exponents(geometry) -> np.ndarray:
     return np.array([6.0]) if geometry.phase == "mie" else np.array([6.0, 8.0])
 
 
-def build_node(spec: TableSpec, geometry, m: complex):
-    """Moments of one (n, k) node.
+def build_node(spec: TableSpec, geometry, m: complex, quantity: str = "total"):
+    """Moments of one (n, k) node (``quantity``: one of :data:`QUANTITIES`).
 
     Returns
     -------
@@ -137,7 +148,7 @@ def build_node(spec: TableSpec, geometry, m: complex):
     edges = spec.ln_x
     t, w, owner = bin_rule(edges, spec.sampling, m.imag)
     mm = np.full(t.size, m)
-    s = 0.5 * _channels(geometry, mm, t)
+    s = 0.5 * _channels(geometry, mm, t, quantity)
     centre = 0.5 * (edges[1:] + edges[:-1])
     u = np.log(t) - centre[owner]
     n_bins = edges.size - 1
@@ -147,7 +158,7 @@ def build_node(spec: TableSpec, geometry, m: complex):
         for c in range(s.shape[0]):
             moments[c, :, j] = np.bincount(owner, w * s[c] * upow, minlength=n_bins)
         upow = upow * u
-    start = 0.5 * _channels(geometry, np.array([m]), np.array([spec.x_min]))[:, 0]
+    start = 0.5 * _channels(geometry, np.array([m]), np.array([spec.x_min]), quantity)[:, 0]
     top = t > spec.x_top / 10
     tail = (w[top] * s[:, top] / t[top] ** 2).sum(axis=1) / w[top].sum()
     return moments, start, tail
@@ -157,17 +168,17 @@ def tile_path(folder: Path, i: int, j: int) -> Path:
     return folder / f"tile_{i:03d}_{j:03d}.npz"
 
 
-def build_tile(spec: TableSpec, geometry, i: int, j: int):
+def build_tile(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total"):
     """Moments of the (n, k) nodes of tile (i, j); returns (moments, start, tail)."""
     ln_n, kk = spec.ln_n, spec.k
     rows = range(i * spec.tile, min((i + 1) * spec.tile, spec.n_count))
     cols = range(j * spec.tile, min((j + 1) * spec.tile, spec.k_count))
-    n_ch = 1 if geometry.phase == "mie" else 2
+    n_ch = 1 if (geometry.phase == "mie" or quantity == "polarised") else 2
     moments = np.zeros((spec.tile, spec.tile, n_ch, spec.x_count - 1, N_MOMENTS))
     start = np.zeros((spec.tile, spec.tile, n_ch))
     tail = np.zeros((spec.tile, spec.tile, n_ch))
     for a, r in enumerate(rows):
         for b, c in enumerate(cols):
             m = complex(np.exp(ln_n[r]), kk[c])
-            moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m)
+            moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m, quantity)
     return moments, start, tail

@@ -9,7 +9,11 @@ integral into (GUIDE section 9; :mod:`motes.dust.model.colours`)::
 ``C`` does not depend on lambda or on the size limits, so a table of ``C`` over
 (ln n, ln k, ln x) and q turns every wavelength node of every band into two
 interpolations. For the Henyey-Greenstein phase function two channels are
-tabulated instead, ``s = 2 pi t^2 Q_sca`` and ``2 pi t^2 Q_sca g``.
+tabulated instead, ``s = 2 pi t^2 Q_sca`` and ``2 pi t^2 Q_sca g``. For
+polarised-intensity colours a second table of the same form holds ``C`` with
+``s = mean over angles of |S1|^2 - |S2|^2`` (signed; Mie phase function only),
+in a cache folder of its own, made ready only for models with polarised
+columns (``LookupTable(quantity="polarised")``).
 
 How the table is made
 ---------------------
@@ -58,7 +62,7 @@ from ...errors import InputError, ModelError
 from ...parameters import accepts_quantities
 from ...files import atomic_write, cache_directory, write_text_atomic
 from ...optics import mie
-from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, TableSpec, build_tile, channel_key,
+from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, QUANTITIES, TableSpec, build_tile, channel_key,
                          rayleigh_exponents, tile_path)
 
 __all__ = [
@@ -72,6 +76,11 @@ __all__ = [
     "table_for_model",
     "table_build_workers",
 ]
+
+#: q slices added on each side when the assembled q range must grow (a run that explores q one
+#: point at a time then re-assembles a few times instead of at every new slice)
+_Q_MARGIN = 4
+
 
 def table_build_workers() -> int:
     """Processes for building missing tiles: ``$MOTES_TABLE_WORKERS``, else a default.
@@ -209,23 +218,31 @@ class LookupTable:
         Processes used to build missing tiles (default: ``$MOTES_TABLE_WORKERS``,
         else every core in the main process and 1 inside worker processes; see
         :func:`table_build_workers`).
+    quantity : {"total", "polarised"}
+        Tabulate the total intensity (default) or the polarised intensity
+        ``|S1|^2 - |S2|^2`` (Mie phase function only; a cache folder of its own).
     """
 
     def __init__(self, geometry, spec: TableSpec | None = None, folder=None, progress: bool = True,
-                 workers: int | None = None):
+                 workers: int | None = None, quantity: str = "total"):
+        if quantity not in QUANTITIES:
+            raise InputError(f"quantity must be one of {QUANTITIES}, got {quantity!r}", where="quantity")
+        if quantity == "polarised" and geometry.phase != "mie":
+            raise InputError("the Henyey-Greenstein phase function carries no polarisation; polarised "
+                             "intensity needs phase = 'mie'", where="[geometry] phase")
+        self.quantity = quantity
         self.geometry = geometry
         self.spec = spec or TableSpec()
-        key = self.spec.key(channel_key(geometry))
+        key = self.spec.key(channel_key(geometry, quantity))
         self.folder = Path(folder) if folder is not None else cache_directory() / "tables" / key
         self.progress = progress
         self.workers = int(workers) if workers is not None else table_build_workers()
-        self.n_channels = 1 if geometry.phase == "mie" else 2
+        self.n_channels = 1 if (geometry.phase == "mie" or quantity == "polarised") else 2
         self._ray = rayleigh_exponents(geometry)
         self._tiles: dict[tuple[int, int], tuple] = {}
         self._slots = None          # tile (i, j) -> slot in the compact arrays
         self._order = []
-        self._slices: dict[int, np.ndarray] = {}
-        self._stack = None          # (q_lo_index, array)
+        self._stack = None          # (first q index, array); grows by _Q_MARGIN slices
         self._tails = None
         self.build_seconds = 0.0
         self.tiles_built = 0
@@ -237,7 +254,7 @@ class LookupTable:
         self.folder.mkdir(parents=True, exist_ok=True)
         meta = self.folder / "spec.json"
         if not meta.exists():
-            payload = json.dumps({"spec": asdict(self.spec), "geometry": channel_key(self.geometry),
+            payload = json.dumps({"spec": asdict(self.spec), "geometry": channel_key(self.geometry, self.quantity),
                                   "format": FORMAT_VERSION, "motes": __version__,
                                   "miepython": mie.miepython.__version__}, indent=1, sort_keys=True)
             write_text_atomic(meta, payload)
@@ -282,17 +299,21 @@ class LookupTable:
 
     def _built(self, todo):
         """Yield (tile, arrays) for the tiles in ``todo``, in worker processes if asked."""
-        if self.workers <= 1 or len(todo) == 1:
+        import multiprocessing
+
+        # a table inherited by a forked daemonic worker (a fit's pool) keeps the driver's setting,
+        # but such a process may not start processes of its own
+        daemonic = multiprocessing.current_process().daemon
+        if self.workers <= 1 or len(todo) == 1 or daemonic:
             for ij in todo:
-                yield ij, build_tile(self.spec, self.geometry, *ij)
+                yield ij, build_tile(self.spec, self.geometry, *ij, self.quantity)
             return
         import concurrent.futures
-        import multiprocessing
 
         method = "fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn"
         with concurrent.futures.ProcessPoolExecutor(
                 max_workers=self.workers, mp_context=multiprocessing.get_context(method)) as pool:
-            futures = {pool.submit(build_tile, self.spec, self.geometry, *ij): ij for ij in todo}
+            futures = {pool.submit(build_tile, self.spec, self.geometry, *ij, self.quantity): ij for ij in todo}
             for fut in concurrent.futures.as_completed(futures):
                 yield futures[fut], fut.result()
 
@@ -341,9 +362,8 @@ class LookupTable:
             self._load_or_build(sorted(missing))
             for ij in missing:
                 self._loaded[ij] = True
-            self._slices.clear()
-            self._stack = None
-            self._tails = None
+            # new tiles get new slots at the end: the q slices already assembled stay valid and are
+            # extended by the new tiles alone (no re-assembly of the whole table, see _stacked)
             self._slots = None
 
     # -------------------------------------------------------------- q slices
@@ -351,58 +371,87 @@ class LookupTable:
         """Tile (i, j) -> slot in the compact arrays (-1: not loaded)."""
         if self._slots is None:
             slots = np.full(self._loaded.shape, -1, dtype=np.int64)
-            self._order = sorted(self._tiles)
+            known = set(self._order)
+            self._order = list(self._order) + sorted(ij for ij in self._tiles if ij not in known)
             for s_, ij in enumerate(self._order):
                 slots[ij] = s_
             self._slots = slots
         return self._slots
 
-    def _slice(self, iq: int) -> np.ndarray:
-        """C for q = q_min + iq q_step on the loaded tiles: float32 [n_ch, n_slots, t, t, n_x]."""
-        if iq in self._slices:
-            return self._slices[iq]
+    def _slice(self, iq: int, tiles=None) -> np.ndarray:
+        """C for q = q_min + iq q_step on ``tiles`` (default: every loaded tile, in slot order).
+
+        float32 [n_ch, len(tiles), t, t, n_x]; each tile's values are computed
+        on their own, so they do not depend on which other tiles are loaded.
+        """
         spec = self.spec
         q = spec.q_min + iq * spec.q_step
         self._slot_map()
+        tiles = self._order if tiles is None else tiles
         t = spec.tile
-        out = np.empty((self.n_channels, len(self._order), t, t, spec.x_count), dtype=np.float32)
+        out = np.empty((self.n_channels, len(tiles), t, t, spec.x_count), dtype=np.float32)
         edges = spec.ln_x
         centre = 0.5 * (edges[1:] + edges[:-1])
         coef = (-q) ** np.arange(N_MOMENTS) / FACTORIALS           # [5]
         scale = np.exp(-q * centre)                                   # [bins]
-        for slot, ij in enumerate(self._order):
+        for slot, ij in enumerate(tiles):
             moments, start, _ = self._tiles[ij]
             bins = (moments @ coef) * scale                           # [t, t, ch, bins]
             c0 = start * spec.x_min ** (1.0 - q) / (1.0 + self._ray - q)   # [t, t, ch]
             cum = np.concatenate([c0[..., None], c0[..., None] + np.cumsum(bins, axis=-1)], axis=-1)
             out[:, slot] = np.moveaxis(cum, 2, 0)
-        self._slices[iq] = out
         return out
 
     def _tail_box(self) -> np.ndarray:
-        if self._tails is not None:
-            return self._tails
         self._slot_map()
+        done = 0 if self._tails is None else self._tails.shape[1]
+        if done == len(self._order):
+            return self._tails
         t = self.spec.tile
-        out = np.empty((self.n_channels, len(self._order), t, t))
-        for slot, ij in enumerate(self._order):
+        out = np.empty((self.n_channels, len(self._order) - done, t, t))
+        for slot, ij in enumerate(self._order[done:]):
             out[:, slot] = np.moveaxis(self._tiles[ij][2], 2, 0)
-        self._tails = out
-        return out
+        self._tails = out if self._tails is None else np.concatenate([self._tails, out], axis=1)
+        return self._tails
 
     def _stacked(self, q) -> tuple[int, np.ndarray]:
         spec = self.spec
         lo = int(np.floor((q.min() - spec.q_min) / spec.q_step)) - 1
         hi = int(np.floor((q.max() - spec.q_min) / spec.q_step)) + 3
         lo, hi = max(lo, 0), min(hi, spec.q_count)
-        if self._stack is not None:
-            slo, arr = self._stack
+        self._slot_map()
+        old = self._stack
+        if old is not None and old[1].shape[2] < len(self._order):
+            # tiles loaded since: assemble their slices alone and append them (slots are appended too)
+            slo, arr = old
+            new = self._order[arr.shape[2]:]
+            ext = np.stack([self._slice(iq, new) for iq in range(slo, slo + arr.shape[1])], axis=1)
+            self._stack = old = None
+            old = self._stack = (slo, np.concatenate([arr, ext], axis=2))
+            del arr, ext
+        if old is not None:
+            slo, arr = old
             if slo <= lo and slo + arr.shape[1] >= hi:
-                return self._stack
-            lo, hi = min(lo, slo), max(hi, slo + arr.shape[1])
-        arr = np.ascontiguousarray(np.stack([self._slice(iq) for iq in range(lo, hi)], axis=1))
+                return old
+            # grow with a margin, so that a run exploring q (one point at a time) re-assembles a few
+            # times, not at every new slice; slices already assembled are copied, never recomputed
+            lo = max(min(lo, slo) - (_Q_MARGIN if lo < slo else 0), 0)
+            hi = min(max(hi, slo + arr.shape[1]) + (_Q_MARGIN if hi > slo + arr.shape[1] else 0), spec.q_count)
+        t = spec.tile
+        arr = np.empty((self.n_channels, hi - lo, len(self._slot_map_order()), t, t, spec.x_count), dtype=np.float32)
+        for iq in range(lo, hi):
+            if old is not None and old[0] <= iq < old[0] + old[1].shape[1]:
+                arr[:, iq - lo] = old[1][:, iq - old[0]]
+            else:
+                arr[:, iq - lo] = self._slice(iq)
+        self._stack = None
+        del old
         self._stack = (lo, arr)
         return self._stack
+
+    def _slot_map_order(self):
+        self._slot_map()
+        return self._order
 
     # -------------------------------------------------------------- evaluate
     def integrals(self, m, x1, x2, q) -> np.ndarray:
@@ -474,18 +523,34 @@ _CAUSTIC_DN, _CAUSTIC_K = 0.02, 2e-3
 
 
 class ModelTable:
-    """The fast path bound to one :class:`~motes.dust.model.colours.DiskColourModel`."""
+    """The fast path bound to one :class:`~motes.dust.model.colours.DiskColourModel`.
 
-    def __init__(self, model, table: LookupTable):
+    ``table`` holds the total intensity; ``polarised`` (a :class:`LookupTable`
+    of quantity ``"polarised"``) is there only when the model has polarised
+    colours.
+    """
+
+    def __init__(self, model, table: LookupTable, polarised: LookupTable | None = None):
         self.model = model
         self.table = table
+        self.polarised = polarised
         self._rainbows = rainbow_indices(model.geometry.angles_deg) if model.geometry.phase == "mie" \
             else np.array([])
 
     @accepts_quantities
-    def node_values(self, m, wavelength, a_min, q, a_max) -> np.ndarray:
-        """Monochromatic flux ratios R at the band nodes, ``ndarray[N, L]``."""
+    def node_values(self, m, wavelength, a_min, q, a_max, quantity: str = "total") -> np.ndarray:
+        """Monochromatic flux ratios R at the band nodes, ``ndarray[N, L]``.
+
+        ``quantity="polarised"``: the polarised-intensity ratio (signed), from
+        the polarised table.
+        """
         from ...optics.sizes import power_law_cross_section
+
+        table = self.table
+        if quantity == "polarised":
+            if self.polarised is None:
+                raise ModelError("this model has no polarised lookup table (no polarised colours)")
+            table = self.polarised
 
         m = np.asarray(m, dtype=complex)
         n_pts, n_lam = m.shape
@@ -495,9 +560,9 @@ class ModelTable:
         q2 = np.broadcast_to(np.asarray(q, dtype=float)[:, None], (n_pts, n_lam))
         wn = 2 * np.pi / lam
         x_max = wn * a_max
-        if x_max.max() > self.table.spec.x_top:
-            note = (f"fast path: grains beyond x = {self.table.spec.x_top:.3g} (a > "
-                    f"{self.table.spec.x_top * lam.min() / (2 * np.pi):.3g} um at {lam.min():.3g} um) use the "
+        if x_max.max() > table.spec.x_top:
+            note = (f"fast path: grains beyond x = {table.spec.x_top:.3g} (a > "
+                    f"{table.spec.x_top * lam.min() / (2 * np.pi):.3g} um at {lam.min():.3g} um) use the "
                     "geometric-optics continuation of the table")
             if note not in self.model.notes:
                 self.model.notes = self.model.notes + (note,)
@@ -512,9 +577,9 @@ class ModelTable:
                             "measured); use method='exact' or several angles for such grains")
                     if note not in self.model.notes:
                         self.model.notes = self.model.notes + (note,)
-        ints = self.table.integrals(m, (wn * a_min).ravel(), x_max.ravel(), q2.ravel())
-        ints = ints.reshape(self.table.n_channels, n_pts, n_lam)
-        if self.model.geometry.phase == "mie":
+        ints = table.integrals(m, (wn * a_min).ravel(), x_max.ravel(), q2.ravel())
+        ints = ints.reshape(table.n_channels, n_pts, n_lam)
+        if self.model.geometry.phase == "mie" or quantity == "polarised":
             value = ints[0]
         else:
             value = ints[0] * self.model.geometry.hg_phase(ints[1] / ints[0])
@@ -569,19 +634,28 @@ def table_for_model(model, spec: TableSpec | None = None, progress: bool = True,
         Build nothing now; every evaluation builds the tiles it needs.
 
     Tables are shared between models of the same geometry in one process.
+    The polarised-intensity table is made ready only for a model with
+    polarised colours (``model.has_polarised``), so total-intensity runs
+    build and load exactly what they did before.
     """
     spec = spec or model.table_spec or TableSpec()
-    key = (channel_key(model.geometry), spec)
-    table = _TABLES.get(key)
-    if table is None:
-        table = LookupTable(model.geometry, spec, progress=progress)
-        _TABLES[key] = table
-    if lazy:
-        pass
-    elif fractions is None:
-        table.ensure(reachable_indices(model))
-    else:
-        f = np.atleast_2d(np.asarray(fractions, dtype=float))
-        p = np.broadcast_to(np.asarray(0.0 if porosity is None else porosity, dtype=float), (f.shape[0],))
-        table.ensure(model.effective_index(f, p))
-    return ModelTable(model, table)
+    wanted = ["total"]
+    if getattr(model, "has_polarised", False):
+        wanted.append("polarised")
+    tables = []
+    for quantity in wanted:
+        key = (channel_key(model.geometry, quantity), spec)
+        table = _TABLES.get(key)
+        if table is None:
+            table = LookupTable(model.geometry, spec, progress=progress, quantity=quantity)
+            _TABLES[key] = table
+        if lazy or (quantity == "total" and not getattr(model, "has_total", True)):
+            pass    # nothing to build now (a polarised-only model builds no total tiles)
+        elif fractions is None:
+            table.ensure(reachable_indices(model))
+        else:
+            f = np.atleast_2d(np.asarray(fractions, dtype=float))
+            p = np.broadcast_to(np.asarray(0.0 if porosity is None else porosity, dtype=float), (f.shape[0],))
+            table.ensure(model.effective_index(f, p))
+        tables.append(table)
+    return ModelTable(model, tables[0], tables[1] if len(tables) > 1 else None)
