@@ -125,9 +125,15 @@ def test_user_sequence_file_is_used_and_cited(tmp_path):
     result = classify(phot, ClassifySettings(mode="distance", sequence_file=str(path)))
     assert result.estimate.source == "dwarf sequence my_sequence.txt"
     assert abs(result.estimate.median - type_code("L2")) < 1.0
-    assert any(n == "dwarf sequence my_sequence.txt: cite A. Author 2030, Journal 1, 1" for n in result.notes)
+    from motes.report.run_citations import classification_citations
+
+    # the sequence's CITE section is listed once, in what to cite for the run (not repeated in the notes)
+    cited = {ref.topic: ref.text for ref in classification_citations(result)}
+    assert cited["dwarf sequence"] == "A. Author 2030, Journal 1, 1"
+    assert not any("cite" in n and "A. Author" in n for n in result.notes)
     builtin = classify(phot, ClassifySettings(mode="distance"))
-    assert any(n.startswith("mean dwarf sequence: cite Pecaut & Mamajek 2013, ApJS 208, 9") for n in builtin.notes)
+    cited = {ref.topic: ref.text for ref in classification_citations(builtin)}
+    assert cited["dwarf sequence"].startswith("Pecaut & Mamajek 2013, ApJS 208, 9")
 
 
 def test_user_sequence_from_a_settings_file_via_the_cli(tmp_path, capsys):

@@ -98,3 +98,24 @@ def test_model_sets():
         build_model_set("list", MATS, explicit=[["iron"]])
     with pytest.raises(FitError, match="set must be one of"):
         build_model_set("everything", MATS)
+
+
+def test_best_fit_contrasts_split_ln_b_into_best_fit_and_occam_parts():
+    from types import SimpleNamespace
+
+    from motes.dust.fit.evidence import best_fit_contrasts
+
+    def model(name, mats, ln_z, ln_l, chi2):
+        return SimpleNamespace(name=name, materials=mats, ln_z=ln_z, ln_z_err=0.3, best_ln_l=ln_l, best_chi2=chi2)
+
+    full = model("a+b", ("a", "b"), 89.07, 108.87, 3.88)
+    without_b = model("a", ("a",), 89.32, 107.27, 7.09)
+    verdicts = material_verdicts([ModelEvidence(m.name, m.materials, m.ln_z, m.ln_z_err) for m in (full, without_b)],
+                                 ["a", "b"], "a+b")
+    (c,) = best_fit_contrasts(verdicts, [full, without_b])     # "a" is in every model: not tested, no line
+    assert c.material == "b"
+    assert c.delta_chi2 == pytest.approx(7.09 - 3.88)
+    assert c.delta_ln_l_max == pytest.approx(1.60)
+    assert c.occam == pytest.approx((89.07 - 108.87) - (89.32 - 107.27))
+    assert c.delta_ln_l_max + c.occam == pytest.approx(c.ln_b) and c.ln_b == pytest.approx(verdicts[1].ln_b)
+    assert "+3.21" in c.sentence() and "ln B = -0.25" in c.sentence()

@@ -41,6 +41,11 @@ def test_outputs_and_skip_of_finished_models(tmp_path, toy_fit):
         folder = out / "models" / m.name
         for f in ("result.json", "samples.ecsv", "parameters.ecsv", "colours.ecsv"):
             assert (folder / f).is_file()
+        for f in ("samples.ecsv", "parameters.ecsv", "colours.ecsv"):
+            meta = Table.read(folder / f).meta       # what produced the table
+            assert {"motes_version", "mixing", "phase_function", "scattering_angles_deg", "star", "grains",
+                    "size_distribution", "optical_constants"} <= set(meta), f
+            assert [s.split(":")[0] for s in meta["optical_constants"]] == list(m.materials)
         assert m.samples.shape[1] == len(m.sample_names) and "scale" in m.sample_names
         assert np.all(np.isfinite(m.samples))
         assert m.dof == 8 - (len(m.materials) - 1 + 3 + 1)

@@ -373,6 +373,11 @@ def test_summary_matches_a_brute_force_reading_of_the_store(grid_file, tmp_path)
     assert abs(best["f_silica"] - 0.5) <= 0.2 and best["a_min"] == 2.0
     written = summary.write_tables(tmp_path / "out")
     assert [p.name for p in written] == ["grid_best.ecsv", "grid_fraction_profiles.ecsv", "grid_axis_profiles.ecsv"]
+    # a material's absence is on the grid: the note on profiles vs evidence comes with it
+    from motes.dust.grid.summary import PROFILE_VS_EVIDENCE_NOTE
+
+    assert any(0.0 in list(prof[prof["material"] == m]["fraction"]) for m in spec.materials)
+    assert PROFILE_VS_EVIDENCE_NOTE in summary.notes
 
 
 def test_summary_of_an_unfinished_store_says_so(grid_file, tmp_path):

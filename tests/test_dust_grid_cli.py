@@ -28,6 +28,7 @@ def test_run_then_summarize_on_the_real_model(tmp_path, rng, capsys):
     out = capsys.readouterr().out
     assert "60 points = 15 mixtures (= C(4 + 3 - 1, 3 - 1)) x 2 porosity x 2 a_min" in out
     assert "best mixtures:" in out and "#3" in out and "#4" not in out
+    assert "bands: 2mass_j, 2mass_h, 2mass_ks, wise_w1, wise_w2\n" in out
     assert "leaving it out costs" in out and "Mie spheres" in out
     for name in ("grid_best.ecsv", "grid_fraction_profiles.ecsv", "grid_axis_profiles.ecsv",
                  "grid_fraction_profiles.png", "grid_axis_profiles.png", "grid_best_models.png"):
@@ -38,6 +39,12 @@ def test_run_then_summarize_on_the_real_model(tmp_path, rng, capsys):
     # summarize into another folder; a second run of the same grid finds it complete
     assert main(["grid", "summarize", str(store), "--top", "2", "--output", str(tmp_path / "sum")]) == 0
     assert (tmp_path / "sum" / "grid_best.ecsv").is_file()
+    from astropy.table import Table
+    import motes
+
+    meta = Table.read(tmp_path / "sum" / "grid_best.ecsv").meta     # what produced the grid's numbers
+    assert meta["motes_version"] == motes.__version__ and meta["star"].startswith("blackbody Teff")
+    assert {"mixing", "phase_function", "scattering_angles_deg", "grains", "size_distribution"} <= set(meta)
     assert main(["grid", str(grid), "--output", str(store), "--workers", "1", "--quiet", "--no-summary"]) == 0
     assert "computed 0 points" in capsys.readouterr().out
 
@@ -110,3 +117,11 @@ def test_help_describes_both_forms(capsys):
     out = capsys.readouterr().out
     assert "motes grid GRID.toml" in out and "motes grid summarize STORE" in out
     assert "--scheduler" in out and "--dry-run" in out and "--yes" in out and "examples:" in out
+
+
+def test_polarised_row_keys_read_as_labels():
+    from motes.dust.grid.summary import band_label
+
+    assert band_label("2mass_h_polarised") == "2mass_h (polarised)"
+    assert band_label("model_2mass_h_polarised") == "model_2mass_h (polarised)"
+    assert band_label("2mass_h") == "2mass_h"

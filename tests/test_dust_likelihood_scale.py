@@ -96,3 +96,33 @@ def test_bad_scale_prior():
         ScalePrior(1.0, 1.0)
     with pytest.raises(FitError):
         ScalePrior(0.0, 1.0)
+
+
+def test_draws_of_regular_rows_together_equal_the_row_by_row_draws(case, monkeypatch):
+    """The rows drawn all at once (panels inside the prior) give bit for bit the row-by-row numbers."""
+    import motes.dust.likelihood as lik
+
+    model, value = case
+    rng = np.random.default_rng(11)
+    rows = model[rng.integers(0, model.shape[0], 300)] * rng.uniform(0.5, 2.0, (300, 1))
+    kinds = set()
+    original = lik._regular_rows
+
+    def recording(s, w, p):
+        mask = original(s, w, p)
+        kinds.update(mask.tolist())
+        return mask
+
+    for error, limits, prior in ((0.03, None, ScalePrior()), (0.3, None, ScalePrior()),
+                                 (0.03, None, ScalePrior(1e-6, 2e-4)),          # some modes near a bound
+                                 (0.1, [False, True, False, False, False, False], ScalePrior())):
+        obs = _obs(value, error * value, limits)
+        f = rng.uniform(0.0, 0.05, rows.shape[0])
+        with monkeypatch.context() as mp:
+            mp.setattr(lik, "_regular_rows", recording)
+            together = draw_scale(rows, obs, prior, f, rng=np.random.default_rng(3))
+        with monkeypatch.context() as mp:
+            mp.setattr(lik, "_regular_rows", lambda s, w, p: np.zeros(s.shape, dtype=bool))
+            one_by_one = draw_scale(rows, obs, prior, f, rng=np.random.default_rng(3))
+        assert np.array_equal(together, one_by_one)
+    assert kinds == {True, False}          # both paths were taken

@@ -285,3 +285,20 @@ def test_table_build_workers_is_one_inside_a_worker_process(monkeypatch):
     ctx = multiprocessing.get_context("spawn")
     with concurrent.futures.ProcessPoolExecutor(max_workers=1, mp_context=ctx) as pool:
         assert pool.submit(table_build_workers).result() == 1
+
+
+def test_monochromatic_spectrum_through_the_tables_matches_the_exact_path(table_cache):
+    """``monochromatic_flux_ratio(method="fast")`` (the colour figure's spectrum) is the tables'
+    node_values at the given wavelengths: within the 2e-3 of the small table (see above) of the
+    exact path, and refused for an exact-path model."""
+    material = Material("g", np.array([0.2, 30.0]), np.array([2.0, 2.05]), np.array([0.5, 0.48]), density=2.0)
+    kwargs = dict(star_teff=5800, size_sampling=SMALL.sampling, a_max=2.5)
+    fast = DiskColourModel([material], [top_hat_band("b", 1.0, 0.05)], method="fast", table_spec=SMALL, **kwargs)
+    exact = DiskColourModel([material], [top_hat_band("b", 1.0, 0.05)], method="exact", **kwargs)
+    wl = np.array([1.0, 1.2, 1.4])
+    got = fast.monochromatic_flux_ratio(wl, [[1.0], [1.0]], [0.0, 0.05], [0.3, 0.4], [3.43, 3.77], method="fast")
+    ref = exact.monochromatic_flux_ratio(wl, [[1.0], [1.0]], [0.0, 0.05], [0.3, 0.4], [3.43, 3.77])
+    assert got.shape == (2, 3)
+    np.testing.assert_allclose(got, ref, rtol=2e-3)
+    with pytest.raises(Exception, match="method='fast' needs a model built with method='fast'"):
+        exact.monochromatic_flux_ratio(wl, [[1.0]], 0.0, 0.3, 3.5, method="fast")

@@ -226,6 +226,19 @@ def test_cli_prints_and_writes_the_thermal_side(tmp_path, capsys):
     t = Table.read(out / "mix_thermal_bands.ecsv")
     assert list(t["band"]) == ["wise_w3", "herschel-pacs_70", "mm_1.3"]
     assert any("dielectric" in n for n in t.meta["notes"])
+    # every table records what produced it: version, mixing rule, geometry, star, grains, sizes
+    import motes
+
+    bands = Table.read(out / "mix_bands.ecsv")
+    for table in (bands, t, Table.read(out / "mix_grain_temperatures.ecsv")):
+        assert table.meta["motes_version"] == motes.__version__
+        assert table.meta["mixing"].split()[0] in ("bruggeman", "maxwell-garnett", "maxwell_garnett")
+        assert table.meta["star"].startswith("blackbody Teff = ") and table.meta["star"].endswith(" K")
+        assert table.meta["grains"] == "spheres"
+        assert table.meta["size_distribution"] == "power law dn/da ∝ a^-q, q = 3.5, from a_min = 2 um to a_max = 100 um"
+        assert [s.split(":")[0] for s in table.meta["optical_constants"]] == list(bands.meta["materials"])
+    assert bands.meta["phase_function"] in ("mie", "hg") and bands.meta["scattering_angles_deg"]
+    assert "scattering_angles_deg" not in t.meta      # angles play no part in thermal emission
 
 
 def test_cli_bad_thermal_input_writes_nothing(tmp_path, capsys):

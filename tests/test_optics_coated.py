@@ -6,8 +6,11 @@ Huffman 1983, ch. 5), the independent multilayer code ``scattnlay`` (test-only
 dependency; version in ``SCATTNLAY_VERSION``, values computed at test time by
 ``scattnlay.scattnlay(np.array([x_core, x]), np.array([m_core, m_mantle]), theta)``),
 the homogeneous sphere of ``motes.optics.mie`` (miepython) in the limits of a
-core of the mantle's index and of a vanishing mantle, and van de Hulst's
-extinction paradox (Q_ext -> 2) at x >= 1000.
+core of the mantle's index and of a vanishing mantle, van de Hulst's
+extinction paradox (Q_ext -> 2) at x >= 1000, and the Rayleigh-limit
+polarisability of a coated sphere (Bohren & Huffman 1983, ch. 5; from memory).
+No published numerical worked case of a coated sphere is quoted (none was at
+hand; the scattnlay comparisons stand in for one).
 """
 
 from __future__ import annotations
@@ -283,3 +286,21 @@ def test_hollow_spheres_remove_resonance_structure():
     solid = roughness(mie.scattered_intensity(m, t[None, :], np.pi / 2))
     hollow_ = roughness(hollow.hollow_intensities(m, t[None, :], np.pi / 2, 0.8)[0])
     assert solid / hollow_ >= 3.0, (solid, hollow_)
+
+
+@pytest.mark.parametrize("m_core,m_mantle,fraction", [(1.0 + 0j, 1.5 + 0.1j, 0.5), (2.5 + 1.5j, 1.3 + 0j, 0.3),
+                                                      (1.0 + 0j, 1.7 + 0.02j, 0.8)])
+def test_rayleigh_limit_of_the_coated_sphere(m_core, m_mantle, fraction):
+    # Small coated sphere (x = 0.01): polarisability per outer volume (Bohren & Huffman 1983,
+    # eq. 5.36; equation number and form from memory)
+    #   a = [(e2 - 1)(e1 + 2 e2) + f (e1 - e2)(1 + 2 e2)] / [(e2 + 2)(e1 + 2 e2) + 2 f (e2 - 1)(e1 - e2)],
+    # Q_sca = 8/3 x^4 |a|^2, Q_ext = 4 x Im a + Q_sca, with e = m^2 and f the core volume fraction.
+    # Corrections are O(x^2): measured 1.5e-5 to 1.2e-4 at x = 0.01; required 1e-3.
+    x = 0.01
+    e1, e2 = m_core**2, m_mantle**2
+    a = (((e2 - 1) * (e1 + 2 * e2) + fraction * (e1 - e2) * (1 + 2 * e2))
+         / ((e2 + 2) * (e1 + 2 * e2) + 2 * fraction * (e2 - 1) * (e1 - e2)))
+    q_sca = 8 / 3 * x**4 * abs(a) ** 2
+    e = coated.coated_efficiencies(m_core, m_mantle, x, fraction)
+    assert float(e.q_sca) == pytest.approx(q_sca, rel=1e-3)
+    assert float(e.q_ext) == pytest.approx(4 * x * a.imag + q_sca, rel=1e-3)

@@ -128,11 +128,14 @@ def test_companion_sed_labels_clear_of_points_with_band_widths_and_residuals(cla
     from matplotlib.collections import LineCollection
 
     from motes.report.companion_sed import draw_companion_sed
+    from motes.report.figure_style import figure_band_name
     from motes.report.label_placement import boxes_overlap
 
     fig, labels, points = draw_companion_sed(classification)
     boxes = [(b.x0, b.y0, b.x1, b.y1) for b in (t.get_window_extent() for t in labels)]
-    assert [t.get_text() for t in labels] == [r.band.name for r in classification.photometry.rows]
+    # bands by their display names ("2MASS J"); user bands (NB3p1, Lp) as the target file names them
+    assert [t.get_text() for t in labels] == [figure_band_name(r.band.name) for r in classification.photometry.rows]
+    assert "2MASS J" in [t.get_text() for t in labels] and "Lp" in [t.get_text() for t in labels]
     for i, a in enumerate(boxes):
         assert not any(boxes_overlap(a, b) for b in boxes[i + 1:]), labels[i].get_text()
         assert not any(boxes_overlap(a, p) for p in points), labels[i].get_text()
@@ -145,6 +148,50 @@ def test_companion_sed_labels_clear_of_points_with_band_widths_and_residuals(cla
     # the sequence has no values in NB3p1 and L': said in the figure
     texts = " ".join(t.get_text() for t in residual.texts)
     assert "NB3p1" in texts and "Lp" in texts and "no template value" in texts
+    # the blackbody's residuals (grey circles) have their legend entry: a dashed line with a circle
+    entry = [h for h, t in zip(*main.get_legend_handles_labels()) if t.startswith("best blackbody")]
+    assert len(entry) == 1 and entry[0].get_marker() == "o" and entry[0].get_linestyle() == "--"
+    assert any(t.startswith("best blackbody") and "data / blackbody" in t for t in main.get_legend_handles_labels()[1])
+
+
+def test_band_display_names():
+    from motes.photometry.band_names import display_name
+    from motes.report.figure_style import figure_band_name
+
+    assert display_name("2mass_ks") == "2MASS Ks" and display_name("mko_lp") == "MKO L′"
+    assert display_name("jwst-nircam_f444w") == "JWST NIRCam F444W" and display_name("sdss_g") == "SDSS g"
+    assert display_name("spitzer-irac_3.6") == "Spitzer IRAC 3.6 µm" and display_name("my_band") == "my_band"
+    assert figure_band_name("2mass_h_polarised") == figure_band_name("2mass_h (polarised)") == "2MASS H (polarised)"
+
+
+def test_cmd_type_labels_clear_of_the_companion(classification, tmp_path):
+    """The sequence's type labels (L0 sits under the demo companion) do not hide under its marker."""
+    from matplotlib.text import Annotation
+
+    import motes.report.companion_figures as cf
+    from motes.report.label_placement import boxes_overlap, marker_boxes
+
+    kept = {}
+    original = cf.save_figure
+
+    def keep(fig, path, formats=None):
+        kept["fig"] = fig
+        return original(fig, path, formats=formats)
+
+    cf.save_figure = keep
+    try:
+        cf.plot_colour_magnitude(classification, tmp_path / "cmd.png")
+    finally:
+        cf.save_figure = original
+    ax = kept["fig"].axes[0]
+    star = [ln for ln in ax.lines if ln.get_marker() == "*"]
+    assert len(star) == 1
+    companion = marker_boxes(ax, star)
+    labels = [t for t in ax.texts if isinstance(t, Annotation) and t.get_text()]
+    assert "L0" in [t.get_text() for t in labels]
+    for t in labels:
+        bb = t.get_window_extent()
+        assert not any(boxes_overlap((bb.x0, bb.y0, bb.x1, bb.y1), c) for c in companion), t.get_text()
 
 
 def test_type_probability_axis_legend_and_normalisation(classification):
@@ -347,8 +394,14 @@ def test_grid_best_models_log_wavelength_band_labels_and_porosity_spelled(grid_s
     assert ax.get_xscale() == "log"
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
     assert all("p=" not in t for t in legend) and any("porosity" in t for t in legend)
-    assert {t.get_text() for t in ax.texts} == set(grid_summary.bands)
+    from motes.report.figure_style import figure_band_name
+
+    assert {t.get_text() for t in ax.texts} == {figure_band_name(b) for b in grid_summary.bands}   # "2MASS J"
     assert "invented truth" in ax.get_legend().get_title().get_text()
+    # the legend sits outside the axes, clear of the data points
+    fig.canvas.draw()
+    box, frame = ax.get_legend().get_window_extent(), ax.get_window_extent()
+    assert box.x0 >= frame.x1
 
 
 def test_grid_figures_write_each_format(grid_summary, tmp_path):

@@ -420,3 +420,19 @@ def test_citations_when_the_description_cannot_be_read_again(tmp_path):
     joined = "\n".join(format_references(refs))
     assert "Speagle 2020" in joined and "miepython" in joined and "Cohen, Wheaton & Megeath 2003" in joined
     assert "optical constants of ice" in joined and "could not be read again" in joined
+
+
+def test_pdf_only_figures_are_shown_from_an_in_memory_png(tmp_path, capsys):
+    """``--figure-formats pdf`` alone: the page still shows every figure; no PNG file is written."""
+    from motes.demo import companion as demo_companion
+
+    demo_companion.write_inputs(tmp_path / "in")
+    out = tmp_path / "run"
+    _run(["classify", str(tmp_path / "in" / demo_companion.TARGET_FILE), "--output", str(out),
+          "--figure-formats", "pdf"], capsys)
+    pdfs = sorted(out.glob("*.pdf"))
+    assert len(pdfs) >= 2 and not list(out.glob("*.png"))
+    page, text = check_page(out / "velmora_b_classification_report.html")
+    assert len(page.images) == len(pdfs)          # each decoded as a PNG by check_page
+    for pdf in pdfs:
+        assert f"{pdf.name} (shown here as PNG; the file is PDF)" in text

@@ -191,7 +191,7 @@ def sections() -> list[Section]:
     from motes.dust.fit.spec import FIT_KEYS, MODEL_SETS, SamplerSettings
     from motes.dust.grid.spec import GRID_KEYS
     from motes.dust.model import mixture, thermal
-    from motes.dust.model.colours import METHODS
+    from motes.dust.model.colours import GRAINS, METHODS
     from motes.dust.model.description import MODEL_KEYS
     from motes.dust.model.geometry import PHASES
     from motes.optics.material import EXTRAPOLATION_RULES
@@ -345,7 +345,8 @@ def sections() -> list[Section]:
             "phase": Key("string", default='`"mie"`', allowed=_choice(PHASES),
                          meaning="phase function: Mie, or Henyey-Greenstein with Mie's asymmetry parameter"),
         }),
-        Section(MODEL, "[model]", _sorted(MODEL_KEYS["model"], ("bands", "a_max", "method", "wavelength_nodes")), {
+        Section(MODEL, "[model]", _sorted(MODEL_KEYS["model"], ("bands", "a_max", "method", "wavelength_nodes",
+                                                                "grains", "f_max")), {
             "bands": Key("array of strings", default="the data's bands", allowed="band identifiers or "
                                                                                 "[bands.NAME] names",
                          meaning="bands to model (`motes optics` needs them; fit and grid take the data's)"),
@@ -354,6 +355,13 @@ def sections() -> list[Section]:
                           meaning="`fast`: lookup tables (built once, cached); `exact`: Mie at every node"),
             "wavelength_nodes": Key("integer", "", "8", "[1, 64]",
                                     "Gauss quadrature nodes per band (band average against filter × star)"),
+            "grains": Key("string", default='`"spheres"`', allowed=_choice(GRAINS),
+                          meaning="grain model: homogeneous Mie spheres, or a distribution of hollow spheres "
+                                  "(Min, Hovenier & de Koter 2005) averaged over vacuum-core fractions 0–f_max "
+                                  "at fixed material volume (docs/optics.md)"),
+            "f_max": _param("f_max", default="required with hollow spheres",
+                            meaning="largest vacuum-core volume fraction of the hollow spheres (one value per "
+                                    "run; not with spheres; 0.8 is common practice, no source)"),
         }),
         Section(MIXTURE, "[mixture]", _sorted(mixture._MIXTURE_KEYS,
                                               ("fractions", "porosity", "a_min", "q", "a_max", "reference_band")), {

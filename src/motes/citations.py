@@ -323,7 +323,7 @@ def _band_references(bands: list[tuple[str, str, str]], vega: bool) -> list[Refe
             note = "cite the curves' original source"
         else:
             text = "; ".join(sources) or "no curve source recorded"
-            note = "an approximate or user curve: cite where its definition comes from"
+            note = "cite where its definition comes from"
         out.append(Reference(f"filter curves: {kind}({used})", text, note=note))
     if any("pyphot" in src for _, _, src in bands):
         out.append(Reference("filter curves and Vega spectrum (software)" if vega else "filter curves (software)",
@@ -394,7 +394,8 @@ def run_references(*, sequence: str | None = None, type_prior: str | None = None
                               "https://ui.adsabs.harvard.edu/abs/2013ApJS..208....9P"))
     elif sequence:
         cite = sequence_citation(sequence)
-        refs.append(Reference("dwarf sequence", cite or f"your sequence file {sequence}: cite its source"))
+        refs.append(Reference("dwarf sequence", cite or f"your sequence file {sequence}: the file names nothing "
+                                                        "to cite (no CITE section), cite its source"))
     if type_prior == "field":
         refs += _FIELD_TYPE_PRIOR
     if boundness_prior == "galaxy":

@@ -62,7 +62,7 @@ __all__ = [
     "convert_arguments",
 ]
 
-_ROLES = ("composition", "mixture", "geometry", "noise", "scale", "star", "material", "photometry")
+_ROLES = ("composition", "mixture", "grain", "geometry", "noise", "scale", "star", "material", "photometry")
 
 
 @dataclass(frozen=True)
@@ -73,9 +73,10 @@ class Parameter:
     ----------
     name : str
         As written in descriptions, stores and keyword arguments.
-    role : {"composition", "mixture", "geometry", "noise", "scale"}
+    role : {"composition", "mixture", "grain", "geometry", "noise", "scale"}
         ``mixture`` parameters are the per-mixture arguments of
-        ``DiskColourModel.flux_ratio`` and the grid axes, in that order.
+        ``DiskColourModel.flux_ratio`` and the grid axes, in that order;
+        ``grain`` ones describe the grain model of a run (one value per run).
     unit : astropy unit
         The internal unit (dimensionless for pure numbers).
     lo, hi : float
@@ -151,6 +152,10 @@ PARAMETERS: MappingProxyType = MappingProxyType({p.name: p for p in (
               "slope of the size distribution, dn/da ∝ a^-q", default=3.5),
     Parameter("a_max", "mixture", WAVELENGTH_UNIT, 0.0, _INF, True, True,
               "largest grain radius", default=1000.0),
+    # f_max: largest vacuum-core volume fraction of the hollow-sphere grains (Min, Hovenier & de Koter
+    # 2005, A&A 432, 909); f = 1 would be a grain of no material. One value per run ([model] f_max).
+    Parameter("f_max", "grain", _NONE, 0.0, 1.0, False, True,
+              "largest vacuum-core volume fraction of hollow-sphere grains ([model] grains)"),
     Parameter("angle", "geometry", u.deg, 0.0, 180.0, True, False,
               "scattering angle", default=90.0),
     Parameter("systematic", "noise", _NONE, 0.0, _INF, False, True,

@@ -179,7 +179,6 @@ def _cmd(text: str) -> tuple[str, str, str]:
 
 def _boundness_settings(args, target):
     """BoundnessSettings from --settings' [boundness] table, the flags and the host's coordinates."""
-    import math
     import tomllib
 
     from ..companion import BoundnessSettings
@@ -205,13 +204,7 @@ def _boundness_settings(args, target):
         doc["distance_limit_pc"] = args.distance_limit
     if args.galactic is not None:
         doc["galactic_l_deg"], doc["galactic_b_deg"] = args.galactic
-    elif "galactic_b_deg" not in doc and math.isfinite(target.host.ra_deg) and math.isfinite(target.host.dec_deg):
-        import astropy.units as u
-        from astropy.coordinates import SkyCoord
-
-        gal = SkyCoord(target.host.ra_deg * u.deg, target.host.dec_deg * u.deg, frame="icrs").galactic
-        doc["galactic_l_deg"], doc["galactic_b_deg"] = float(gal.l.deg), float(gal.b.deg)
-    return BoundnessSettings.from_mapping(doc, args.settings if args.settings else None)
+    return BoundnessSettings.from_mapping(doc, args.settings if args.settings else None, target)
 
 
 def _check_cmd_bands(args, result) -> None:
@@ -353,7 +346,11 @@ def _run(args) -> int:
             for bands in (args.cmd or [default_cmd_bands(result)]):
                 if bands is not None:
                     name = f"{classification_file_stem(result.target)}_cmd_{'-'.join(bands[:2])}_{bands[2]}.png"
-                    paths.append(plot_colour_magnitude(result, os.path.join(folder, name), bands=bands))
+                    from ..report.figure_files import figure_paths
+
+                    cmd_path = os.path.join(folder, name)
+                    plot_colour_magnitude(result, cmd_path, bands=bands, formats=figure_formats(args))
+                    paths += figure_paths(cmd_path, figure_formats(args))
     from ..report.html_page import write_classification_page
     from ..report.run_citations import classification_citations, format_citations
 

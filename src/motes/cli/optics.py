@@ -102,7 +102,7 @@ def _run(args) -> int:
 
         scattered = (result.bands, scattered_flux_ratio(thermal, result.optics.flux_ratio))
         written += write_thermal_outputs(thermal, folder, stem=path.stem, figures=not args.no_figures,
-                                         scattered=scattered)
+                                         scattered=scattered, provenance=result.provenance())
     print("")
     for w in written:
         print(f"wrote {w}")

@@ -100,6 +100,7 @@ __all__ = [
     "CONFIDENT_PROBABILITY",
     "DEGENERATE_TYPE_DIFFERENCE",
     "DISTANCE_PRIORS",
+    "LEFT_OUT_Z",
     "photometric_boundness",
     "with_boundness",
 ]
@@ -113,6 +114,9 @@ DISTANCE_PRIORS = ("auto", "galaxy", "uniform")
 _FIT_P = 1e-3
 #: Unobserved bands whose predictions differ by at least this much separate the readings [mag].
 _SEPARATING_MAG = 0.3
+#: A detected band left out of B contradicts a reading beyond this many sigma (common practice, no source:
+#: large because the prediction is the reading's best template alone, without its type uncertainty).
+LEFT_OUT_Z = 5.0
 
 
 _SETTING_QUANTITIES = {
@@ -216,11 +220,24 @@ class BoundnessSettings:
         return 30000.0 if self.prior_kind == "galaxy" else 1000.0
 
     @classmethod
-    def from_mapping(cls, doc: dict, path=None) -> "BoundnessSettings":
-        """From a ``[boundness]`` table; ``separation_arcsec`` and ``source_density_deg2`` are accepted too."""
+    def from_mapping(cls, doc: dict, path=None, target=None) -> "BoundnessSettings":
+        """From a ``[boundness]`` table; ``separation_arcsec`` and ``source_density_deg2`` are accepted too.
+
+        With ``target`` (a :class:`motes.photometry.Target`) whose ``[host]`` gives
+        ``ra_deg``/``dec_deg``, the Galactic coordinates are taken from them
+        when the table gives none (so that the Galactic distance prior is used).
+        """
         allowed = {f.name for f in fields(cls)} - {"galaxy"} | {"separation_arcsec", "source_density_deg2"}
         check_keys(doc, allowed, path=path, where="[boundness]", noun="setting")
         doc = dict(doc)
+        host = getattr(target, "host", None)
+        if ("galactic_b_deg" not in doc and "galactic_l_deg" not in doc and host is not None
+                and math.isfinite(getattr(host, "ra_deg", math.nan))
+                and math.isfinite(getattr(host, "dec_deg", math.nan))):
+            from astropy.coordinates import SkyCoord
+
+            gal = SkyCoord(host.ra_deg * u.deg, host.dec_deg * u.deg, frame="icrs").galactic
+            doc["galactic_l_deg"], doc["galactic_b_deg"] = float(gal.l.deg), float(gal.b.deg)
         try:
             for key, new_key, scale in (("separation_arcsec", "separation_mas", 1000.0),
                                         ("source_density_deg2", "source_density_arcsec2", 1.0 / 3600.0**2)):
@@ -235,6 +252,21 @@ class BoundnessSettings:
             raise InputError(exc.reason, path, "[boundness]") from None
         except (TypeError, ValueError) as exc:
             raise InputError(f"bad setting: {exc}", path, "[boundness]") from None
+
+    @classmethod
+    def from_toml(cls, path, target=None) -> "BoundnessSettings":
+        """The ``[boundness]`` table of a settings file (defaults when it has none); ``target`` as in
+        :meth:`from_mapping`."""
+        import tomllib
+        from pathlib import Path
+
+        try:
+            doc = tomllib.loads(Path(path).read_text(encoding="utf-8"))
+        except tomllib.TOMLDecodeError as exc:
+            raise InputError(f"malformed TOML: {exc}", path) from None
+        except (OSError, UnicodeDecodeError) as exc:
+            raise InputError(f"cannot read settings: {exc}", path) from None
+        return cls.from_mapping(doc.get("boundness", {}), path, target)
 
 
 @dataclass(frozen=True)
@@ -308,12 +340,19 @@ class BoundnessTest:
     degenerate : bool
         Both readings fit with types at least :data:`DEGENERATE_TYPE_DIFFERENCE` apart.
     separating_bands : tuple of (str, float, float)
-        (band, predicted magnitude bound, background), largest difference first.
+        (band, predicted magnitude bound, background), largest difference first; bands
+        not observed.
     bands : tuple of str
     notes, flags : tuple of str
     prior : str
         The distance prior, in words.
     settings : BoundnessSettings
+    left_out_checks : tuple of (str, float, float, float, float, float, float)
+        Detected sequence bands left out of B (some types have no value in them):
+        (band, observed magnitude, error, predicted bound, predicted background,
+        z bound, z background), predictions from each reading's most probable
+        template; a reading contradicted by more than :data:`LEFT_OUT_Z` sigma
+        (while the other is not) is flagged, the verdict is not changed.
     """
 
     bound: Reading
@@ -336,6 +375,7 @@ class BoundnessTest:
     flags: tuple
     prior: str
     settings: object = field(repr=False, default=None)
+    left_out_checks: tuple = ()
 
     @property
     def bayes_factor(self) -> float:
@@ -383,6 +423,9 @@ class BoundnessTest:
                        self.surface_density_source, "bands": list(self.bands),
                        "separating_bands": [f"{n}: {a:.2f} (bound) vs {c:.2f} (background)"
                                             for n, a, c in self.separating_bands],
+                       "left_out_checks": [f"{n}: observed {m:.2f} +- {e:.2f}, bound {pb:.2f} ({zb:+.1f} sigma), "
+                                           f"background {pg:.2f} ({zg:+.1f} sigma)"
+                                           for n, m, e, pb, pg, zb, zg in self.left_out_checks],
                        "notes": list(self.notes), "flags": list(self.flags)})
         return t
 
@@ -500,7 +543,8 @@ def photometric_boundness(photometry, settings: BoundnessSettings | None = None,
                          "from the shared bands)")
         else:
             notes.append(f"band(s) {', '.join(extra)} not used by the boundness test: the types that lack them "
-                         f"carry {lost:.0%} of the bound reading's probability")
+                         f"carry {lost:.0%} of the bound reading's probability, and evidences over different "
+                         "bands cannot be compared (each reading is checked against them instead)")
     unused = [obs.names[i] for i in range(len(obs.names)) if i not in set(cols.tolist())]
     if unused:
         notes.append(f"band(s) {', '.join(unused)} not used by the boundness test (no sequence value)"
@@ -601,8 +645,9 @@ def photometric_boundness(photometry, settings: BoundnessSettings | None = None,
             + "; ambiguous otherwise")
     degenerate = bool(bound.fits and background.fits
                       and abs(bound.type.median - background.type.median) >= DEGENERATE_TYPE_DIFFERENCE)
-    separating = _separating_bands(seq, obs, cols, mapping, cs, bound, background, off_b[ib],
-                                   float(off_g.reshape(n_t, d.size)[it, jd]), b_deg)
+    off_best_g = float(off_g.reshape(n_t, d.size)[it, jd])
+    separating = _separating_bands(seq, obs, cols, mapping, cs, bound, background, off_b[ib], off_best_g, b_deg)
+    left_out = _left_out_checks(seq, obs, cols, mapping, cs, bound, background, float(off_b[ib]), off_best_g)
     prior_text = (f"Galactic thin + thick disk + halo (Jurić et al. 2008), l = {l_deg:.1f}°, b = {b_deg:.1f}°, "
                   f"out to {limit:.4g} pc" if kind == "galaxy"
                   else f"uniform in volume out to {limit:.4g} pc (no Galactic coordinates)"
@@ -610,14 +655,28 @@ def photometric_boundness(photometry, settings: BoundnessSettings | None = None,
     notes.append(f"line-of-sight prior: {prior_text}; reddening {settings.av_per_kpc:g} mag/kpc in the plane, dust "
                  f"scale height {settings.dust_scale_height_pc:g} pc, at |b| = {abs(b_deg):.0f}°"
                  + (" (assumed: no coordinates)" if math.isnan(settings.galactic_b_deg) else "")
-                 + f"; the same {type_prior.describe()} on both readings")
+                 + f"; the classification's type prior ({_prior_label(type_prior)}) on both readings")
     if kind == "uniform":
         notes.append("with a uniform-in-volume prior B grows about as the cube of the distance limit (B for "
                      "half and twice the limit are printed)")
     flags = _flags(verdict, ln_b, p_bound, known, bound, background, degenerate, separating, thr)
+    flags.extend(_left_out_flags(left_out))
     return BoundnessTest(bound, background, ln_b, n_exp, sigma, sigma_source, count_band, count_mag, odds, p_bound,
                          verdict, rule, sensitivity, degenerate, tuple(separating), tuple(obs.names[i] for i in cols),
-                         tuple(notes), tuple(flags), prior_text, settings)
+                         tuple(notes), tuple(flags), prior_text, settings, tuple(left_out))
+
+
+def _left_out_flags(left_out) -> list[str]:
+    """A flag for each reading that a band left out of B contradicts (|z| > LEFT_OUT_Z) while the other does not."""
+    flags = []
+    for name, m, s, app_b, app_g, z_b, z_g in left_out:
+        for reading, z, z_other in (("background", z_g, z_b), ("bound", z_b, z_g)):
+            if math.isfinite(z) and abs(z) > LEFT_OUT_Z and not (math.isfinite(z_other) and abs(z_other) > LEFT_OUT_Z):
+                flags.append(f"photometric boundness: {name} ({m:.2f} ± {s:.2f}), left out of B because some types "
+                             f"have no value in it, contradicts the {reading} reading's best template "
+                             f"({(app_g if reading == 'background' else app_b):.2f}, {z:+.1f} sigma); the verdict "
+                             "above rests on the shared bands only")
+    return flags
 
 
 def _sf(chi2: float, dof: int) -> float:
@@ -652,30 +711,68 @@ def _counts(obs, cols, codes, absmag, k, pi_t, step, settings, kind, limit, l_de
             "missing, so it undercounts bright sources: give source_density for a paper)")
 
 
-def _separating_bands(seq, obs, cols, mapping, cs, bound, background, off_b, off_g, b_deg):
-    """Unobserved sequence bands in which the two best readings differ by >= _SEPARATING_MAG."""
+def _predicted(seq, name, cs, reading, offset, band=None):
+    """Apparent magnitude in sequence band ``name`` of a reading's most probable template (nan if none)."""
     from ..errors import BandError
     from ..photometry.bands import get_band
 
-    used = {mapping.get(obs.names[c], obs.names[c]) for c in cols}
+    m = float(seq.value(name, reading.best_type_code))
+    if not math.isfinite(m):
+        return math.nan
+    try:
+        kk = float(extinction_coefficients([band if band is not None else get_band(name)], cs.extinction_law,
+                                           cs.rv)[0])
+    except (FitError, BandError, InputError):
+        return math.nan
+    return m + 5 * math.log10(reading.best_distance / 10) + offset + reading.av * kk
+
+
+def _separating_bands(seq, obs, cols, mapping, cs, bound, background, off_b, off_g, b_deg):
+    """Unobserved sequence bands in which the two best readings differ by >= _SEPARATING_MAG."""
+    observed = {mapping.get(n, n) for n in obs.names}
     out = []
-    for name in SEQUENCE_BANDS:
-        if name in used:
+    for name in getattr(seq, "bands", SEQUENCE_BANDS):
+        if name in observed:
             continue
-        m_b = float(seq.value(name, bound.best_type_code))
-        m_g = float(seq.value(name, background.best_type_code))
-        if not (math.isfinite(m_b) and math.isfinite(m_g)):
-            continue
-        try:
-            kk = float(extinction_coefficients([get_band(name)], cs.extinction_law, cs.rv)[0])
-        except (FitError, BandError, InputError):
-            continue
-        app_b = m_b + 5 * math.log10(bound.best_distance / 10) + off_b + bound.av * kk
-        app_g = m_g + 5 * math.log10(background.best_distance / 10) + off_g + background.av * kk
-        if abs(app_b - app_g) >= _SEPARATING_MAG:
+        app_b = _predicted(seq, name, cs, bound, off_b)
+        app_g = _predicted(seq, name, cs, background, off_g)
+        if math.isfinite(app_b) and math.isfinite(app_g) and abs(app_b - app_g) >= _SEPARATING_MAG:
             out.append((name, app_b, app_g))
     out.sort(key=lambda x: -abs(x[1] - x[2]))
     return out
+
+
+def _left_out_checks(seq, obs, cols, mapping, cs, bound, background, off_b, off_g):
+    """Detected bands left out of B, against each reading's most probable template.
+
+    A band that some types have no value in cannot enter the Bayes factor (evidences over different
+    bands cannot be compared), but it can test each reading: (band, observed magnitude, its error,
+    predicted bound, predicted background, z bound, z background), z = (observed - predicted) /
+    sqrt(sigma^2 + template_scatter^2); nan where the reading's best template has no value.
+    """
+    in_b = set(int(c) for c in cols)
+    out = []
+    for i, name in enumerate(obs.names):
+        if i in in_b or not obs.detected[i]:
+            continue
+        seq_name = mapping.get(name, name)
+        if seq_name not in getattr(seq, "bands", SEQUENCE_BANDS):
+            continue
+        sigma = math.hypot(float(obs.sigma[i]), cs.template_scatter)
+        app_b = _predicted(seq, seq_name, cs, bound, off_b, obs.bands[i])
+        app_g = _predicted(seq, seq_name, cs, background, off_g, obs.bands[i])
+        if not (math.isfinite(app_b) or math.isfinite(app_g)):
+            continue
+        m = float(obs.mag[i])
+        out.append((name, m, float(obs.sigma[i]), app_b, app_g, (m - app_b) / sigma, (m - app_g) / sigma))
+    return out
+
+
+def _prior_label(type_prior) -> str:
+    """A short name for the type prior (its full description is one of the classification's notes)."""
+    if type_prior.name in ("field", "flat"):
+        return f"'{type_prior.name}'"
+    return "user knots"
 
 
 def _flags(verdict, ln_b, p_bound, known, bound, background, degenerate, separating, thr):

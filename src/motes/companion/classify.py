@@ -47,7 +47,7 @@ from scipy.special import logsumexp
 
 from ..errors import FitError, InputError
 from ..photometry.bands import canonical_band_name
-from ..tomlcheck import check_keys
+from ..tomlcheck import check_keys, check_tables
 from .band_mapping import mapping_pivot_warnings
 from .blackbody import BlackbodySet
 from .extinction import EXTINCTION_LAWS, av_prior_grid, extinction_coefficients
@@ -223,6 +223,11 @@ class ClassifySettings:
             if not hi > lo:
                 raise InputError(f"type_range must be increasing, got {self.type_range!r}")
             object.__setattr__(self, "type_range", (lo, hi))
+            # refused here too (not only against the sequence in classify) so that a settings file is named
+            codes = np.linspace(lo, hi, max(int(round((hi - lo) / 0.1)) + 1, 2))
+            if self.use_sequence and not np.any(self.type_prior.weights(codes) > 0):
+                raise InputError(f"type_prior ({self.type_prior.describe()}) gives zero weight to every type in "
+                                 f"type_range {type_label(lo)}-{type_label(hi)}: it excludes every template")
 
     @classmethod
     def from_mapping(cls, doc: dict, path=None) -> "ClassifySettings":
@@ -244,7 +249,13 @@ class ClassifySettings:
 
     @classmethod
     def from_toml(cls, path) -> "ClassifySettings":
-        """Read a ``[classify]`` table from a TOML file (the whole file if it has none)."""
+        """Read a ``[classify]`` table from a TOML file.
+
+        A file without one holds its settings at the top level; either way a
+        ``[boundness]`` table (read by
+        :meth:`motes.companion.BoundnessSettings.from_toml`) may sit beside
+        them, and a file holding only ``[boundness]`` gives the default settings.
+        """
         path = Path(path)
         try:
             doc = tomllib.loads(path.read_text(encoding="utf-8"))
@@ -252,7 +263,10 @@ class ClassifySettings:
             raise InputError(f"malformed TOML: {exc}", path) from None
         except (OSError, UnicodeDecodeError) as exc:
             raise InputError(f"cannot read settings: {exc}", path) from None
-        return cls.from_mapping(doc.get("classify", doc), path)
+        if "classify" in doc:
+            check_tables(doc, ("classify", "boundness"), path=path)
+            return cls.from_mapping(doc["classify"], path)
+        return cls.from_mapping({k: v for k, v in doc.items() if k != "boundness"}, path)
 
 
 @dataclass(frozen=True, eq=False)
@@ -451,7 +465,8 @@ def _span(grid: TemplateGrid, idx) -> str:
     return ", ".join(grid.labels[i] for i in idx[:3]) + (" ..." if len(idx) > 3 else "")
 
 
-def classify(photometry, settings: ClassifySettings | None = None, library=None) -> Classification:
+def classify(photometry, settings: ClassifySettings | None = None, library=None,
+             boundness=False) -> Classification:
     """Rank spectral types (and Teff) of a companion from its photometry.
 
     Parameters
@@ -461,6 +476,14 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
     settings : ClassifySettings, optional
     library : SpectralLibrary, optional
         A user library (:func:`motes.companion.read_library`).
+    boundness : bool, BoundnessSettings or dict, optional
+        Also run the photometric boundness test ("is it bound?",
+        :func:`motes.companion.boundness.photometric_boundness`), as
+        ``motes classify`` does: ``True`` with the default
+        :class:`~motes.companion.BoundnessSettings`, or those settings (a dict
+        is read as a ``[boundness]`` table). It needs the host's distance.
+        Default False (it takes a few seconds): the result's ``boundness`` is
+        then None and the printed report says how to run it.
 
     Returns
     -------
@@ -509,8 +532,8 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
                             "takes a flat prior (type_prior_modes)" if flat else ""))
         else:
             notes.append(settings.type_prior.describe())
-        notes.append(f"{sequence.name}: cite {sequence.citation}" if sequence.citation else
-                     f"{sequence.name} ({sequence.path}): the file names nothing to cite (no CITE section)")
+        # what to cite for the sequence (its CITE section, or a request to cite a file that has none) is
+        # listed once, by motes.report.run_citations.classification_citations, not repeated in the notes
     if library is not None:
         grids.append(library.grid(obs.bands, mapping))
     rankings = []
@@ -576,11 +599,27 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None)
     approx = [r.band.name for r in photometry.rows if r.band.approximate]
     if approx:
         notes.append(f"approximate band(s) (top-hat/Gaussian): {', '.join(approx)}")
-    return Classification(
+    result = Classification(
         target=getattr(photometry, "target", ""), modes=modes, rankings=tuple(rankings), estimate=headline,
         estimates=estimates, distance_check=check, blackbody_used=blackbody_used, flags=tuple(flags),
         notes=tuple(dict.fromkeys(notes)), caveats=CAVEATS, photometry=photometry, settings=settings,
     )
+    if boundness is not None and boundness is not False:
+        from .boundness import BoundnessSettings, with_boundness
+
+        if boundness is True:
+            boundness = BoundnessSettings()
+        elif isinstance(boundness, dict):
+            boundness = BoundnessSettings.from_mapping(boundness)
+        elif not isinstance(boundness, BoundnessSettings):
+            raise InputError(f"boundness must be True, False, a BoundnessSettings or a dict, got {boundness!r}",
+                             where="boundness")
+        if not math.isfinite(obs.mu):
+            raise InputError("the photometric boundness test needs the host's distance (parallax_mas or "
+                             "distance_pc in the target's [host]); leave boundness out without one",
+                             where="boundness")
+        result = with_boundness(result, boundness)
+    return result
 
 
 _MODE_WORDS = {"distance": "distance-known mode", "colours": "colours-only mode"}

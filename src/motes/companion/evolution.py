@@ -305,7 +305,9 @@ def mass_at_age(table: EvolutionTable, band: str, absolute_mag: float, absolute_
     notes = []
     if outside > 0.025:
         notes.append(f"{100 * outside:.1f}% of the draws fall outside the table (or are ambiguous): "
-                     "the interval is truncated there")
+                     "the interval is truncated there"
+                     + ("; the value printed (at the nominal age and magnitude) is outside the interval of the "
+                        "covered draws" if _outside_interval(draws, mass) else ""))
 
     def interval(name):
         vals = np.array([table.value(name, a, m) for a, m in draws])
@@ -318,6 +320,14 @@ def mass_at_age(table: EvolutionTable, band: str, absolute_mag: float, absolute_
                      table.value("teff_k", age_gyr, mass), interval("teff_k"),
                      table.value("log_l_lsun", age_gyr, mass), interval("log_l_lsun"),
                      n_draws, outside, table.path, tuple(notes))
+
+
+def _outside_interval(draws, mass: float) -> bool:
+    """Whether ``mass`` lies outside the 16th-84th percentiles of the covered draws' masses."""
+    if not draws:
+        return False
+    lo, hi = np.percentile([m for _, m in draws], [16, 84])
+    return not (lo <= mass <= hi)
 
 
 def masses_at_age(table: EvolutionTable, photometry, age_gyr: float, age_gyr_error: float,

@@ -62,6 +62,9 @@ _COLUMNS = ("spt", "teff", "log_l", "mass", "m_v", "v_rc", "v_ic", "m_g", "bp_rp
             "m_j", "j_h", "h_ks", "ks_w1", "w1_w2")
 #: Format 2 adds ``m_ks`` (absolute Ks as tabulated) after ``h_ks``; format 1 files still read.
 _COLUMNS_2 = _COLUMNS[:13] + ("m_ks",) + _COLUMNS[13:]
+#: After either column set a user's table may add absolute magnitudes in any other band, one column
+#: ``abs_<band id>`` each (e.g. ``abs_mko_lp`` for MKO L'), the band id one that motes knows.
+EXTRA_PREFIX = "abs_"
 
 
 def _parse_value(text: str) -> tuple[float, bool]:
@@ -107,6 +110,12 @@ class DwarfSequence:
     kind: str = "sequence"
     name: str = "mean dwarf sequence"
     _interp: dict = field(default_factory=dict, repr=False)
+    extra_bands: tuple = ()
+
+    @property
+    def bands(self) -> tuple[str, ...]:
+        """Band ids the sequence can tabulate: :data:`SEQUENCE_BANDS` and the file's ``abs_<band>`` columns."""
+        return SEQUENCE_BANDS + tuple(self.extra_bands)
 
     # ------------------------------------------------------------ lookups
     @property
@@ -169,7 +178,7 @@ class DwarfSequence:
         code = np.atleast_1d(np.asarray(code, dtype=float))
         out = np.full((code.size, len(band_names)), np.nan)
         for j, name in enumerate(band_names):
-            if name in self.columns and name in SEQUENCE_BANDS:
+            if name in self.columns and name in self.bands:
                 out[:, j] = self.value(name, code)
         return out
 
@@ -182,7 +191,7 @@ class DwarfSequence:
         ----------
         bands : sequence of Band
             Observed bands. A band is covered when its name is one of
-            :data:`SEQUENCE_BANDS` or when ``mapping`` maps its name to one.
+            :attr:`bands` or when ``mapping`` maps its name to one.
         mapping : dict of str to str, optional
             Explicit ``observed name -> sequence band name`` mappings.
         step : float
@@ -211,17 +220,17 @@ class DwarfSequence:
         for band in bands:
             target = mapping.get(band.name, band.name)
             if target != band.name:
-                if target not in SEQUENCE_BANDS:
+                if target not in self.bands:
                     import difflib
 
-                    close = difflib.get_close_matches(target, SEQUENCE_BANDS, n=2, cutoff=0.6)
+                    close = difflib.get_close_matches(target, self.bands, n=2, cutoff=0.6)
                     hint = f" (did you mean {' or '.join(repr(c) for c in close)}?)" if close else ""
                     raise InputError(
                         f"cannot map {band.name!r} to {target!r}{hint}: the dwarf sequence tabulates only "
-                        f"{', '.join(SEQUENCE_BANDS)}"
+                        f"{', '.join(self.bands)}"
                     )
                 notes.append(f"{band.name} compared with the sequence's {target} (explicit user mapping)")
-            names.append(target if target in SEQUENCE_BANDS else "")
+            names.append(target if target in self.bands else "")
             used.append(band.name)
         mags = np.full((codes.size, len(bands)), np.nan)
         for j, name in enumerate(names):
@@ -278,9 +287,13 @@ def read_dwarf_sequence(text: str, path: str = SEQUENCE_FILE) -> DwarfSequence:
         parts = stripped.split()
         if names is None:
             names = parts
-            if tuple(names) not in (_COLUMNS, _COLUMNS_2):
+            fixed = next((c for c in (_COLUMNS_2, _COLUMNS) if tuple(names[:len(c)]) == c), None)
+            if fixed is None or not all(n.startswith(EXTRA_PREFIX) for n in names[len(fixed):]):
                 raise InputError(f"expected the columns {' '.join(_COLUMNS_2)} (format 2) or "
-                                 f"{' '.join(_COLUMNS)} (format 1)", path, f"line {number}")
+                                 f"{' '.join(_COLUMNS)} (format 1), then optionally columns "
+                                 f"{EXTRA_PREFIX}<band id> (absolute magnitudes in other bands)", path,
+                                 f"line {number}")
+            extra = _extra_bands(names[len(fixed):], path, number)
             continue
         if len(parts) != len(names):
             raise InputError(f"expected {len(names)} columns, found {len(parts)}", path, f"line {number}")
@@ -299,7 +312,30 @@ def read_dwarf_sequence(text: str, path: str = SEQUENCE_FILE) -> DwarfSequence:
     if "m_ks" not in raw:
         raw["m_ks"], unc["m_ks"] = np.full(len(rows), np.nan), np.zeros(len(rows), bool)
     cols, flags = _derive(raw, unc)
-    return DwarfSequence(labels, codes, cols, flags, "\n".join(header), path, _citation(header))
+    for name in extra:
+        cols[name], flags[name] = raw[EXTRA_PREFIX + name], unc[EXTRA_PREFIX + name]
+    return DwarfSequence(labels, codes, cols, flags, "\n".join(header), path, _citation(header),
+                         extra_bands=tuple(extra))
+
+
+def _extra_bands(columns, path, number) -> list[str]:
+    """Band ids of the ``abs_<band id>`` columns, each a band motes knows and none a standard column's."""
+    from ..photometry.bands import get_band
+
+    out = []
+    for column in columns:
+        name = column[len(EXTRA_PREFIX):]
+        if name in SEQUENCE_BANDS:
+            raise InputError(f"column {column!r}: {name} is derived from the standard columns; give it there",
+                             path, f"line {number}")
+        if name in out:
+            raise InputError(f"column {column!r} appears twice", path, f"line {number}")
+        try:
+            get_band(name)
+        except InputError as exc:
+            raise InputError(f"column {column!r}: {exc.reason}", path, f"line {number}") from None
+        out.append(name)
+    return out
 
 
 def _citation(header: list[str]) -> str:
@@ -326,7 +362,9 @@ def read_dwarf_sequence_file(path) -> DwarfSequence:
         spectral type in increasing order (``-`` = missing, a trailing ``:``
         = uncertain). Either column set is accepted:
         ``spt teff log_l mass m_v v_rc v_ic m_g bp_rp g_rp m_j j_h h_ks m_ks ks_w1 w1_w2``
-        or the same without ``m_ks``.
+        or the same without ``m_ks``, followed optionally by absolute magnitudes
+        in other bands, one column ``abs_<band id>`` each (``abs_mko_lp`` for
+        MKO L′, ``abs_mko_mp`` for M′; the id must be a band motes knows).
 
     Returns
     -------

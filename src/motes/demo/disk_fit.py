@@ -50,6 +50,14 @@ def run(folder: Path) -> None:
     row = result.verdict_table[list(result.verdict_table["material"]).index("iron")]
     print(f"  iron fraction in {row['with_model']}: 95% upper limit {row['fraction_upper95']:.3f}")
     print("  (rule: 'needed' if ln B - 2 sigma >= 3; 'not needed' if ln B + 2 sigma <= -1)")
+    from ..dust.fit.evidence import EVIDENCE_VS_PROFILE_NOTE, best_fit_contrasts
+
+    contrasts = best_fit_contrasts(result.verdicts, result.models)
+    if contrasts:
+        print("Best fit vs evidence (ln B = Delta ln L_max + Delta ln Occam factor):")
+        for c in contrasts:
+            print("  " + c.sentence())
+        print("  " + EVIDENCE_VS_PROFILE_NOTE)
     print("Caveat: Mie spheres; verdicts depend on the candidate materials and priors; "
           "opaque carbon-rich grains can hide ice.")
     print("Files:")

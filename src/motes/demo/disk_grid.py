@@ -59,6 +59,8 @@ def run(folder: Path) -> None:
     print("Per material (best chi2 over everything else, against its fraction):")
     for line in format_grid_verdicts(summary):
         print("  " + line)
+    for line in _against_the_fit(summary, folder / "disk_fit_run"):
+        print("  " + line)
     for note in summary.notes:
         print(f"Note: {note}")
     out = Path(result.store) / "summary"
@@ -66,3 +68,54 @@ def run(folder: Path) -> None:
     print("Files:")
     for p in [Path(result.store) / "manifest.json", *files]:
         print(f"  {p}")
+
+
+def _against_the_fit(summary, fit_dir: Path) -> list[str]:
+    """Lines for materials on which this grid's profile and the demo fit's verdict disagree.
+
+    Only when the demo's fit ran in the same folder and judged the same material: the grid
+    calls leaving it out "disfavoured" (Delta chi2 > ABSENCE_DELTA_CHI2) while the fit does
+    not call it "needed", or the other way round.
+    """
+    import json
+
+    import numpy as np
+    from astropy.table import Table
+
+    from ..dust.grid.summary import ABSENCE_DELTA_CHI2
+
+    path = fit_dir / "verdicts.ecsv"
+    if not path.is_file():
+        return []
+    try:
+        verdicts = Table.read(path, format="ascii.ecsv")
+    except (OSError, ValueError):
+        return []
+
+    def best_chi2(model):
+        for candidate in fit_dir.glob("models/*/result.json"):
+            try:
+                info = json.loads(candidate.read_text())
+            except (OSError, ValueError):
+                continue
+            if info.get("name") == model:
+                return float(info.get("best_chi2", np.nan))
+        return np.nan
+
+    prof = summary.fraction_profiles
+    lines = []
+    for row in verdicts:
+        name, verdict = str(row["material"]), str(row["verdict"])
+        rows = prof[prof["material"] == name]
+        if verdict == "not tested" or not len(rows) or float(rows["fraction"][0]) != 0.0:
+            continue
+        cost = float(rows["delta_chi2"][0])
+        disfavoured = cost > ABSENCE_DELTA_CHI2
+        if disfavoured == (verdict == "needed"):
+            continue                                   # the two agree
+        fit_cost = best_chi2(str(row["without_model"])) - best_chi2(str(row["with_model"]))
+        lines.append(f"{name}: here leaving it out costs Δχ² = {cost:.1f}, but the fit above calls it "
+                     f"'{verdict}' (ln B = {float(row['ln_b']):+.2f}); in the fit leaving it out costs "
+                     f"Δχ² = {fit_cost:.1f} (best sampled points, q, a_min and porosity free), and ln B also "
+                     "charges the prior volume of its fraction (see the note on profiles and evidence)")
+    return lines

@@ -11,7 +11,7 @@ Typical use::
 
 from __future__ import annotations
 
-from .band_names import MKO_HALF_POWER_UM, RENAMED, BandEntry, band_entries, band_entry
+from .band_names import MKO_HALF_POWER_UM, RENAMED, BandEntry, band_entries, band_entry, display_name
 from .band_search import IndexedBand, band_index, find_bands, search_bands
 from .bands import (
     COUNTING_MODES,
@@ -76,6 +76,7 @@ __all__ = [
     "RENAMED",
     "band_entries",
     "band_entry",
+    "display_name",
     "IndexedBand",
     "band_index",
     "find_bands",

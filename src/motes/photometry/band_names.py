@@ -35,7 +35,7 @@ import functools
 import re
 from dataclasses import dataclass
 
-__all__ = ["BandEntry", "band_entries", "band_entry", "entries_for_keys", "library_keys", "RENAMED",
+__all__ = ["BandEntry", "band_entries", "band_entry", "display_name", "entries_for_keys", "library_keys", "RENAMED",
            "MKO_HALF_POWER_UM"]
 
 _COLOUR_CORRECTION = (
@@ -242,3 +242,47 @@ def entries_for_keys(keys) -> dict[str, BandEntry]:
 def band_entry(name: str) -> BandEntry | None:
     """The entry of a standard identifier (case-insensitive), or None."""
     return band_entries().get(name.strip().lower())
+
+
+#: How facilities and instruments are written in figure labels (anything not listed: upper case).
+_DISPLAY_FACILITY = {"bessell": "Bessell", "cousins": "Cousins", "gaia": "Gaia", "galex": "GALEX",
+                     "herschel": "Herschel", "johnson": "Johnson", "kepler": "Kepler", "panstarrs": "Pan-STARRS",
+                     "skymapper": "SkyMapper", "spitzer": "Spitzer", "stromgren": "Strömgren", "tycho": "Tycho"}
+_DISPLAY_INSTRUMENT = {"nircam": "NIRCam", "wircam": "WIRCam", "megaprime": "MegaPrime", "dr2rev": "DR2 rev.",
+                       "dr2weiler": "DR2 Weiler", "maw": "MAW"}
+#: Systems whose filters are written in lower case (SDSS-like g, r, i, z).
+_LOWER_CASE_BANDS = {"sdss", "panstarrs", "skymapper", "ztf", "stromgren"}
+_DISPLAY_BAND = {"lp": "L′", "mp": "M′", "bpbright": "BP bright", "bpfaint": "BP faint", "kp": "Kp"}
+
+
+def display_name(name: str) -> str:
+    """How a band is written in figures: ``"2mass_ks"`` -> ``"2MASS Ks"``, ``"mko_lp"`` -> ``"MKO L′"``.
+
+    The identifier is read as ``facility[-instrument]_band`` (the scheme of this
+    module); a name that is not a standard identifier (a user band) is returned
+    unchanged.
+
+    Examples
+    --------
+    >>> print(display_name("2mass_ks"), "|", display_name("jwst-nircam_f444w"), "|",
+    ...       display_name("spitzer-irac_3.6"), "|", display_name("NB3p1"))
+    2MASS Ks | JWST NIRCam F444W | Spitzer IRAC 3.6 µm | NB3p1
+    """
+    if band_entry(name) is None:
+        return name
+    head, _, band = name.strip().lower().partition("_")
+    facility, *instruments = head.split("-")
+    words = [_DISPLAY_FACILITY.get(facility, facility.upper())]
+    words += [_DISPLAY_INSTRUMENT.get(i, i.upper()) for i in instruments]
+    wave = re.fullmatch(r"([0-9.]+)(ext)?", band)
+    if wave:
+        words.append(f"{wave.group(1)} µm" + (" (extended)" if wave.group(2) else ""))
+    elif band in _DISPLAY_BAND:
+        words.append(_DISPLAY_BAND[band])
+    elif facility in _LOWER_CASE_BANDS:
+        words.append(band)
+    elif len(band) <= 2 and band[:1].isalpha() and not band[1:].isdigit():
+        words.append(band.capitalize() if len(band) == 2 and band not in ("bp", "rp") else band.upper())
+    else:
+        words.append(band.upper())
+    return " ".join(words)

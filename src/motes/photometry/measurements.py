@@ -400,17 +400,15 @@ def calibrate(target: Target) -> CalibratedPhotometry:
     rows.sort(key=lambda r: r.band.pivot_wavelength)
     if any(r.host_synthesised for r in rows):
         notes.append(
-            "some host magnitudes are synthesised from a spectrum model (flagged per row), with a "
-            f"{target.settings.synthesis_systematic_mag:.2f} mag systematic: a blackbody lacks the molecular "
-            "bands of cool stars"
+            "host magnitudes flagged S are synthesised from a spectrum model, with the systematic given in "
+            "their row's note: a blackbody lacks the molecular bands of cool stars"
         )
         if target.host.spectrum is None and target.host.teff < 4000:
             notes.append(
                 f"WARNING: host Teff {target.host.teff:.0f} K: blackbody colours of M dwarfs can be off by "
                 "~0.2 mag; give a model spectrum or raise [settings] synthesis_systematic_mag"
             )
-    if any(r.band.approximate for r in rows):
-        notes.append("approximate bands (top-hat/Gaussian from a centre and width) are flagged per row")
+    # approximate bands: flagged per row (flag A and the row's note give the definition), not noted again here
     cc = sorted({r.band.system for r in rows if r.band.system in ("WISE", "Spitzer/IRAC")})
     if cc:
         notes.append(f"{' and '.join(cc)} fluxes assume a reference spectrum: colour corrections may be needed")

@@ -17,7 +17,7 @@ import re
 
 import numpy as np
 
-from .figure_style import DATA_COLOUR, new_figure, series_style
+from .figure_style import DATA_COLOUR, figure_band_name, new_figure, series_style
 from .label_placement import curve_boxes, marker_boxes, place_labels
 
 __all__ = ["draw_colours", "scattering_angles_text"]
@@ -121,6 +121,6 @@ def draw_colours(result, n_models: int = 3, curves=None, truth_values=None):
         ax.set_ylim(ylo / 1.25, yhi * 1.1)
     # band names last, on the final layout, clear of every point and bar
     obstacles = marker_boxes(ax, list(ax.lines) + list(ax.collections)) + curve_boxes(ax, ax.lines)
-    labels = list(getattr(obs, "row_labels", [b.name for b in obs.bands]))   # "(polarised)" rows
+    labels = [figure_band_name(n) for n in getattr(obs, "row_labels", [b.name for b in obs.bands])]   # "(polarised)"
     place_labels(ax, list(zip(lam, value)), labels, obstacles=obstacles, fontsize=6)
     return fig

@@ -210,6 +210,7 @@ def plot_colour_magnitude(result: Classification, path, bands=None, formats=None
     ax = fig.subplots()
     colour_seq, mag_seq = (m1 - m2)[ok], my[ok]
     ax.plot(colour_seq, mag_seq, "-", color="0.55", lw=1.0, zorder=1, label=f"{seq.name}")
+    type_anchors, type_texts = [], []     # labelled after the layout is final, clear of the markers
     for c in np.arange(math.ceil(codes[ok][0]), codes[ok][-1] + 1e-9, 1.0):
         if c % 5:
             continue
@@ -217,8 +218,8 @@ def plot_colour_magnitude(result: Classification, path, bands=None, formats=None
         if not ok[i]:
             continue
         ax.plot(m1[i] - m2[i], my[i], "o", color="0.35", ms=2.5, zorder=2)
-        ax.annotate(type_label(c, 0), (m1[i] - m2[i], my[i]), textcoords="offset points", xytext=(4, -2),
-                    fontsize=6.5, color="0.3")
+        type_anchors.append((m1[i] - m2[i], my[i]))
+        type_texts.append(type_label(c, 0))
     a, b_, y = picked
     colour = a.apparent_mag - b_.apparent_mag
     colour_err = math.hypot(a.apparent_mag_error, b_.apparent_mag_error)
@@ -258,4 +259,9 @@ def plot_colour_magnitude(result: Classification, path, bands=None, formats=None
         title += f": {test.verdict} (B = {test.bayes_factor:.3g})"
     ax.set_title(title)
     fig.tight_layout()
+    # type labels beside their dots, clear of the companion's marker and error bars and of each other
+    from .label_placement import marker_boxes, place_labels
+
+    obstacles = marker_boxes(ax, list(ax.lines) + list(ax.collections))
+    place_labels(ax, type_anchors, type_texts, obstacles=obstacles, fontsize=6.5)
     return save_figure(fig, path, formats=formats)

@@ -22,7 +22,7 @@ import numpy as np
 
 from ..companion.results import Classification
 from ..errors import BandError
-from .figure_style import DATA_COLOUR, new_figure, series_style
+from .figure_style import DATA_COLOUR, figure_band_name, new_figure, series_style
 from .label_placement import curve_boxes, marker_boxes, place_labels
 
 __all__ = ["draw_companion_sed"]
@@ -149,8 +149,10 @@ def draw_companion_sed(result: Classification, n_best: int = 3):
         target = zero_points[ref.name] * 10 ** (-0.4 * bb.grid["model"][i][0])
         scale = target / float(ref.flux_lambda_to_fnu(mean))
         curve = 1e3 * scale * flam_to_fnu(scale_geo * blackbody_flux_lambda(wl, teff), wl)
-        ax.plot(wl, curve, ls="--", color="0.45", lw=0.9, zorder=1,
-                label=f"best blackbody {teff:.0f} K ({_MODE_NAMES[bb.mode]})")
+        ax.plot(wl, curve, ls="--", color="0.45", lw=0.9, zorder=1)
+        # one legend entry for the curve and its grey circles in the residual panel
+        ax.plot([], [], ls="--", marker="o", color="0.45", lw=0.9, ms=3.5,
+                label=f"best blackbody {teff:.0f} K ({_MODE_NAMES[bb.mode]});\ncircles below: data / blackbody")
         bb_model = {b: 1e3 * zero_points[b] * 10 ** (-0.4 * m) for b, m in zip(bb.bands, bb.grid["model"][i])}
         residuals.append(("blackbody", {"color": "0.45", "marker": "o", "linestyle": "--"}, bb_model))
     if predicted_any:
@@ -180,7 +182,7 @@ def draw_companion_sed(result: Classification, n_best: int = 3):
     no_value = [b for b in missing if not predicted_any]
     if no_value:
         centre = math.exp(np.mean([math.log(pivots[b]) for b in no_value]))
-        res_ax.annotate(f"{', '.join(no_value)}:\nno template value", (centre, 0.97),
+        res_ax.annotate(f"{', '.join(figure_band_name(b) for b in no_value)}:\nno template value", (centre, 0.97),
                         xycoords=("data", "axes fraction"), ha="center", va="top", fontsize=6, color="0.3")
     res_ax.set_ylabel("data / template")
     lo, hi = min(spread), max(spread)
@@ -217,5 +219,6 @@ def draw_companion_sed(result: Classification, n_best: int = 3):
     obstacles_all_curves = curve_boxes(ax, [c for c in ax.lines if c not in data_artists])
     obstacles_all = obstacles + marker_boxes(ax, template_boxes) + obstacles_all_curves
     anchors = [(pivots[r.band.name], measured[r.band.name]) for r in rows]
-    labels = place_labels(ax, anchors, [r.band.name for r in rows], obstacles=obstacles_all, fontsize=6.5)
+    labels = place_labels(ax, anchors, [figure_band_name(r.band.name) for r in rows], obstacles=obstacles_all,
+                          fontsize=6.5)
     return fig, labels, obstacles

@@ -130,6 +130,9 @@ def format_classification(result: Classification, top: int = 8) -> str:
     if getattr(result, "boundness", None) is not None:
         lines.append("")
         lines.extend(format_boundness(result.boundness).splitlines())
+    elif phot is not None and math.isfinite(phot.distance_modulus):
+        lines.append("is it bound? (photometry): not run (motes classify runs it unless --no-boundness; "
+                     "from Python: classify(..., boundness=True) or with_boundness(result))")
     if result.flags:
         lines.append("")
         lines.append("FLAGS")
@@ -177,6 +180,10 @@ def write_classification(result: Classification, folder, csv: bool = False) -> l
         raise InputError(f"cannot create output folder: {exc}", folder) from None
     stem = classification_file_stem(result.target)
     table = result.to_table()
+    from .run_citations import classification_citations
+
+    # what to cite for this run, as printed under "What to cite for this run:" (one line per reference)
+    table.meta["cite"] = [ref.line() for ref in classification_citations(result)]
     plans = [(folder / f"{stem}.ecsv", "ascii.ecsv", table, {}),
              (folder / f"{stem}_estimates.ecsv", "ascii.ecsv", result.estimates_table(), {})]
     if getattr(result, "boundness", None) is not None:
@@ -227,7 +234,9 @@ def format_boundness(test) -> str:
                      f"source(s) expected with {test.count_band} <= {test.count_magnitude:.2f} within "
                      f"{test.settings.separation_mas / 1000:.3g}\" (Sigma = {test.surface_density * 3600**2:.3g} "
                      f"per deg², {test.surface_density_source})")
-        lines.append(f"  P(bound)      : {test.p_bound:.4g} = B O / (1 + B O)")
+        p_text = f"{test.p_bound:.4g}" if test.p_bound < 0.99995 else f"1 - {1 - test.p_bound:.2g}" \
+            if test.p_bound < 1.0 else "1 (to double precision)"
+        lines.append(f"  P(bound)      : {p_text} = B O / (1 + B O)")
     else:
         lines.append("  P(bound)      : not computed (no separation given: --separation, or separation_arcsec in "
                      "[boundness]); B alone is the photometric evidence")
@@ -241,12 +250,22 @@ def format_boundness(test) -> str:
         lines.append(f"  both readings fit: {type_label(test.bound.type.median)} at the host or "
                      f"{type_label(test.background.type.median)} at {test.background.distance.median:.3g} pc")
     if test.separating_bands:
-        lines.append("  bands that would separate the readings (predicted magnitude, bound vs background): "
-                     + "; ".join(f"{_BAND_NAMES.get(n, n)} {a:.1f} vs {c:.1f}" for n, a, c in test.separating_bands[:4]))
-    elif test.degenerate:
+        lines.append("  bands that would separate the readings (predicted Vega magnitude, bound vs background): "
+                     + "; ".join(f"{_BAND_NAMES.get(n, n)} {a:.1f} vs {c:.1f} mag"
+                                 for n, a, c in test.separating_bands[:4]))
+    elif test.degenerate and not getattr(test, "left_out_checks", ()):
         lines.append("  no band of the sequence is tabulated for both readings' types: a visible band, W1/L′ "
                      "(3.4-3.8 µm) or a methane band (1.6 or 2.2 µm) would separate them (compare with a "
                      "spectral library, --library)")
+    checks = getattr(test, "left_out_checks", ())
+    if checks:
+        def one(pred, z):
+            return f"{pred:.2f} ({z:+.1f} sigma)" if math.isfinite(pred) else "no value"
+
+        lines.append("  left out of B (some types have no value there), checked against each reading's best "
+                     "template (observed; bound; background):")
+        lines.extend(f"    {_BAND_NAMES.get(n, n)}: {m:.2f} ± {s:.2f}; {one(pb, zb)}; {one(pg, zg)}"
+                     for n, m, s, pb, pg, zb, zg in checks)
     lines.extend(f"  note: {n}" for n in test.notes)
     return "\n".join(lines)
 

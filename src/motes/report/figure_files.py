@@ -7,7 +7,28 @@ from pathlib import Path
 from ..errors import InputError
 from ..files import atomic_writes
 
-__all__ = ["save_figure", "figure_paths", "check_formats"]
+__all__ = ["save_figure", "figure_paths", "check_formats", "page_preview"]
+
+#: PNG copies, kept in memory only, of figures saved in vector formats alone (``--figure-formats pdf``),
+#: so that the run's report page can still show them; keyed by the resolved path of the vector file.
+#: Each save replaces its entry; nothing here is ever written to disk.
+_PAGE_PREVIEWS: dict[Path, bytes] = {}
+
+
+def page_preview(path) -> bytes | None:
+    """The in-memory PNG copy of a figure saved only as PDF by :func:`save_figure` in this process.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        A PDF file :func:`save_figure` wrote.
+
+    Returns
+    -------
+    bytes or None
+        PNG data, or None when the figure was saved with a PNG or SVG file (or not by this process).
+    """
+    return _PAGE_PREVIEWS.get(Path(path).resolve())
 
 
 def figure_paths(path, formats=None) -> list[Path]:
@@ -71,6 +92,8 @@ def save_figure(fig, path, dpi: int | None = None, formats=None) -> Path:
     -------
     Path
         The first file written (see :func:`figure_paths` for all of them).
+        When no PNG or SVG file is among them, a PNG copy is also kept in
+        memory (not on disk) for the run's report page (:func:`page_preview`).
 
     Raises
     ------
@@ -91,4 +114,14 @@ def save_figure(fig, path, dpi: int | None = None, formats=None) -> Path:
                 fig.savefig(tmp, dpi=dpi or PNG_DPI, format=final.suffix.lstrip(".") or "png")
     except OSError as exc:
         raise InputError(f"cannot write figure: {exc}", paths[0]) from None
+    vector_only = not any(p.suffix.lower() in (".png", ".svg") for p in paths)
+    for p in paths:
+        _PAGE_PREVIEWS.pop(p.resolve(), None)
+    if vector_only:
+        import io
+
+        buffer = io.BytesIO()
+        fig.savefig(buffer, dpi=dpi or PNG_DPI, format="png")
+        for p in paths:
+            _PAGE_PREVIEWS[p.resolve()] = buffer.getvalue()
     return paths[0]

@@ -44,6 +44,7 @@ import functools
 import matplotlib
 
 __all__ = [
+    "figure_band_name",
     "ONE_COLUMN_IN",
     "TWO_COLUMN_IN",
     "HOUSE_RC",
@@ -172,3 +173,18 @@ def series_style(i: int) -> dict:
 def colour_map():
     """The house colour map (``cividis``) as a :class:`matplotlib.colors.Colormap`."""
     return matplotlib.colormaps[HOUSE_COLOUR_MAP]
+
+
+def figure_band_name(name: str) -> str:
+    """A band as every figure writes it: ``"2mass_ks"`` -> ``"2MASS Ks"`` (user bands unchanged).
+
+    A polarised-intensity row (``"2mass_h_polarised"`` or ``"2mass_h (polarised)"``)
+    keeps its mark: ``"2MASS H (polarised)"``. See
+    :func:`motes.photometry.band_names.display_name`.
+    """
+    from ..photometry.band_names import display_name
+
+    for suffix in ("_polarised", " (polarised)"):
+        if name.endswith(suffix):
+            return display_name(name[: -len(suffix)]) + " (polarised)"
+    return display_name(name)

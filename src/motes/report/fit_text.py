@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..dust.fit.evidence import VERDICT_RULE, parameter_unit
+from ..dust.fit.evidence import EVIDENCE_VS_PROFILE_NOTE, VERDICT_RULE, best_fit_contrasts, parameter_unit
 from ..dust.fit.results import FitResult
 from ..files import write_text_atomic
 
@@ -57,6 +57,12 @@ def format_fit_report(result: FitResult, references=None) -> str:
             text += f"; its fraction in {v.with_model}: 95% upper limit {row['fraction_upper95']:.3f}"
         lines.append(text)
     lines.append("  " + VERDICT_RULE)
+    contrasts = best_fit_contrasts(result.verdicts, result.models)
+    if contrasts:       # only for materials the verdicts judged: what a chi-square profile would say of them
+        lines += ["", "Verdicts as best fit plus prior volume (ln B = Delta ln L_max + Delta ln Occam factor; "
+                  "best fits from the sampled points):"]
+        lines += [f"  {c.sentence()}" for c in contrasts]
+        lines.append("  " + EVIDENCE_VS_PROFILE_NOTE)
     for m in result.models[: min(2, len(result.models))]:
         lines += ["", f"Model {m.name}: posterior median, 68% and 95% intervals"]
         for row in m.summary:

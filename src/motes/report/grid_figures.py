@@ -13,7 +13,8 @@ from pathlib import Path
 import numpy as np
 
 from .figure_files import figure_paths, save_figure
-from .figure_style import DATA_COLOUR, SERIES_COLOURS, TRUTH_COLOUR, colour_map, house_style, new_figure, series_style
+from .figure_style import (DATA_COLOUR, SERIES_COLOURS, TRUTH_COLOUR, colour_map, figure_band_name, house_style,
+                           new_figure, series_style)
 from .label_placement import marker_boxes, place_labels
 
 __all__ = ["plot_fraction_profiles", "plot_axis_profiles", "plot_best_models", "write_grid_figures"]
@@ -226,7 +227,7 @@ def plot_best_models(summary, path, n_models: int = 5, formats=None, truth=None)
     ax.set_title("Best grid mixtures (Mie spheres) against the data")
     fig.subplots_adjust(left=0.09, right=0.55, top=0.9, bottom=0.14)
     obstacles = marker_boxes(ax, list(ax.lines) + list(ax.collections))
-    place_labels(ax, list(zip(wave, value)), list(summary.bands), obstacles=obstacles, fontsize=6)
+    place_labels(ax, list(zip(wave, value)), [figure_band_name(b) for b in summary.bands], obstacles=obstacles, fontsize=6)
     return save_figure(fig, path, formats=formats)
 
 

@@ -28,7 +28,11 @@ def format_grid_summary(summary: GridSummary, top: int = 10) -> list[str]:
     """
     lines = [f"store {summary.store}: {summary.n_rows:,} of {summary.n_points:,} points; "
              f"chi2_min = {summary.chi2_min:.3f} for {summary.dof} degrees of freedom",
+             f"bands: {', '.join(summary.band_labels)}",
              "best mixtures:"]
+    grains = (summary.provenance or {}).get("grains")
+    if grains:
+        lines.insert(1, f"grains: {grains}")
     best = summary.best
     for row in best[:min(len(best), top)]:
         mix = ", ".join(f"{m} {row['f_' + m]:.3g}" for m in summary.materials)

@@ -3,7 +3,8 @@
 The page holds everything a reader of the run needs, in one file that opens
 offline in any browser: the inputs, the verdicts with the rule that made them,
 the tables, the figures (the PNG files the run wrote, embedded as base64
-``data:`` addresses; SVG files inline), the caveats and notes, the complete
+``data:`` addresses; SVG files inline; a figure saved as PDF alone by its PNG
+copy kept in memory, never written), the caveats and notes, the complete
 text the command printed, the files written, what to cite and the versions of
 motes and its libraries. No script, font, style sheet or image is fetched from
 anywhere: the styling is one ``<style>`` block of this module's own.
@@ -31,6 +32,7 @@ from typing import Iterable, Sequence
 from ..citations import Reference, software_versions
 from ..errors import InputError
 from ..files import write_text_atomic
+from .figure_files import page_preview
 
 __all__ = [
     "SECTION_IDS",
@@ -177,11 +179,20 @@ _SVG_PROLOGUE = re.compile(r"^\s*(<\?xml[^>]*\?>\s*)?(<!DOCTYPE[^>]*>\s*)?", re.
 
 def _figure_html(path: Path) -> str:
     path = Path(path)
+    caption = f"<figcaption>{_e(path.name)}</figcaption>"
+    if path.suffix.lower() == ".pdf":      # saved as PDF alone: the PNG copy kept in memory by save_figure
+        data = page_preview(path)
+        if data is None:   # _figures leaves such a PDF out
+            raise InputError("the report page shows PNG or SVG figures, and this PDF has no PNG copy in "
+                             "memory (it was not saved by this run)", path)
+        caption = f"<figcaption>{_e(path.name)} (shown here as PNG; the file is PDF)</figcaption>"
+        encoded = base64.b64encode(data).decode("ascii")
+        return (f'<figure><img src="data:image/png;base64,{encoded}" alt="{_e(path.stem.replace("_", " "))}">'
+                f"{caption}</figure>")
     try:
         data = path.read_bytes()
     except OSError as exc:
         raise InputError(f"cannot read the figure for the report page: {exc}", path) from None
-    caption = f"<figcaption>{_e(path.name)}</figcaption>"
     if path.suffix.lower() == ".svg":
         return f"<figure>{_SVG_PROLOGUE.sub('', data.decode('utf-8'))}{caption}</figure>"
     encoded = base64.b64encode(data).decode("ascii")
@@ -228,7 +239,9 @@ def render_page(*, title: str, inputs, results_html: str, tables: Sequence[PageT
         Ready-made HTML of the results section (verdicts, estimates).
     tables : sequence of PageTable
     figures : sequence of path-like
-        PNG (embedded as base64) or SVG (inlined) files; other suffixes are skipped.
+        PNG (embedded as base64) or SVG (inlined) files; a PDF saved alone by
+        :func:`~motes.report.figure_files.save_figure` is shown by its in-memory
+        PNG copy; other files are skipped.
     caveats, notes : sequence of str
     printed : str
         The complete text the command printed.
@@ -241,7 +254,7 @@ def render_page(*, title: str, inputs, results_html: str, tables: Sequence[PageT
     """
     versions = software_versions() if versions is None else versions
     stamp = datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
-    shown = [Path(f) for f in figures if Path(f).suffix.lower() in (".png", ".svg")]
+    shown = _figures(figures)
     body = {
         "inputs": _facts(inputs) + "".join(f"<h3>{_e(name)}</h3><pre>{_e(text.rstrip())}</pre>"
                                            for name, text in input_files),
@@ -320,9 +333,13 @@ def _photometry_table(phot) -> PageTable:
     for r in phot.rows:
         rows.append((r.band.name, r.input_kind, f"{r.limit_sigma:g}-sigma limit" if r.is_limit else "detection",
                      ">" + f"{r.apparent_mag:.3f}" if r.is_limit else r.apparent_mag,
-                     None if r.is_limit else r.apparent_mag_error, r.flux_jy, r.flux_jy_error, r.absolute_mag,
+                     None if r.is_limit else r.apparent_mag_error,
+                     "<" + f"{r.flux_jy:.4g}" if r.is_limit else r.flux_jy, r.flux_jy_error,
+                     (">" + f"{r.absolute_mag:.3f}" if math.isfinite(r.absolute_mag) else None) if r.is_limit
+                     else r.absolute_mag,
                      "yes" if r.host_synthesised else "no"))
-    return PageTable("calibrated photometry (limits as '>' the limiting magnitude)",
+    return PageTable("calibrated photometry (limits as '>' the limiting magnitude and '<' the limiting flux "
+                     "density; the error of a limit's f_nu is its 1-sigma noise)",
                      ("band", "given as", "kind", "Vega mag [mag]", "error [mag]", "f_nu [Jy]", "error [Jy]",
                       "absolute mag [mag]", "host synthesised"), tuple(rows))
 
@@ -439,7 +456,9 @@ def write_classification_page(result, folder, *, files=(), references=None, opti
 
 
 def _figures(files) -> list[Path]:
-    return [Path(f) for f in files if Path(f).suffix.lower() in (".png", ".svg")]
+    """The figures a page shows: PNG and SVG files, and PDF files saved alone (their in-memory PNG copy)."""
+    return [Path(f) for f in files if Path(f).suffix.lower() in (".png", ".svg")
+            or (Path(f).suffix.lower() == ".pdf" and page_preview(f) is not None)]
 
 
 # ------------------------------------------------------------------ fit
@@ -494,7 +513,7 @@ def write_fit_page(result, printed: str, references=(), folder=None) -> Path:
                                 f"(maximum likelihood chi2 = {m.best_chi2:.2f} for {m.dof} dof)",
                                 ("parameter", "median", "68% low", "68% high", "95% low", "95% high",
                                  "95% upper"), tuple(rows)))
-    figures = [f for f in result.files if Path(f).suffix.lower() in (".png", ".svg")]
+    figures = _figures(result.files)
     files = [*result.files, *([] if path in result.files else [path])]
     html_text = render_page(
         title=f"motes fit: {result.source}", inputs=facts, results_html="".join(parts), tables=tables,
@@ -533,7 +552,7 @@ def write_grid_page(summary, folder, *, files=(), references=None, top: int = 10
         references = grid_citations(summary)
     printed = "\n".join(format_grid_summary(summary, top=top) + [format_citations(references)])
     facts = [("store", summary.store), ("points", f"{summary.n_rows:,} of {summary.n_points:,} in the store"),
-             ("materials", ", ".join(summary.materials)), ("bands", ", ".join(summary.bands)),
+             ("materials", ", ".join(summary.materials)), ("bands", ", ".join(summary.band_labels)),
              ("chi2_min", f"{summary.chi2_min:.3f} for {summary.dof} degrees of freedom")]
     parts = []
     for line in format_grid_verdicts(summary):
@@ -545,12 +564,18 @@ def write_grid_page(summary, folder, *, files=(), references=None, top: int = 10
                  "(about 2 sigma for one parameter); both assume Gaussian errors and an adequate model.</p>")
     obs = summary.observations or {}
     tables = []
+    from ..dust.grid.summary import band_label
+
     if obs.get("band"):
-        rows = tuple((b, w, ">" if lim else "", v, None if lim else e) for b, w, v, e, lim in
+        rows = tuple((band_label(b), w, ">" if lim else "", v, None if lim else e) for b, w, v, e, lim in
                      zip(obs["band"], obs["pivot_wavelength_um"], obs["value"], obs["error"], obs["is_limit"]))
         tables.append(PageTable(f"data ({obs.get('normalisation', '')}; limits marked '>', value = the limit)",
                                 ("band", "pivot [µm]", "limit", "value", "error"), rows))
-    tables += [_astropy_table(summary.best, "best mixtures (lowest chi2 first)"),
+    best = summary.best.copy(copy_data=False)        # model_<band>_polarised columns read as "... (polarised)"
+    for name in best.colnames:
+        if name.startswith("model_") and band_label(name) != name:
+            best.rename_column(name, band_label(name))
+    tables += [_astropy_table(best, "best mixtures (lowest chi2 first)"),
                _astropy_table(summary.fraction_profiles, "chi2 profile of each material's fraction"),
                _astropy_table(summary.axis_profiles, "chi2 profile along porosity, a_min, q and a_max")]
     html_text = render_page(

@@ -74,7 +74,8 @@ def format_photometry(result: CalibratedPhotometry) -> str:
     lines.append("")
     lines.append("flags: <Nσ = N-sigma upper limit (values shown as > magnitude, < flux; '±' of f_nu is "
                  "the 1-sigma noise), "
-                 "S = host magnitude synthesised from a spectrum model, A = approximate band")
+                 "S = host magnitude synthesised from a spectrum model, A = approximate band (top-hat/Gaussian "
+                 "from a centre and width)")
     if math.isfinite(result.distance_modulus):
         lines.append(
             f"distance {result.distance_pc:.3f} ± {result.distance_pc_error:.3f} pc; distance modulus "

@@ -85,7 +85,7 @@ def scattered_flux_ratio(result: ThermalResult, flux_ratio_per_cross_section) ->
 
 
 def write_thermal_outputs(result: ThermalResult, folder, stem: str = "optics", figures: bool = True,
-                          scattered=None) -> list[Path]:
+                          scattered=None, provenance=None) -> list[Path]:
     """Write the thermal band table, the temperature table and the figure; return the paths.
 
     Parameters
@@ -97,6 +97,9 @@ def write_thermal_outputs(result: ThermalResult, folder, stem: str = "optics", f
     scattered : (sequence of Band, ndarray[n_bands]), optional
         The scattered-light bands and their disk/star flux ratios
         (:func:`scattered_flux_ratio`), drawn beside the thermal SED.
+    provenance : dict, optional
+        What produced the numbers (:meth:`ModelDescription.provenance`), added to
+        both tables' ``meta``.
     """
     from .thermal_figures import plot_thermal
 
@@ -104,6 +107,10 @@ def write_thermal_outputs(result: ThermalResult, folder, stem: str = "optics", f
     folder.mkdir(parents=True, exist_ok=True)
     tables = [(folder / f"{stem}_thermal_bands.ecsv", result.to_table()),
               (folder / f"{stem}_grain_temperatures.ecsv", result.temperature_table())]
+    if provenance:     # what produced the numbers (scattering angles play no part in thermal emission)
+        extra = {k: v for k, v in provenance.items() if k not in ("phase_function", "scattering_angles_deg")}
+        for _, table in tables:
+            table.meta.update({k: v for k, v in extra.items() if k not in table.meta})
     with atomic_writes([p for p, _ in tables]) as tmps:
         for tmp, (_, table) in zip(tmps, tables):
             table.write(tmp, format="ascii.ecsv", overwrite=True)

@@ -3,7 +3,8 @@
 The fit compares band averages; a figure should also show the spectrum those
 averages come from. :func:`posterior_curves` evaluates a model's forward model
 (its :meth:`~motes.dust.model.colours.DiskColourModel.monochromatic_flux_ratio`,
-the exact Mie path, no band average) on a fine wavelength grid for a few
+no band average, by the path the fit's band values took: the lookup tables of a
+fast model, the exact Mie quadrature otherwise) on a fine wavelength grid for a few
 posterior samples and the maximum-likelihood point, each times its flux
 scale, and returns the median and 68% band per wavelength.
 """
@@ -58,7 +59,7 @@ def curve_wavelengths(bands, n: int = 96) -> np.ndarray:
 
 @accepts_quantities
 def posterior_curves(result, n_models: int = 3, n_draws: int = 8, wavelength=None, model_factory=None,
-                     rng: np.random.Generator | None = None):
+                     rng: np.random.Generator | None = None, method: str | None = None):
     """Monochromatic curves of the ``n_models`` best models of a fit.
 
     Parameters
@@ -76,6 +77,13 @@ def posterior_curves(result, n_models: int = 3, n_draws: int = 8, wavelength=Non
         As given to :func:`motes.dust.fit.run.run_fit` (default the description's model).
     rng : numpy.random.Generator, optional
         Picks the draws (default seeded by 0, so a figure redraws the same).
+    method : {"fast", "exact"}, optional
+        Path of the spectrum; default the forward model's own ``method`` (the
+        path its band values, and so the fit, took): the lookup tables for a
+        fast model. For the demo disk (9 spectra of 96 wavelengths) they
+        agree with the exact path within 0.3% and take 0.2 s against 124 s
+        on a busy 2-core machine
+        (:meth:`~motes.dust.model.colours.DiskColourModel.monochromatic_flux_ratio`).
 
     Returns
     -------
@@ -108,8 +116,9 @@ def posterior_curves(result, n_models: int = 3, n_draws: int = 8, wavelength=Non
         theta = np.vstack([m.samples[pick][:, cols], [[m.best.get(n, np.nan) for n in names]]])
         scale = np.append(m.samples[pick, m.sample_names.index("scale")], m.best["scale"])
         p = problem.space.unpack(theta)
+        how = method or getattr(colour_model, "method", "exact")
         curves = colour_model.monochromatic_flux_ratio(wl, p["fractions"], p["porosity"], p["a_min"], p["q"],
-                                                       a_max=p["a_max"]) * scale[:, None]
+                                                       a_max=p["a_max"], method=how) * scale[:, None]
         draws = curves[:-1]
         out[m.name] = ModelCurve(model=m.name, wavelength=wl, median=np.median(draws, axis=0),
                                  lo68=np.percentile(draws, 16, axis=0), hi68=np.percentile(draws, 84, axis=0),

@@ -52,6 +52,9 @@ __all__ = [
     "material_verdicts",
     "parameter_unit",
     "summarise_posterior",
+    "EVIDENCE_VS_PROFILE_NOTE",
+    "BestFitContrast",
+    "best_fit_contrasts",
 ]
 
 #: The verdict rule, as printed with the verdicts.
@@ -236,6 +239,79 @@ def _is_borderline(verdict: str, ln_b: float, err: float) -> bool:
     else:
         margin = min(_NEEDED - lo, hi - _NOT_NEEDED)
     return bool(margin < SEED_SCATTER_FACTOR * err)
+
+
+#: Why an evidence verdict and a chi-square profile (``motes grid``) can disagree on one material.
+EVIDENCE_VS_PROFILE_NOTE = (
+    "Evidence vs best fit: a chi-square profile (as motes grid reports) asks how much the BEST fit "
+    "worsens without a material; ln B asks how the likelihood AVERAGED over the prior changes, so a "
+    "material that improves the best fit a little but adds a fraction with a wide prior pays an Occam "
+    "factor and can stay 'undecided'. ln B = Delta ln L_max + Delta ln(Occam factor), "
+    "ln(Occam factor) = ln Z - ln L_max. A grid's profile is also conditional on its axes (a fixed q, "
+    "a few a_min and porosity values), which a fit explores continuously."
+)
+
+
+@dataclass(frozen=True)
+class BestFitContrast:
+    """One verdict split into its best-fit and its prior-volume parts.
+
+    Attributes
+    ----------
+    material : str
+    delta_chi2 : float
+        Best chi2 without the material minus best chi2 with it (a profile).
+    delta_ln_l_max : float
+        ln L_max(with) - ln L_max(without).
+    occam : float
+        ln(Occam factor)(with) - ln(Occam factor)(without), ``ln Z - ln L_max`` per model;
+        ``ln B = delta_ln_l_max + occam``.
+    ln_b : float
+    """
+
+    material: str
+    delta_chi2: float
+    delta_ln_l_max: float
+    occam: float
+    ln_b: float
+
+    def sentence(self) -> str:
+        return (f"{self.material}: leaving it out changes the best chi2 by {self.delta_chi2:+.2f} "
+                f"(Delta ln L_max = {self.delta_ln_l_max:+.2f}); the Occam factors (ln Z - ln L_max) differ "
+                f"by {self.occam:+.2f} (negative: the prior volume of its fraction costs evidence); "
+                f"ln B = {self.ln_b:+.2f}")
+
+
+def best_fit_contrasts(verdicts, models) -> tuple[BestFitContrast, ...]:
+    """Each tested verdict's ln B split into Delta ln L_max and the Occam-factor difference.
+
+    Parameters
+    ----------
+    verdicts : sequence of Verdict
+    models : sequence of objects with ``name``, ``ln_z``, ``best_ln_l`` and ``best_chi2``
+        (:class:`motes.dust.fit.results.ModelResult`).
+
+    Returns
+    -------
+    tuple of BestFitContrast
+        One per verdict whose two models both have a finite best fit. The best
+        fits are the best of the sampled points (an upper bound on each model's
+        true chi2 minimum), so ``delta_chi2`` is approximate at the level of the
+        sampling.
+    """
+    by_name = {m.name: m for m in models}
+    out = []
+    for v in verdicts:
+        a, b = by_name.get(v.with_model), by_name.get(v.without_model)
+        if v.verdict == "not tested" or a is None or b is None:
+            continue
+        values = (a.best_ln_l, b.best_ln_l, a.best_chi2, b.best_chi2, a.ln_z, b.ln_z)
+        if not all(np.isfinite(x) for x in values):
+            continue
+        d_lnl = a.best_ln_l - b.best_ln_l
+        occam = (a.ln_z - a.best_ln_l) - (b.ln_z - b.best_ln_l)
+        out.append(BestFitContrast(v.material, b.best_chi2 - a.best_chi2, d_lnl, occam, a.ln_z - b.ln_z))
+    return tuple(out)
 
 
 def parameter_unit(name: str) -> str:

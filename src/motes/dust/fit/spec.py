@@ -390,6 +390,10 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         materials.append(m["name"])
     materials = tuple(materials)
 
+    if isinstance(doc.get("parameters"), dict) and "f_max" in doc["parameters"]:
+        raise InputError("f_max (hollow-sphere grains) cannot be fitted yet: it is one value per run; set "
+                         "[model] grains = 'hollow spheres' and f_max = ... there, and compare runs with "
+                         "different f_max by their ln Z", path, "[parameters] f_max")
     params = check_keys(get_table(doc, "parameters", path=path), FIT_KEYS["parameters"], path=path,
                         where="[parameters]")
     parameters = {}

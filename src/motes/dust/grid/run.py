@@ -164,6 +164,8 @@ def store_manifest(spec: GridSpec, observations: DiskPhotometry) -> dict:
         "axes": {name: list(values) for name, values in spec.axis_values.items()},
         "bands": bands,
         "columns": columns,
+        # what produced the grid's numbers: mixing rule, geometry, star, grain model, size distribution
+        "provenance": spec.description.provenance(),
         "observations": {
             "band": bands,
             "pivot_wavelength_um": [float(x) for x in observations.wavelength],

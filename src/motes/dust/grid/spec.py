@@ -292,6 +292,10 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
     base_dir = Path(base_dir)
     materials = _material_names(doc, source)
     grid = get_table(doc, "grid", path=source, required=True, expected="fraction_step, porosity, a_min, ...")
+    if isinstance(grid, dict) and "f_max" in grid:
+        raise InputError("f_max (hollow-sphere grains) is not a grid axis: it is one value per run; set "
+                         "[model] grains = 'hollow spheres' and f_max = ... there, one grid per f_max",
+                         path=source, where="[grid] f_max")
     check_keys(grid, GRID_KEYS["grid"], path=source, where="[grid]")
     divisions = _divisions(grid.get("fraction_step"), source)
     bounds = _bounds(grid.get("fraction_bounds", {}), materials, divisions, source)

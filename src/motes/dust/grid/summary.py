@@ -36,7 +36,15 @@ from ...parameters import PARAMETERS
 from .spec import AXES
 from .store import GridStore, fraction_column, model_column
 
-__all__ = ["GridSummary", "summarize_grid", "ABSENCE_DELTA_CHI2"]
+__all__ = ["GridSummary", "summarize_grid", "band_label", "ABSENCE_DELTA_CHI2", "PROFILE_VS_EVIDENCE_NOTE"]
+
+#: Why "leaving it out costs Delta chi2" here and a ``motes fit`` evidence verdict can disagree.
+PROFILE_VS_EVIDENCE_NOTE = (
+    "'leaving it out costs Delta chi2' is a profile: the best grid point without the material against the "
+    "best with it, over this grid's points only (its fixed q, a_min and porosity values). motes fit's "
+    "verdict (ln B) instead averages the likelihood over the prior: it explores q, a_min and porosity "
+    "continuously and charges the prior volume an extra fraction adds (an Occam factor), so a material "
+    "'disfavoured' to leave out here can be 'undecided' there")
 
 #: Delta chi2 above which leaving a material out is called "disfavoured" (about 2 sigma
 #: for one parameter, Wilks 1938; common practice, no single source for the threshold).
@@ -68,6 +76,10 @@ class GridSummary:
         The data the grid was compared to (from the store's manifest).
     notes : tuple of str
         Caveats and warnings for the reader.
+    provenance : dict
+        What produced the store's numbers (motes version, mixing rule, geometry,
+        star, grains, size distribution; :meth:`ModelDescription.provenance`),
+        empty for a store that does not record it.
     """
 
     store: str
@@ -82,6 +94,13 @@ class GridSummary:
     axis_profiles: Table
     observations: dict
     notes: tuple[str, ...] = field(default=())
+    provenance: dict = field(default_factory=dict)
+
+    @property
+    def band_labels(self) -> tuple[str, ...]:
+        """The bands for tables and text: ``"2mass_h (polarised)"`` for a polarised-intensity row,
+        whose store key is ``"2mass_h_polarised"``."""
+        return tuple(band_label(b) for b in self.bands)
 
     @property
     def complete(self) -> bool:
@@ -103,6 +122,8 @@ class GridSummary:
             table = table.copy(copy_data=False)
             table.meta.update({"store": self.store, "chi2_min": self.chi2_min, "dof": self.dof,
                                "n_rows": self.n_rows, "n_points": self.n_points, "notes": list(self.notes)})
+            # version, mixing rule, geometry, star, grains, sizes (stores written before 0.1 lack it)
+            table.meta.update(self.provenance or {"provenance": "not recorded by the store"})
             path = folder / f"{name}.ecsv"
             with atomic_write(path) as tmp:
                 table.write(tmp, format="ascii.ecsv", overwrite=True)
@@ -202,14 +223,28 @@ def summarize_grid(store, top: int = 10) -> GridSummary:
     if dof is not None and dof > 0 and chi2_min > 2 * dof + 3 * np.sqrt(2 * dof):
         notes.append(f"chi2_min = {chi2_min:.1f} for {dof} degrees of freedom: no grid point fits well, "
                      "so Delta chi2 intervals understate the uncertainty")
-    notes.append("grains are modelled as Mie spheres; real grains are irregular and porous in ways Mie "
-                 "theory does not capture, so fractions are model-dependent")
+    if len(fraction_profiles) and np.any(np.asarray(fraction_profiles["fraction"]) == 0.0):
+        notes.append(PROFILE_VS_EVIDENCE_NOTE)   # only when some material's absence is judged
+    grains = str(store.manifest.get("provenance", {}).get("grains", "spheres"))
+    if grains.startswith("hollow spheres"):
+        notes.append(f"grains are modelled as a distribution of {grains} (Min, Hovenier & de Koter 2005), "
+                     "an idealisation of irregular grains, so fractions are model-dependent")
+    else:
+        notes.append("grains are modelled as Mie spheres; real grains are irregular and porous in ways Mie "
+                     "theory does not capture, so fractions are model-dependent")
     notes.append("relative likelihood shares weight every grid point equally, i.e. a prior uniform on the "
                  "grid; they change with the grid spacing and are not the Bayesian evidence of motes fit")
     return GridSummary(store=str(store.path), n_points=store.n_points, n_rows=n_rows, chi2_min=chi2_min,
                        dof=-1 if dof is None else dof, materials=materials, bands=bands, best=best_table,
                        fraction_profiles=fraction_profiles, axis_profiles=axis_profiles,
-                       observations=dict(store.manifest.get("observations", {})), notes=tuple(notes))
+                       observations=dict(store.manifest.get("observations", {})), notes=tuple(notes),
+                       provenance=dict(store.manifest.get("provenance", {})))
+
+
+def band_label(key: str) -> str:
+    """A store's row key as a reader's label: ``"2mass_h_polarised"`` -> ``"2mass_h (polarised)"``."""
+    suffix = "_polarised"
+    return key[: -len(suffix)] + " (polarised)" if key.endswith(suffix) else key
 
 
 def _keep_best(a, b, top):

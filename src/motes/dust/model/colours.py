@@ -43,8 +43,20 @@ scale), so their ratio per band is the degree of polarisation -S12/S11 of the
 band-integrated light. Henyey-Greenstein carries no polarisation: a model with
 ``phase="hg"`` and polarised columns is refused.
 
+Grain model: ``grains="spheres"`` (default) is homogeneous Mie spheres of the
+effective index. ``grains="hollow spheres"`` with ``f_max`` is the
+distribution of hollow spheres of Min, Hovenier & de Koter (2005, A&A 432,
+909): every grain of material radius ``a`` is averaged with equal weight over
+vacuum-core volume fractions f in [0, f_max], outer radius ``a / (1 - f)^(1/3)``
+(:mod:`motes.optics.hollow`). ``a`` (and so ``a_min``, ``a_max``, the size
+distribution, the mass and the blow-out size) refers to the material; the
+normalisation ``integral n pi a^2 da = 1`` is over the material cross-section,
+and the core is not porosity (which stays the effective-medium vacuum fraction
+of the material). With ``f_max = 0`` it is the solid sphere.
+
 Real grains are not Mie spheres: irregular and aggregate grains scatter
-differently (especially in the phase function). Every result carries that note.
+differently (especially in the phase function). Every result carries that note
+(for hollow spheres, a note saying which grain model ran).
 """
 
 from __future__ import annotations
@@ -55,7 +67,7 @@ import numpy as np
 
 from ...errors import InputError, ModelError, OpticalConstantsError, quoted_names
 from ...parameters import PARAMETERS, accepts_quantities
-from ...optics import mie
+from ...optics import hollow, mie
 from ...optics.constants import Material, load_material
 from ...optics.mixing import mix_refractive_index, mixture_density
 from ...optics.sizes import power_law_cross_section, find_blowout_size, BlowoutResult
@@ -73,7 +85,12 @@ __all__ = [
     "METHODS",
     "PHASES",
     "INTENSITIES",
+    "GRAINS",
+    "HOLLOW_SPHERES_NOTE",
 ]
+
+#: Grain models: homogeneous Mie spheres, or the distribution of hollow spheres (Min et al. 2005).
+GRAINS = ("spheres", "hollow spheres")
 
 #: What an output column of the model holds: total or polarised intensity.
 INTENSITIES = ("total", "polarised")
@@ -85,6 +102,9 @@ HG_NO_POLARISATION = ("the Henyey-Greenstein phase function carries no polarisat
 METHODS = ("fast", "exact")
 MIE_SPHERES_NOTE = ("real grains are not Mie spheres: irregular, porous aggregates scatter with other "
                     "phase functions and colours; treat compositions as those of equivalent spheres")
+HOLLOW_SPHERES_NOTE = ("grains: a distribution of hollow spheres (Min, Hovenier & de Koter 2005), vacuum-core "
+                       "volume fractions 0-{f_max:g} with equal weight at fixed material volume; sizes, mass "
+                       "and blow-out refer to the material; still an idealisation of irregular grains")
 FRACTIONS_NOTE = ("fractions are volume fractions of the solid; porosity is the vacuum fraction of the "
                   "whole grain volume")
 _FRACTION_TOLERANCE = 1e-6
@@ -190,6 +210,11 @@ class DiskColourModel:
     intensities : sequence of {"total", "polarised"}, optional
         What each output column holds (one per band; default all total). A
         band may appear twice, once per kind.
+    grains : {"spheres", "hollow spheres"}
+        Homogeneous spheres (default) or the hollow-sphere distribution.
+    f_max : float, optional
+        Largest vacuum-core volume fraction, in [0, 1); required with
+        ``grains="hollow spheres"``, refused with spheres.
 
     Notes
     -----
@@ -202,7 +227,9 @@ class DiskColourModel:
     def __init__(self, materials, bands, *, star_teff=None, star_spectrum=None,
                  mixing="bruggeman", matrix=None, geometry=ScatteringGeometry(),
                  method="fast", a_max=1000.0, wavelength_nodes: int = 8,
-                 size_sampling: SizeSampling = SizeSampling(), table_spec=None, intensities=None):
+                 size_sampling: SizeSampling = SizeSampling(), table_spec=None, intensities=None,
+                 grains: str = "spheres", f_max=None):
+        self.grains, self.f_max = self._check_grains(grains, f_max)
         self.materials = tuple(_as_material(m, i) for i, m in enumerate(materials))
         self.bands = tuple(_as_band(b, i) for i, b in enumerate(bands))
         self.intensities = self._check_intensities(intensities, geometry)
@@ -236,6 +263,51 @@ class DiskColourModel:
         self._setup_nodes()
 
     # ------------------------------------------------------------ set-up
+    @staticmethod
+    def _check_grains(grains, f_max):
+        if grains not in GRAINS:
+            raise InputError(f"grains must be one of {quoted_names(GRAINS)}, got {grains!r}", where="grains")
+        if grains == "spheres":
+            if f_max is not None:
+                raise InputError("f_max (largest vacuum-core volume fraction) is used by grains = 'hollow "
+                                 "spheres' only", where="f_max")
+            return grains, None
+        declared = PARAMETERS["f_max"]
+        if f_max is None:
+            raise InputError("grains = 'hollow spheres' needs f_max, the largest vacuum-core volume fraction, "
+                             f"in {declared.interval} (0.8 is common practice, no source)", where="f_max")
+        try:
+            value = float(f_max)
+        except (TypeError, ValueError):
+            value = float("nan")
+        if not declared.contains(value):
+            raise InputError(f"f_max ({declared.meaning}) must be in {declared.interval}, got {f_max!r}",
+                             where="f_max")
+        return grains, value
+
+    @property
+    def hollow(self) -> bool:
+        """True for the hollow-sphere grain model."""
+        return self.f_max is not None
+
+    @property
+    def grain_summary(self) -> str:
+        """Which grain model runs, as text (``"spheres"`` or ``"hollow spheres (f_max = 0.8)"``)."""
+        return "spheres" if not self.hollow else f"hollow spheres (f_max = {self.f_max:g})"
+
+    def _intensity(self, m, t, theta, quantity="total"):
+        """Angle mean of ``|S1|^2 + |S2|^2`` (or ``|S1|^2 - |S2|^2``) per material size parameter."""
+        if not self.hollow:
+            if quantity == "polarised":
+                return mie.polarised_scattered_intensity(m, t, theta)
+            return mie.scattered_intensity(m, t, theta)
+        total, polarised = hollow.hollow_intensities(m, t, theta, self.f_max)
+        return polarised if quantity == "polarised" else total
+
+    def grain_efficiencies(self, m, t):
+        """Efficiencies per material cross-section (Mie, or the hollow-sphere average)."""
+        return mie.efficiencies(m, t) if not self.hollow else hollow.hollow_efficiencies(m, t, self.f_max)
+
     def _check_intensities(self, intensities, geometry) -> tuple[str, ...]:
         n = len(self.bands)
         if intensities is None:
@@ -316,6 +388,8 @@ class DiskColourModel:
     def _setup_nodes(self):
         nodes, weights, owner = [], [], []
         notes = [MIE_SPHERES_NOTE, FRACTIONS_NOTE]
+        if self.hollow:
+            notes.append(HOLLOW_SPHERES_NOTE.format(f_max=self.f_max))
         for b, band in enumerate(self.bands):
             grid = np.union1d(np.linspace(band.wavelength_min, band.wavelength_max, 801),
                               band.wavelength[(band.wavelength >= band.wavelength_min)
@@ -556,14 +630,11 @@ class DiskColourModel:
                 mm.append(np.full(t.size, m[i, j]))
                 owner.append(np.full(t.size, j))
             t, w, mm, owner = (np.concatenate(v) for v in (ts, ws, mm, owner))
-            if quantity == "polarised":
-                s = mie.polarised_scattered_intensity(mm, t, theta)
-                integral = np.bincount(owner, w * 0.5 * t ** (-q[i]) * s, minlength=n_lam)
-            elif self.geometry.phase == "mie":
-                s = mie.scattered_intensity(mm, t, theta)
+            if quantity == "polarised" or self.geometry.phase == "mie":
+                s = self._intensity(mm, t, theta, quantity)
                 integral = np.bincount(owner, w * 0.5 * t ** (-q[i]) * s, minlength=n_lam)
             else:
-                e = mie.efficiencies(mm, t)
+                e = self.grain_efficiencies(mm, t)
                 base = w * t ** (2.0 - q[i]) * e.q_sca
                 csca = np.pi * np.bincount(owner, base, minlength=n_lam)
                 gbar = np.bincount(owner, base * e.g, minlength=n_lam) * np.pi / csca
@@ -573,18 +644,32 @@ class DiskColourModel:
 
     @accepts_quantities
     def monochromatic_flux_ratio(self, wavelength, fractions, porosity, a_min, q, a_max=None,
-                                 quantity: str = "total") -> np.ndarray:
-        """R(lambda) [sr^-1] at given wavelengths (no band average), exact path.
+                                 quantity: str = "total", method: str = "exact") -> np.ndarray:
+        """R(lambda) [sr^-1] at given wavelengths (no band average).
 
         ``quantity="polarised"`` gives the polarised-intensity ratio (signed).
+        ``method="exact"`` (default) is the direct Mie quadrature;
+        ``method="fast"`` interpolates the lookup tables (``method="fast"``
+        models only; missing tiles are built), the path the model's band
+        values take. Measured on the demo disk's fit (9 posterior spectra of
+        96 wavelengths, 0.56-4.2 um, a_max = 1 mm): within 0.3% of the exact
+        path everywhere (rms 0.05%), 0.2 s against 124 s on a busy 2-core
+        machine.
 
         Returns
         -------
         ndarray[N, L]
         """
+        if method not in METHODS:
+            raise InputError(f"method must be one of {quoted_names(METHODS)}, got {method!r}", where="method")
+        if method == "fast" and self.method != "fast":
+            raise InputError("method='fast' needs a model built with method='fast' (its lookup tables)",
+                             where="method")
         wavelength = np.atleast_1d(np.asarray(wavelength, dtype=float))
         f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
         m = self.effective_index(f, p, wavelength)
+        if method == "fast":
+            return self._fast_table().node_values(m, wavelength, a_min, q, a_max, quantity=quantity)
         return self.node_values_exact(m, wavelength, a_min, q, a_max, quantity=quantity)
 
     @accepts_quantities
@@ -619,7 +704,7 @@ class DiskColourModel:
 
         a, w = PowerLaw(float(a_min[0]), float(a_max[0]), float(q[0])).quadrature(n_per_efold)
         m = self.effective_index(f, p)[0]  # [L]
-        e = mie.efficiencies(m[:, None], 2 * np.pi * a[None, :] / self.node_wavelength[:, None])
+        e = self.grain_efficiencies(m[:, None], 2 * np.pi * a[None, :] / self.node_wavelength[:, None])
         csca = (e.q_sca * w).sum(axis=1)
         cext = (e.q_ext * w).sum(axis=1)
         cg = (e.q_sca * e.g * w).sum(axis=1)
@@ -661,7 +746,7 @@ class DiskColourModel:
         covered = float(np.trapezoid(np.where(inside, fl_full, 0.0), full) / np.trapezoid(fl_full, full))
         m = self.effective_index(np.atleast_2d(fractions), porosity, lam)[0]
         a = np.atleast_1d(np.asarray(a, dtype=float))
-        e = mie.efficiencies(m[None, :], 2 * np.pi * a[:, None] / lam[None, :])
+        e = self.grain_efficiencies(m[None, :], 2 * np.pi * a[:, None] / lam[None, :])
         wts = np.gradient(lam) * flux
         return (e.q_pr * wts).sum(axis=1) / wts.sum(), covered
 
@@ -726,6 +811,7 @@ class DiskColourModel:
             f"geometry: scattering angles {', '.join(f'{a:g}' for a in self.geometry.angles_deg)} deg, "
             f"phase function {self.geometry.phase}",
             f"method: {self.method}; default a_max {self.a_max:g} um; Mie: {mie.solver_summary()}",
+            f"grains: {self.grain_summary}",
         ] + ([f"polarised intensity in band(s): "
               f"{', '.join(b.name for b, k in zip(self.bands, self.intensities) if k == 'polarised')}"]
              if self.has_polarised else []))

@@ -34,6 +34,8 @@ folder of the description file::
     a_max = 1000.0                  # [um]
     method = "fast"                 # or "exact"
     wavelength_nodes = 8            # Gauss nodes per band
+    grains = "spheres"              # or "hollow spheres" (Min, Hovenier & de Koter 2005), then
+                                    #   f_max = 0.8: largest vacuum-core volume fraction, in [0, 1)
 
     [bands."nb_3.1"]                # user bands: same format as target descriptions
     shape = "top-hat"
@@ -57,7 +59,7 @@ from ...parameters import PARAMETERS, STAR_TEFF, accepts_quantities
 from ...optics.constants import Material, load_material
 from ...photometry.bands import Band, get_band
 from ...tomlcheck import check_keys, check_tables, read_number
-from .colours import METHODS, PHASES, DiskColourModel, ScatteringGeometry
+from .colours import GRAINS, METHODS, PHASES, DiskColourModel, ScatteringGeometry
 
 __all__ = [
     "MODEL_TABLES",
@@ -74,7 +76,7 @@ _STAR_KEYS = {"teff", "spectrum", "luminosity", "mass"}
 _MATERIAL_KEYS = {"name", "source", "density", "extrapolation", "wavelength_unit"}
 _MIXING_KEYS = {"rule", "matrix"}
 _GEOMETRY_KEYS = {"angles_deg", "inclination_deg", "n_azimuths", "phase"}
-_MODEL_KEYS = {"bands", "a_max", "method", "wavelength_nodes"}
+_MODEL_KEYS = {"bands", "a_max", "method", "wavelength_nodes", "grains", "f_max"}
 
 #: Top-level tables of a model description; the file of each command adds its own
 #: (``[mixture]``, ``[data]``, ``[grid]``, ...) and refuses any other.
@@ -105,12 +107,15 @@ class StarDescription:
         Wavelength [um] and F_lambda.
     luminosity : float or None [L_sun]
     mass : float or None [M_sun]
+    spectrum_file : str or None
+        The spectrum file as the description names it (for the tables' provenance).
     """
 
     teff: float | None
     spectrum: tuple | None
     luminosity: float | None
     mass: float | None
+    spectrum_file: str | None = None
 
     @property
     def has_luminosity_and_mass(self) -> bool:
@@ -139,6 +144,10 @@ class ModelDescription:
     wavelength_nodes : int
     source : str
         File the description came from (for messages).
+    grains : str
+        ``"spheres"`` or ``"hollow spheres"`` (``[model] grains``).
+    f_max : float or None
+        Largest vacuum-core volume fraction of hollow spheres (None for spheres).
     """
 
     star: StarDescription
@@ -152,10 +161,48 @@ class ModelDescription:
     method: str
     wavelength_nodes: int
     source: str
+    grains: str = "spheres"
+    f_max: float | None = None
+
+    @property
+    def grain_summary(self) -> str:
+        """Which grain model the description selects, as text."""
+        return "spheres" if self.f_max is None else f"hollow spheres (f_max = {self.f_max:g})"
 
     @property
     def material_names(self) -> tuple[str, ...]:
         return tuple(m.name for m in self.materials)
+
+    def provenance(self) -> dict:
+        """What produced a table computed from this description, for its ``meta``.
+
+        Returns
+        -------
+        dict
+            ``motes_version``, ``mixing`` (rule and Maxwell Garnett matrix),
+            ``phase_function``, ``scattering_angles_deg``, ``star`` (Teff [K] or
+            the spectrum file), ``grains``, ``size_distribution`` (power law
+            dn/da ∝ a^-q from a_min to a_max [um]), ``materials`` (name and
+            optical-constants source: ``optical_constants``), ``description`` (its file).
+        """
+        from ... import __version__
+
+        star = (f"spectrum file {self.star.spectrum_file}" if self.star.spectrum is not None and self.star.spectrum_file
+                else "spectrum (given in Python)" if self.star.spectrum is not None
+                else f"blackbody Teff = {self.star.teff:g} K")
+        mixing = self.mixing + (f" (matrix {self.matrix})" if self.matrix else "")
+        return {
+            "motes_version": __version__,
+            "mixing": mixing,
+            "phase_function": self.geometry.phase,
+            "scattering_angles_deg": [float(a) for a in self.geometry.angles_deg],
+            "star": star,
+            "grains": self.grain_summary,
+            "size_distribution": "power law dn/da ∝ a^-q from a_min to a_max (values: the table's a_min, q and "
+                                 "a_max columns, keys or priors)",
+            "optical_constants": [f"{m.name}: {_short_provenance(m.provenance)}" for m in self.materials],
+            "description": str(self.source),
+        }
 
     def subset(self, names) -> "ModelDescription":
         """The same description with only the materials ``names``, in description order.
@@ -214,11 +261,20 @@ class ModelDescription:
                 self.materials, bands, star_teff=self.star.teff, star_spectrum=self.star.spectrum,
                 mixing=self.mixing, matrix=self.matrix, geometry=self.geometry,
                 method=method or self.method, a_max=self.a_max, wavelength_nodes=self.wavelength_nodes,
-                intensities=intensities)
+                intensities=intensities, grains=self.grains, f_max=self.f_max)
         except InputError as exc:
             if exc.path is not None:
                 raise
             raise InputError(exc.reason, path=self.source, where=exc.where) from None
+
+
+def _short_provenance(text: str) -> str:
+    """One line of a material's provenance: its ``reference:`` line, else its first line."""
+    lines = [line.strip() for line in (text or "").splitlines() if line.strip()]
+    if not lines:
+        return "no provenance recorded"
+    ref = next((line for line in lines if line.startswith("reference:")), None)
+    return ref[len("reference:"):].strip() if ref else lines[0]
 
 
 def _band(name, custom, source, where) -> Band:
@@ -258,7 +314,7 @@ def _read_star(doc, source, base_dir) -> StarDescription:
         lum = read_number(star["luminosity"], path=source, where="[star] luminosity", positive=True)
     if "mass" in star:
         mass = read_number(star["mass"], path=source, where="[star] mass", positive=True)
-    return StarDescription(teff, spectrum, lum, mass)
+    return StarDescription(teff, spectrum, lum, mass, spectrum_file=spec["file"] if spectrum is not None else None)
 
 
 def _read_materials(doc, source, base_dir) -> tuple[Material, ...]:
@@ -374,7 +430,38 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
         raise InputError(f"method must be one of {quoted_names(METHODS)}, got {method!r}", path=source, where="[model] method")
     nodes = read_number(model.get("wavelength_nodes", 8), path=source, where="[model] wavelength_nodes",
                         integer=True, lo=1, hi=64)
-    return ModelDescription(star, materials, rule, matrix, geometry, bands, custom, a_max, method, nodes, source)
+    grains, f_max = _read_grains(model, source)
+    return ModelDescription(star, materials, rule, matrix, geometry, bands, custom, a_max, method, nodes, source,
+                            grains, f_max)
+
+
+def _read_grains(model, source):
+    """``[model] grains`` and ``f_max``: spheres (default) or hollow spheres with their f_max."""
+    grains = model.get("grains", "spheres")
+    if grains not in GRAINS:
+        raise InputError(f"grains must be one of {quoted_names(GRAINS)}, got {grains!r}", path=source,
+                         where="[model] grains")
+    declared = PARAMETERS["f_max"]
+    if grains == "spheres":
+        if "f_max" in model:
+            raise InputError("f_max is used by grains = 'hollow spheres' only; add that line or remove f_max",
+                             path=source, where="[model] f_max")
+        return grains, None
+    if "f_max" not in model:
+        raise InputError(f"grains = 'hollow spheres' needs f_max = ..., the largest vacuum-core volume fraction "
+                         f"in {declared.interval} (0.8 is common practice, no source)", path=source,
+                         where="[model] f_max")
+    value = model["f_max"]
+    if isinstance(value, (list, dict)):
+        raise InputError("f_max is one number per run (a fit or grid cannot vary it yet); "
+                         f"give f_max = 0.8 or another value in {declared.interval}", path=source,
+                         where="[model] f_max")
+    f_max = read_number(value, path=source, where="[model] f_max",
+                        what=f"the largest vacuum-core volume fraction, in {declared.interval}")
+    if not declared.contains(f_max):
+        raise InputError(f"f_max ({declared.meaning}) must be in {declared.interval}, got {f_max:g}",
+                         path=source, where="[model] f_max")
+    return grains, float(f_max)
 
 
 def read_model_description(path, extra_tables=None) -> ModelDescription:

@@ -92,6 +92,14 @@ class MixtureOptics:
         """Magnitudes relative to the reference band."""
         return self.optics.colours(self.reference)
 
+    def provenance(self) -> dict:
+        """What produced these numbers (:meth:`ModelDescription.provenance`), with this mixture's sizes."""
+        out = self.description.provenance()
+        p = self.parameters
+        out["size_distribution"] = (f"power law dn/da ∝ a^-q, q = {p.q:g}, from a_min = {p.a_min:g} um to "
+                                    f"a_max = {p.a_max:g} um")
+        return out
+
     def to_table(self):
         """The per-band numbers as a table (what ``motes optics`` writes as ECSV).
 
@@ -101,7 +109,8 @@ class MixtureOptics:
             Columns ``band, pivot [um], n_eff, k_eff, flux_ratio [1/sr], colour [mag],
             albedo, g, q_ext`` and, with the Mie phase function,
             ``polarised_flux_ratio [1/sr]`` and ``degree_of_polarisation``; the
-            mixture and the notes in ``meta``.
+            mixture, the notes and what produced the table
+            (:meth:`ModelDescription.provenance`) in ``meta``.
         """
         from astropy.table import Table
         import astropy.units as u
@@ -121,6 +130,7 @@ class MixtureOptics:
             t["polarised_flux_ratio"] = o.polarised_flux_ratio / u.sr
             t["degree_of_polarisation"] = o.degree_of_polarisation
         p = self.parameters
+        t.meta.update(self.provenance())      # version, mixing rule, geometry, star, grains, sizes
         t.meta.update({"materials": list(self.description.material_names), "fractions": list(p.fractions),
                        "porosity": p.porosity, "a_min_um": p.a_min, "a_max_um": p.a_max, "q": p.q,
                        "reference_band": o.bands[self.reference], "density_g_cm3": o.density,
@@ -225,7 +235,7 @@ def compute_mixture_optics(description: ModelDescription, mixture: MixtureParame
         notes.append("no polarised intensity: the Henyey-Greenstein phase function carries no polarisation")
     # efficiencies against size at the band pivots
     radius = np.geomspace(0.01, max(mixture.a_max, 10.0), 240)
-    e = mie.efficiencies(optics.m_pivot[:, None], 2 * np.pi * radius[None, :] / optics.pivot[:, None])
+    e = model.grain_efficiencies(optics.m_pivot[:, None], 2 * np.pi * radius[None, :] / optics.pivot[:, None])
     return MixtureOptics(description, mixture, model.bands, model.describe(), optics, reference, blow, lam, curve,
                          radius, e.q_ext, e.q_sca, tuple(dict.fromkeys(notes)), spectrum_polarised_ratio=pol_curve)
 

@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ...optics import mie
+from ...optics import hollow, mie
 from .sampling import SizeSampling, bin_rule
 
 __all__ = [
@@ -108,17 +108,30 @@ class TableSpec:
 QUANTITIES = ("total", "polarised")
 
 
-def channel_key(geometry, quantity: str = "total") -> str:
+def channel_key(geometry, quantity: str = "total", f_max: float | None = None) -> str:
     # the Henyey-Greenstein channels do not depend on the angles; the polarised table is its own
-    # cache folder (built only for runs with polarised colours), the total one keeps its key
+    # cache folder (built only for runs with polarised colours), the total one keeps its key; hollow
+    # spheres (f_max not None) get folders of their own per f_max, built only for runs that use them
     if quantity == "polarised":
-        return "polarised:" + geometry.key()
-    return "hg" if geometry.phase == "hg" else geometry.key()
+        key = "polarised:" + geometry.key()
+    else:
+        key = "hg" if geometry.phase == "hg" else geometry.key()
+    if f_max is not None:
+        key = f"hollow{float(f_max)!r}:n{hollow.DEFAULT_F_NODES}:" + key
+    return key
 
 
 # ------------------------------------------------------------------- building
-def _channels(geometry, m: np.ndarray, t: np.ndarray, quantity: str = "total") -> np.ndarray:
-    """Integrand channels s(t) [n_channels, n] for indices m (same length as t)."""
+def _channels(geometry, m: np.ndarray, t: np.ndarray, quantity: str = "total",
+              f_max: float | None = None) -> np.ndarray:
+    """Integrand channels s(t) [n_channels, n] for indices m (same length as t); hollow spheres with f_max."""
+    if f_max is not None:
+        if quantity == "polarised" or geometry.phase == "mie":
+            total, polarised = hollow.hollow_intensities(m, t, geometry.angles_rad, f_max)
+            return (polarised if quantity == "polarised" else total)[None, :]
+        e = hollow.hollow_efficiencies(m, t, f_max)
+        base = 2.0 * np.pi * t**2 * e.q_sca
+        return np.stack([base, base * e.g])
     if quantity == "polarised":
         return mie.polarised_scattered_intensity(m, t, geometry.angles_rad)[None, :]
     if geometry.phase == "mie":
@@ -133,8 +146,8 @@ def rayleigh_exponents(geometry) -> np.ndarray:
     return np.array([6.0]) if geometry.phase == "mie" else np.array([6.0, 8.0])
 
 
-def build_node(spec: TableSpec, geometry, m: complex, quantity: str = "total"):
-    """Moments of one (n, k) node (``quantity``: one of :data:`QUANTITIES`).
+def build_node(spec: TableSpec, geometry, m: complex, quantity: str = "total", f_max: float | None = None):
+    """Moments of one (n, k) node (``quantity``: one of :data:`QUANTITIES`; hollow spheres with ``f_max``).
 
     Returns
     -------
@@ -148,7 +161,7 @@ def build_node(spec: TableSpec, geometry, m: complex, quantity: str = "total"):
     edges = spec.ln_x
     t, w, owner = bin_rule(edges, spec.sampling, m.imag)
     mm = np.full(t.size, m)
-    s = 0.5 * _channels(geometry, mm, t, quantity)
+    s = 0.5 * _channels(geometry, mm, t, quantity, f_max)
     centre = 0.5 * (edges[1:] + edges[:-1])
     u = np.log(t) - centre[owner]
     n_bins = edges.size - 1
@@ -158,7 +171,7 @@ def build_node(spec: TableSpec, geometry, m: complex, quantity: str = "total"):
         for c in range(s.shape[0]):
             moments[c, :, j] = np.bincount(owner, w * s[c] * upow, minlength=n_bins)
         upow = upow * u
-    start = 0.5 * _channels(geometry, np.array([m]), np.array([spec.x_min]), quantity)[:, 0]
+    start = 0.5 * _channels(geometry, np.array([m]), np.array([spec.x_min]), quantity, f_max)[:, 0]
     top = t > spec.x_top / 10
     tail = (w[top] * s[:, top] / t[top] ** 2).sum(axis=1) / w[top].sum()
     return moments, start, tail
@@ -168,7 +181,7 @@ def tile_path(folder: Path, i: int, j: int) -> Path:
     return folder / f"tile_{i:03d}_{j:03d}.npz"
 
 
-def build_tile(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total"):
+def build_tile(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total", f_max: float | None = None):
     """Moments of the (n, k) nodes of tile (i, j); returns (moments, start, tail)."""
     ln_n, kk = spec.ln_n, spec.k
     rows = range(i * spec.tile, min((i + 1) * spec.tile, spec.n_count))
@@ -180,5 +193,5 @@ def build_tile(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total
     for a, r in enumerate(rows):
         for b, c in enumerate(cols):
             m = complex(np.exp(ln_n[r]), kk[c])
-            moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m, quantity)
+            moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m, quantity, f_max)
     return moments, start, tail

@@ -1,0 +1,643 @@
+"""Fast path of the thermal side: a cached Q_abs table and a batched ring model.
+
+The exact path (:func:`motes.dust.model.thermal.compute_thermal`) calls Mie
+~10^5 times per mixture (~2-4 s). A fit needs 10^4-10^6 evaluations, so this
+module replaces every Mie call by an interpolation in a table of
+``ln Q_abs(n, k, x)`` that does not depend on the materials, the mixture or
+the star, and solves the temperatures on a coarser wavelength grid.
+
+The Q_abs table
+---------------
+* Axes: ``ln n`` from n = 0.3 to 3000 (step :data:`LN_N_STEP`), ``ln k`` from
+  k = 1e-6 to 1e4 (step :data:`LN_K_STEP`; iron's Hagen-Rubens continuation reaches k ~ 2000 at 2 cm), ``ln x`` from x = 1e-4 to 1.3e5
+  (step :data:`LN_X_STEP`). Values: ``ln Q_abs``, interpolated trilinearly.
+  Q_abs ∝ k for weak absorbers and ∝ x for small grains, so ln Q is linear in
+  ln k and ln x in those limits; below k = 1e-6 Q_abs is scaled ∝ k (k = 0
+  gives 0), below x = 1e-4 ∝ x (Rayleigh).
+* Values: exact Mie (:mod:`motes.optics.mie`) for x <= :data:`MIE_X_MAX` and
+  |m| x <= :data:`MIE_MX_MAX` (beyond, the grain is opaque and Mie needs ~|m| x terms), ray
+  optics (:func:`motes.optics.thermal.ray_optics_absorption`) above; the exact
+  path switches at x = 2e4 instead (the two differ by the edge terms,
+  ~x^(-2/3); the effect on band fluxes is part of the accuracy measured by
+  ``benchmarks/bench_thermal.py`` and ``tests/test_dust_thermal_fast.py``).
+* Tiles of :data:`TILE` x :data:`TILE` (n, k) nodes over the whole x axis,
+  built only where a model's mixtures reach (and at evaluation time when a
+  point needs a tile not yet built), cached under
+  :func:`motes.files.cache_directory` ``/thermal_tables`` (one ``.npy`` per
+  tile, written atomically, keyed by the format version and the miepython
+  version).
+
+The ring model
+--------------
+:class:`ThermalRingModel` evaluates band fluxes per unit grain cross-section
+of a ring at radius r for many parameter points at once: effective indices
+(the same mixing rule as the scattered-light side) on a balance grid of
+:data:`BALANCE_PER_DECADE` points per decade plus the materials' own points
+beyond 2 um (thinned to :data:`FEATURE_PER_DECADE` per decade), Q_abs from the
+table at :data:`N_SIZES_T` Gauss-Legendre nodes in ln a for the balance and
+:data:`N_SIZES` for the fluxes, temperatures by
+interpolation on a coarse table of the emitted power and one Newton step,
+and band averages on :data:`BAND_NODES` Gauss nodes per band.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import numpy as np
+import numba
+
+from ...errors import InputError, ModelError
+from ...files import atomic_write, cache_directory
+from ...parameters import accepts_quantities
+from ...optics import mie
+from ...optics import thermal as th
+from ...optics.mixing import BRUGGEMAN_TOLERANCE, mix_refractive_index
+from ...conventions import flam_to_fnu
+from .sampling import weighted_gauss_nodes
+
+__all__ = ["QAbsTable", "ThermalRingModel", "q_abs_table", "MIE_X_MAX", "FAST_NOTE"]
+
+FORMAT_VERSION = 1
+LN_N = (np.log(0.3), 0.02)
+LN_K = (np.log(1e-6), 0.2)
+LN_X = (np.log(1e-4), 0.04)
+N_MAX, K_MAX = 3000.0, 1.0e4
+N_N = int(np.ceil((np.log(N_MAX) - LN_N[0]) / LN_N[1])) + 1
+N_K = int(np.ceil((np.log(K_MAX) - LN_K[0]) / LN_K[1])) + 1
+N_X = int(np.ceil((np.log(1.3e5) - LN_X[0]) / LN_X[1])) + 1
+LN_N_STEP, LN_K_STEP, LN_X_STEP = LN_N[1], LN_K[1], LN_X[1]
+TILE = 8
+#: Size parameter above which the table holds ray optics instead of Mie.
+MIE_X_MAX = 1000.0
+#: ... and above which |m| x the table holds ray optics (Mie needs ~|m| x terms; such grains are opaque).
+MIE_MX_MAX = 2.0e4
+BALANCE_PER_DECADE = 20
+FEATURE_PER_DECADE = 60
+#: Gauss-Legendre nodes in ln a: for the temperatures, and for the flux integrals (Q_abs ripples with x in
+#: the far infrared; 40 nodes left 3% at 1.3 mm for a_min ~ 1 um, measured), T interpolated in (ln a, ln T)
+N_SIZES_T = 24
+N_SIZES = 80
+BAND_NODES = 24
+_LN_T_STEP = 0.1
+FAST_NOTE = ("thermal fluxes from the fast path (tabulated Q_abs, coarser grids); accuracy against the exact "
+             "path measured by benchmarks/bench_thermal.py")
+
+
+def _node_values(axis, count):
+    return np.exp(axis[0] + axis[1] * np.arange(count))
+
+
+@numba.njit(cache=True)
+def _interp_lnq(store, slots, axes, n, k, x, out):  # pragma: no cover - compiled
+    """out[i] = Q_abs at (n[i], k[i], x[i]).
+
+    ``store[slot, i, j, x]`` holds ln Q_abs of tile ``slots[ti, tj]`` (-1: not built). Returns 0, or
+    ``1 + flat tile index`` of a tile to build first, or ``-(i + 1)`` for a point outside the axes.
+    """
+    ln0, dn, lk0, dk, lx0, dx = axes[0], axes[1], axes[2], axes[3], axes[4], axes[5]
+    nn, nk, nx = int(axes[6]), int(axes[7]), int(axes[8])
+    tile = store.shape[1]
+    for i in range(n.size):
+        kk = k[i]
+        if kk <= 0.0:
+            out[i] = 0.0
+            continue
+        scale = 1.0
+        if kk < 1e-6:
+            scale = kk / 1e-6
+            kk = 1e-6
+        pn = (np.log(n[i]) - ln0) / dn
+        pk = (np.log(kk) - lk0) / dk
+        px = (np.log(x[i]) - lx0) / dx
+        if pn < 0.0 or pn > nn - 1 or pk > nk - 1 or pk < 0.0:
+            return -(i + 1)
+        xs = 0.0
+        if px < 0.0:
+            xs = px * dx          # ln(x / x0) < 0: Rayleigh, Q ∝ x
+            px = 0.0
+        if px > nx - 1:
+            px = nx - 1.0
+        a = min(int(pn), nn - 2)
+        b = min(int(pk), nk - 2)
+        c = min(int(px), nx - 2)
+        fa, fb, fc = pn - a, pk - b, px - c
+        v = 0.0
+        for da in range(2):
+            wa = fa if da else 1.0 - fa
+            for db in range(2):
+                wb = fb if db else 1.0 - fb
+                ta, tb = (a + da) // tile, (b + db) // tile
+                s = slots[ta, tb]
+                if s < 0:
+                    return 1 + ta * slots.shape[1] + tb
+                ia, ib = a + da - ta * tile, b + db - tb * tile
+                for dc in range(2):
+                    wc = fc if dc else 1.0 - fc
+                    v += wa * wb * wc * store[s, ia, ib, c + dc]
+        out[i] = scale * np.exp(v + xs)
+    return 0
+
+
+
+
+@numba.njit(cache=True)
+def _q_batch(store, slots, axes, n, k, ln_x0, ln_lam, out, need):  # pragma: no cover - compiled
+    """out[i, s, l] = Q_abs at (n[i, l], k[i, l], x = exp(ln_x0[i, s] - ln_lam[l])).
+
+    The (n, k) stencil is found once per (i, l) and used for every size. Tiles not built are
+    flagged in ``need`` (their points left unset); returns the number of such points, or
+    ``-(1 + i * L + l)`` for an index outside the axes.
+    """
+    ln0, dn, lk0, dk, lx0, dx = axes[0], axes[1], axes[2], axes[3], axes[4], axes[5]
+    nn, nk, nx = int(axes[6]), int(axes[7]), int(axes[8])
+    tile = store.shape[1]
+    n_pts, n_sizes, n_lam = out.shape
+    missing = 0
+    sl = np.empty(4, dtype=np.int64)
+    ia = np.empty(4, dtype=np.int64)
+    ib = np.empty(4, dtype=np.int64)
+    wab = np.empty(4)
+    for i in range(n_pts):
+        for l in range(n_lam):
+            kk = k[i, l]
+            if kk <= 0.0:
+                for s in range(n_sizes):
+                    out[i, s, l] = 0.0
+                continue
+            scale = 1.0
+            if kk < 1e-6:
+                scale = kk / 1e-6
+                kk = 1e-6
+            pn = (np.log(n[i, l]) - ln0) / dn
+            pk = (np.log(kk) - lk0) / dk
+            if pn < 0.0 or pn > nn - 1 or pk > nk - 1 or pk < 0.0:
+                return -(1 + i * n_lam + l)
+            a = min(int(pn), nn - 2)
+            b = min(int(pk), nk - 2)
+            fa, fb = pn - a, pk - b
+            ok = True
+            c4 = 0
+            for da in range(2):
+                for db in range(2):
+                    ta, tb = (a + da) // tile, (b + db) // tile
+                    sl[c4] = slots[ta, tb]
+                    if sl[c4] < 0:
+                        need[ta, tb] = True
+                        ok = False
+                    ia[c4] = a + da - ta * tile
+                    ib[c4] = b + db - tb * tile
+                    wab[c4] = (fa if da else 1.0 - fa) * (fb if db else 1.0 - fb)
+                    c4 += 1
+            if not ok:
+                missing += 1
+                continue
+            for s in range(n_sizes):
+                px = (ln_x0[i, s] - ln_lam[l] - lx0) / dx
+                xs = 0.0
+                if px < 0.0:
+                    xs = px * dx          # below the axis: Rayleigh, Q ∝ x
+                    px = 0.0
+                if px > nx - 1:
+                    px = nx - 1.0
+                c = min(int(px), nx - 2)
+                fc = px - c
+                v = 0.0
+                for j in range(4):
+                    v += wab[j] * ((1.0 - fc) * store[sl[j], ia[j], ib[j], c] + fc * store[sl[j], ia[j], ib[j], c + 1])
+                out[i, s, l] = scale * np.exp(v + xs)
+    return missing
+
+
+@numba.njit(cache=True)
+def _newton_one(eps, frac, j, e, tol, n_iter):  # pragma: no cover - compiled
+    """Newton on F(e) = 3 e sum f_i / (eps_i + 2 e) - 1 for element j; returns (e, converged)."""
+    n_comp = eps.shape[0]
+    for _ in range(n_iter):
+        s1 = 0j
+        s2 = 0j
+        for c in range(n_comp):
+            den = eps[c, j] + 2.0 * e
+            if den == 0:
+                return e, False
+            r = 1.0 / den
+            s1 += frac[c] * r
+            s2 += frac[c] * r * r
+        df = 3.0 * s1 - 6.0 * e * s2
+        if df == 0:
+            return e, False
+        step = (3.0 * e * s1 - 1.0) / df
+        e = e - step
+        if not (np.isfinite(e.real) and np.isfinite(e.imag)):
+            return e, False
+        if abs(step) <= tol * abs(e):
+            return e, True
+    return e, False
+
+
+@numba.njit(cache=True)
+def _bruggeman_newton(eps, frac, tol, out, ok, run):  # pragma: no cover - compiled
+    """Physical Bruggeman root per element, as :func:`motes.optics.mixing._solve_bruggeman` starts it.
+
+    eps, frac: [n_comp, M], in runs of ``run`` elements of one mixture at increasing wavelengths.
+    Newton from the root of the previous element of the run (the sector root is unique, so any
+    converged start inside the sector gives the same root), else from the weighted geometric mean
+    (the general solver's start); where that fails or leaves
+    the sector spanned by the present components, the unique root of the Bruggeman polynomial in the sector (the same root whenever there is one), then
+    the continuation from the majority component in 32 and 512 steps. ok[j] False where all fail (the caller then uses the general solver).
+    """
+    n_comp, m = eps.shape
+    f = np.empty(n_comp)
+    for j in range(m):
+        le = 0j
+        lo, hi = np.inf, -np.inf
+        major = 0
+        for c in range(n_comp):
+            f[c] = frac[c, j]
+            if frac[c, j] > frac[major, j]:
+                major = c
+            if frac[c, j] > 0:
+                le += frac[c, j] * np.log(eps[c, j])
+                arg = np.angle(eps[c, j])
+                lo = min(lo, arg)
+                hi = max(hi, arg)
+        good = False
+        if j % run and ok[j - 1]:
+            # the previous element (the neighbouring wavelength of the same mixture) as start
+            e, conv = _newton_one(eps, f, j, out[j - 1], tol, 50)
+            good = conv and e != 0 and np.angle(e) >= lo - 1e-9 and np.angle(e) <= hi + 1e-9
+        if not good:
+            e, conv = _newton_one(eps, f, j, np.exp(le), tol, 50)
+            good = conv and e != 0 and np.angle(e) >= lo - 1e-9 and np.angle(e) <= hi + 1e-9
+        if not good:
+            # all roots of sum_i f_i (eps_i - e) prod_{k != i} (eps_k + 2 e): the unique one in the sector
+            coeffs = np.zeros(n_comp + 1, dtype=np.complex128)       # increasing powers
+            for i in range(n_comp):
+                term = np.zeros(n_comp + 1, dtype=np.complex128)
+                term[0] = frac[i, j] * eps[i, j]
+                term[1] = -frac[i, j]
+                for c in range(n_comp):
+                    if c != i:
+                        shifted = np.zeros(n_comp + 1, dtype=np.complex128)
+                        shifted[1:] = 2.0 * term[:-1]
+                        term = eps[c, j] * term + shifted
+                coeffs += term
+            roots = np.roots(coeffs[::-1])
+            count = 0
+            pick = 0j
+            for r in roots:
+                if r != 0 and np.isfinite(r.real) and np.angle(r) >= lo - 1e-9 and np.angle(r) <= hi + 1e-9:
+                    count += 1
+                    pick = r
+            if count == 1:
+                for c in range(n_comp):
+                    f[c] = frac[c, j]
+                e, cv = _newton_one(eps, f, j, pick, tol, 50)
+                good = cv and e != 0 and np.angle(e) >= lo - 1e-9 and np.angle(e) <= hi + 1e-9
+        for n_steps in (32, 512):
+            if good:
+                break
+            e = eps[major, j]
+            conv = True
+            for step in range(1, n_steps + 1):
+                t = step / n_steps
+                for c in range(n_comp):
+                    f[c] = t * frac[c, j] + (1.0 - t) * (1.0 if c == major else 0.0)
+                e, cv = _newton_one(eps, f, j, e, tol, 50)
+                conv = conv and cv
+            good = conv and e != 0 and np.angle(e) >= lo - 1e-9 and np.angle(e) <= hi + 1e-9
+        out[j] = e
+        ok[j] = good
+
+
+def _tile_values(ti: int, tk: int) -> np.ndarray:
+    """ln Q_abs on one tile [TILE, TILE, N_X] (float32)."""
+    n = _node_values(LN_N, N_N)[ti * TILE:(ti + 1) * TILE]
+    k = _node_values(LN_K, N_K)[tk * TILE:(tk + 1) * TILE]
+    x = _node_values(LN_X, N_X)
+    out = np.full((TILE, TILE, N_X), np.nan)
+    m = (n[:, None] + 1j * k[None, :]).ravel()
+    mm, xx = np.broadcast_arrays(m[:, None], x[None, :])
+    small = (xx <= MIE_X_MAX) & (np.abs(mm) * xx <= MIE_MX_MAX)
+    q = np.empty(mm.shape)
+    q[small] = mie.efficiencies(mm[small], xx[small]).q_abs
+    q[~small] = th.ray_optics_absorption(mm[~small], xx[~small], n_angles=64)
+    out[:n.size, :k.size] = np.log(np.clip(q, 1e-300, None)).reshape(n.size, k.size, N_X)
+    return out.astype(np.float32)
+
+
+class QAbsTable:
+    """The ln Q_abs(n, k, x) table, tiles built on demand and cached on disk."""
+
+    def __init__(self, folder=None):
+        self.slots = np.full(((N_N + TILE - 1) // TILE, (N_K + TILE - 1) // TILE), -1, dtype=np.int64)
+        self.store = np.empty((0, TILE, TILE, N_X), dtype=np.float32)
+        self._count = 0
+        self.axes = np.array([LN_N[0], LN_N[1], LN_K[0], LN_K[1], LN_X[0], LN_X[1], N_N, N_K, N_X])
+        self.folder = folder
+        self.tiles_built = 0
+
+    @property
+    def key(self) -> str:
+        text = (f"{FORMAT_VERSION} {LN_N} {LN_K} {LN_X} {N_N} {N_K} {N_X} {TILE} {MIE_X_MAX} {MIE_MX_MAX} "
+                f"{mie.solver_summary()}")
+        return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+    def _dir(self):
+        base = self.folder if self.folder is not None else cache_directory() / "thermal_tables"
+        return base / self.key
+
+    def ensure_tile(self, ti: int, tk: int) -> None:
+        if self.slots[ti, tk] >= 0:
+            return
+        path = self._dir() / f"tile_{ti:03d}_{tk:03d}.npy"
+        vals = None
+        if path.exists():
+            try:
+                vals = np.load(path)
+                if vals.shape != (TILE, TILE, N_X):
+                    vals = None
+            except (OSError, ValueError):
+                vals = None
+        if vals is None:
+            vals = _tile_values(ti, tk)
+            path.parent.mkdir(parents=True, exist_ok=True)
+            with atomic_write(path, suffix=".npy") as tmp:
+                with open(tmp, "wb") as fh:
+                    np.save(fh, vals)
+            self.tiles_built += 1
+        if self._count == self.store.shape[0]:
+            grown = np.empty((max(16, 2 * self._count), TILE, TILE, N_X), dtype=np.float32)
+            grown[:self._count] = self.store[:self._count]
+            self.store = grown
+        self.store[self._count] = vals
+        self.slots[ti, tk] = self._count
+        self._count += 1
+
+    @property
+    def tiles_ready(self) -> int:
+        return self._count
+
+    def ensure(self, m) -> None:
+        """Make ready every tile the indices ``m`` (any shape) need."""
+        m = np.asarray(m).ravel()
+        m = m[m.imag > 0]
+        if not m.size:
+            return
+        self._check_range(m)
+        pn = (np.log(m.real) - LN_N[0]) / LN_N[1]
+        pk = (np.log(np.maximum(m.imag, 1e-6)) - LN_K[0]) / LN_K[1]
+        a = np.minimum(pn.astype(int), N_N - 2)
+        b = np.minimum(pk.astype(int), N_K - 2)
+        tiles = set()
+        for da in (0, 1):
+            for db in (0, 1):
+                tiles.update(zip(((a + da) // TILE).tolist(), ((b + db) // TILE).tolist()))
+        for ti, tk in sorted(tiles):
+            self.ensure_tile(ti, tk)
+
+    @staticmethod
+    def _check_range(m):
+        bad = (m.real < 0.3) | (m.real > N_MAX) | (m.imag > K_MAX)
+        if bad.any():
+            v = m[bad][0]
+            raise ModelError(f"effective index {v:.4g} outside the thermal fast path's table "
+                             "(n 0.3-{N_MAX:g}, k <= {K_MAX:g}): use the exact path")
+
+    def q_abs(self, m, x) -> np.ndarray:
+        """Q_abs at indices ``m`` and size parameters ``x`` (same shape); builds missing tiles."""
+        m = np.asarray(m, dtype=complex)
+        x = np.asarray(x, dtype=float)
+        n_, k_, x_ = (np.ascontiguousarray(v.ravel()) for v in (m.real, m.imag, x))
+        out = np.empty(n_.size)
+        for _ in range(10000):
+            code = _interp_lnq(self.store, self.slots, self.axes, n_, k_, x_, out)
+            if code == 0:
+                return out.reshape(x.shape)
+            if code < 0:
+                self._check_range(np.array([n_[-code - 1] + 1j * k_[-code - 1]]))
+                raise ModelError("index outside the thermal table")  # pragma: no cover
+            ti, tk = divmod(code - 1, self.slots.shape[1])
+            self.ensure_tile(ti, tk)
+        raise ModelError("thermal table: too many tiles to build")  # pragma: no cover
+
+
+    def q_abs_sizes(self, m, ln_x0, ln_lam) -> np.ndarray:
+        """Q_abs [N, S, L] at indices ``m`` [N, L] and size parameters ``exp(ln_x0[N, S] - ln_lam[L])``."""
+        m = np.asarray(m, dtype=complex)
+        n_, k_ = np.ascontiguousarray(m.real), np.ascontiguousarray(m.imag)
+        ln_x0 = np.ascontiguousarray(ln_x0, dtype=float)
+        ln_lam = np.ascontiguousarray(ln_lam, dtype=float)
+        out = np.empty((m.shape[0], ln_x0.shape[1], ln_lam.size))
+        for _ in range(3):
+            need = np.zeros(self.slots.shape, dtype=np.bool_)
+            code = _q_batch(self.store, self.slots, self.axes, n_, k_, ln_x0, ln_lam, out, need)
+            if code == 0:
+                return out
+            if code < 0:
+                i, l = divmod(-code - 1, ln_lam.size)
+                self._check_range(np.array([n_[i, l] + 1j * k_[i, l]]))
+                raise ModelError("index outside the thermal table")  # pragma: no cover
+            for ti, tk in zip(*np.nonzero(need)):
+                self.ensure_tile(int(ti), int(tk))
+        raise ModelError("thermal table: tiles still missing after building")  # pragma: no cover
+
+_TABLE: QAbsTable | None = None
+
+
+def q_abs_table() -> QAbsTable:
+    """The process's Q_abs table (tiles shared by every model)."""
+    global _TABLE
+    if _TABLE is None or _TABLE.folder is not None or _TABLE._dir() != (cache_directory() / "thermal_tables" / _TABLE.key):
+        _TABLE = QAbsTable()
+    return _TABLE
+
+
+def balance_grid(materials) -> np.ndarray:
+    """The fast path's balance grid [um]: 20 per decade plus the materials' points beyond 2 um."""
+    extra = np.concatenate([m.wavelength[m.wavelength > 2.0] for m in materials])
+    return th.thermal_wavelength_grid(per_decade=BALANCE_PER_DECADE, extra=extra,
+                                      extra_per_decade=FEATURE_PER_DECADE)
+
+
+class ThermalRingModel:
+    """Band fluxes of a ring of one material set's mixtures, batched over parameter points.
+
+    Parameters
+    ----------
+    description : motes.dust.model.description.ModelDescription
+        Materials, mixing rule, star (``luminosity`` and ``teff`` or a spectrum).
+    bands : sequence of Band
+        The thermal bands.
+    distance_pc : float, default 1
+        Observer distance of the returned fluxes.
+    table : QAbsTable, optional
+
+    Notes
+    -----
+    :meth:`band_flux` returns Jy per au^2 of total grain cross-section; the
+    amount of dust is a free scale of the fit.
+    """
+
+    @accepts_quantities
+    def __init__(self, description, bands, distance_pc: float = 1.0, table: QAbsTable | None = None):
+        from .thermal import _check_coverage, _flux_jy, _star_at
+
+        star = description.star
+        if star.luminosity is None:
+            raise InputError("the thermal side needs the star's luminosity: add luminosity = ... [L_sun]",
+                             path=description.source, where="[star]")
+        self.description = description
+        self.luminosity = float(star.luminosity)
+        self.table = table if table is not None else q_abs_table()
+        grid = balance_grid(description.materials)
+        _check_coverage(description, grid)
+        self.grid = grid
+        l_grid, self.star_notes = th.stellar_luminosity_density(grid, self.luminosity, teff=star.teff,
+                                                                spectrum=star.spectrum)
+        w = th.trapezoid_weights(grid)
+        self._wl = w * l_grid * th._L_SUN                        # W per um-weight
+        self._w = w
+        nodes, coef, star_band = [], [], []
+        for band in bands:
+            lo, hi = band.wavelength_min, band.wavelength_max
+            if lo < grid[0] or hi > grid[-1]:
+                raise InputError(f"band '{band.name}' ({lo:.4g}-{hi:.4g} um) lies outside the thermal grid "
+                                 f"({grid[0]:.3g}-{grid[-1]:.3g} um)", where="thermal bands")
+            fine = np.union1d(np.linspace(lo, hi, 801),
+                              band.wavelength[(band.wavelength >= lo) & (band.wavelength <= hi)])
+            nd, wt = weighted_gauss_nodes(fine, band.weight(fine), BAND_NODES)
+            c = band.flux_lambda_to_fnu(1.0) * wt / flam_to_fnu(1.0, nd)
+            nodes.append(nd)
+            coef.append(c)
+            star_band.append(float(np.sum(c * _flux_jy(_star_at(description, self.luminosity, grid, l_grid, nd),
+                                                       nd, distance_pc))))
+        self.bands = tuple(bands)
+        self.band_nodes = np.concatenate(nodes)
+        self._coef = np.zeros((len(bands), self.band_nodes.size))
+        j = 0
+        for i, c in enumerate(coef):
+            self._coef[i, j:j + c.size] = c
+            j += c.size
+        self.star_flux = np.array(star_band)
+        self.distance_pc = float(distance_pc)
+        lam = np.concatenate([grid, self.band_nodes])
+        self._lam = lam
+        samples = [m.sample(lam) for m in description.materials]
+        self.notes = tuple(dict.fromkeys([*self.star_notes, *(n for s in samples for n in s.notes), FAST_NOTE]))
+        self._ind = np.array([s.m for s in samples])
+        self._t_grid = np.exp(np.arange(np.log(th.TEMPERATURE_RANGE[0]), np.log(th.TEMPERATURE_RANGE[1]) + 1e-9,
+                                        _LN_T_STEP))
+        self._planck = w[:, None] * np.pi * th.planck_lambda(grid[:, None], self._t_grid[None, :])   # [L, T]
+        # B_nu [Jy/sr] at band nodes is evaluated per temperature; constant factor au^2 / d^2
+        self._flux_factor = th._AU**2 / (self.distance_pc * th._PC) ** 2
+        self._gl = np.polynomial.legendre.leggauss(N_SIZES)
+        self._gl_t = np.polynomial.legendre.leggauss(N_SIZES_T)
+        # both node sets span the same interval in ln a: one set of interpolation weights for every point
+        tt, tf = self._gl_t[0], self._gl[0]
+        j = np.clip(np.searchsorted(tt, tf) - 1, 0, tt.size - 2)
+        self._t_index, self._t_frac = j, (tf - tt[j]) / (tt[j + 1] - tt[j])
+
+    def effective_index(self, fractions, porosity):
+        """[N, n_lambda] effective indices on the balance grid and band nodes.
+
+        Bruggeman: a compiled Newton from the same start and to the same tolerance as
+        :func:`motes.optics.mixing.mix_refractive_index`, which takes over wherever it does not
+        converge inside the physical sector; other rules go there directly.
+        """
+        from .thermal import _matrix_index
+
+        d = self.description
+        f = np.atleast_2d(np.asarray(fractions, dtype=float))
+        p = np.broadcast_to(np.asarray(porosity, dtype=float), (f.shape[0],))
+        if d.mixing != "bruggeman" or not (np.isfinite(f).all() and (f >= 0).all() and (p >= 0).all()
+                                           and (p < 1).all()):
+            return mix_refractive_index(self._ind[:, None, :], f.T[:, :, None], p[:, None],
+                                        rule=d.mixing, matrix=_matrix_index(d))
+        n_pts, n_lam = f.shape[0], self._lam.size
+        n_comp = self._ind.shape[0] + 1
+        eps = np.empty((n_comp, n_pts, n_lam), dtype=complex)
+        eps[:-1] = (self._ind**2)[:, None, :]
+        eps[-1] = 1.0
+        phi = np.empty((n_comp, n_pts, n_lam))
+        phi[:-1] = ((1.0 - p)[None, :] * f.T)[:, :, None]
+        phi[-1] = p[:, None]
+        eps2, phi2 = eps.reshape(n_comp, -1), phi.reshape(n_comp, -1)
+        e = np.empty(eps2.shape[1], dtype=complex)
+        ok = np.empty(eps2.shape[1], dtype=np.bool_)
+        _bruggeman_newton(eps2, phi2, BRUGGEMAN_TOLERANCE, e, ok, n_lam)
+        if not ok.all():
+            bad = np.flatnonzero(~ok)
+            ii, ll = np.unravel_index(bad, (n_pts, n_lam))
+            m_bad = mix_refractive_index(self._ind[:, ll], f.T[:, ii], p[ii], rule="bruggeman")
+            e[bad] = m_bad**2
+        return np.sqrt(e).reshape(n_pts, n_lam)
+
+    def prepare(self, fractions, porosity) -> None:
+        """Build, in advance, the table tiles these mixtures need."""
+        self.table.ensure(self.effective_index(fractions, porosity))
+
+    @accepts_quantities
+    def evaluate(self, fractions, porosity, a_min, a_max, q, radius_au, temperatures: bool = False):
+        """Band fluxes [Jy per au^2 of grain cross-section at distance_pc], shape [N, n_bands].
+
+        Parameters
+        ----------
+        fractions : ndarray[N, n_materials]
+        porosity, a_min, a_max, q, radius_au : ndarray[N] (or scalars broadcasting)
+        temperatures : bool
+            Also return the grain temperatures [N, N_SIZES_T] and their sizes [um].
+        """
+        f = np.atleast_2d(np.asarray(fractions, dtype=float))
+        n = f.shape[0]
+        por, amin, amax, qq, r = (np.broadcast_to(np.asarray(v, dtype=float), (n,))
+                                  for v in (porosity, a_min, a_max, q, radius_au))
+        if not (np.isfinite(r).all() and (r > 0).all()):
+            raise InputError(f"ring radius must be > 0 au, got {r[~(r > 0)][:1]}", where="radius_au")
+        m = self.effective_index(f, por)                                         # [N, L']
+        t_gl, w_gl = self._gl
+        half = 0.5 * np.log(amax / amin)
+        ln_a = np.log(amin)[:, None] + half[:, None] * (t_gl[None, :] + 1.0)
+        a = np.exp(ln_a)                                                         # [N, S] flux nodes
+        w_ln = w_gl[None, :] * half[:, None]
+        ln_at = np.log(amin)[:, None] + half[:, None] * (self._gl_t[0][None, :] + 1.0)   # [N, S_T]
+        n_grid = self.grid.size
+        ln_2pi = np.log(2 * np.pi)
+        qg = self.table.q_abs_sizes(np.ascontiguousarray(m[:, :n_grid]), ln_at + ln_2pi, np.log(self.grid))
+        qb = self.table.q_abs_sizes(np.ascontiguousarray(m[:, n_grid:]), ln_a + ln_2pi, np.log(self.band_nodes))
+        absorbed = (qg @ self._wl) / (16 * np.pi * (r[:, None] * th._AU) ** 2)    # [N, S] W m^-2
+        if not (absorbed > 0).all():
+            raise ModelError("a grain absorbs no starlight (Q_abs = 0 wherever the star shines)")
+        e_tab = qg @ self._planck                                                # [N, S, T]
+        ln_e = np.log(np.maximum(e_tab, 1e-300))
+        ln_abs = np.log(absorbed)
+        if (ln_abs > ln_e[:, :, -1]).any():
+            raise ModelError(f"grains would be hotter than {th.TEMPERATURE_RANGE[1]:g} K: the ring lies inside "
+                             "the sublimation radius of every solid (move it out)")
+        if (ln_abs < ln_e[:, :, 0]).any():
+            raise ModelError(f"grains would be colder than {th.TEMPERATURE_RANGE[0]:g} K")
+        j = np.clip((ln_e < ln_abs[:, :, None]).sum(axis=-1) - 1, 0, self._t_grid.size - 2)
+        e0 = np.take_along_axis(ln_e, j[..., None], -1)[..., 0]
+        e1 = np.take_along_axis(ln_e, (j + 1)[..., None], -1)[..., 0]
+        lt = np.log(self._t_grid)
+        ln_t = lt[j] + (ln_abs - e0) / (e1 - e0) * _LN_T_STEP
+        lam = self.grid
+        for _ in range(1):          # one Newton step on ln E(ln T) (from a start good to ~1e-3)
+            t = np.exp(ln_t)
+            b = np.pi * th.planck_lambda(lam, t[..., None])
+            xh = th._HC_OVER_K_UM_K / (lam * t[..., None])
+            db = b * xh / -np.expm1(-xh)
+            e = np.einsum("nsl,nsl->ns", qg * self._w, b)
+            de = np.einsum("nsl,nsl->ns", qg * self._w, db)
+            ln_t = ln_t - np.clip((np.log(e) - ln_abs) * e / de, -0.5, 0.5)
+        t_nodes = np.exp(ln_t)
+        j = self._t_index
+        slope = (ln_t[:, j + 1] - ln_t[:, j]) / (ln_at[:, j + 1] - ln_at[:, j])
+        t = np.exp(ln_t[:, j] + slope * (ln_a - ln_at[:, j]))                    # T at the flux nodes
+        c = w_ln * a ** (3.0 - qq[:, None])
+        c = c / c.sum(axis=1, keepdims=True)                                     # cross-section share per node
+        bnu = th.planck_nu(self.band_nodes, t[..., None])                        # [N, S, B'] Jy/sr
+        fnu = np.einsum("ns,nsb,nsb->nb", c, qb, bnu) * self._flux_factor        # [N, B'] Jy per au^2
+        out = fnu @ self._coef.T
+        if temperatures:
+            return out, t_nodes, np.exp(ln_at)
+        return out
