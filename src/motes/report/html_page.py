@@ -325,7 +325,11 @@ def _write(path: Path, text: str) -> Path:
 def _settings_pairs(settings) -> list[tuple[str, str]]:
     if settings is None or not dataclasses.is_dataclass(settings):
         return []
-    return [(f"setting {f.name}", repr(getattr(settings, f.name))) for f in dataclasses.fields(settings)]
+    def shown(value):
+        # objects that describe themselves (a type prior) in words, plain values as written
+        return value.describe() if callable(getattr(value, "describe", None)) else repr(value)
+
+    return [(f"setting {f.name}", shown(getattr(settings, f.name))) for f in dataclasses.fields(settings)]
 
 
 def _photometry_table(phot) -> PageTable:
