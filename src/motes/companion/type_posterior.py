@@ -113,6 +113,20 @@ def _region(prob: np.ndarray, width: np.ndarray, level: float) -> tuple[np.ndarr
     return chosen, merged
 
 
+def _normalised_cells(values, prob):
+    """The finite grid values, their probabilities normalised to 1, and the cells' edges and widths
+    (None when no probability is left)."""
+    values = np.asarray(values, dtype=float)
+    prob = np.where(np.isfinite(values), np.asarray(prob, dtype=float), 0.0)
+    total = prob.sum()
+    if not total > 0:
+        return None
+    keep = np.flatnonzero(np.isfinite(values))
+    v, p = values[keep], prob[keep] / total
+    left, right = cell_edges(v)
+    return v, p, left, right, np.abs(right - left)
+
+
 def hdr_intervals(values, prob, level: float = HDR_LEVEL) -> tuple[tuple[float, float, float], ...]:
     """Highest-density intervals of a posterior on consecutive grid cells.
 
@@ -139,15 +153,10 @@ def hdr_intervals(values, prob, level: float = HDR_LEVEL) -> tuple[tuple[float, 
     >>> [f"{lo:.1f}-{hi:.1f} ({q:.2f})" for lo, hi, q in hdr_intervals(x, p)]
     ['1.7-2.3 (0.34)', '6.7-7.3 (0.34)']
     """
-    values = np.asarray(values, dtype=float)
-    prob = np.where(np.isfinite(values), np.asarray(prob, dtype=float), 0.0)
-    total = prob.sum()
-    if not total > 0:
+    cells = _normalised_cells(values, prob)
+    if cells is None:
         return ()
-    keep = np.flatnonzero(np.isfinite(values))
-    v, p = values[keep], prob[keep] / total
-    left, right = cell_edges(v)
-    width = np.abs(right - left)
+    v, p, left, right, width = cells
     chosen, runs = _region(p, width, level)
     out = []
     for first, last in runs:
@@ -173,15 +182,10 @@ def posterior_peaks(values, prob, level: float = PEAK_LEVEL) -> tuple[tuple[floa
         the run's extent, and the probability between the density minima
         that bound the peak (the peaks' probabilities sum to 1).
     """
-    values = np.asarray(values, dtype=float)
-    prob = np.where(np.isfinite(values), np.asarray(prob, dtype=float), 0.0)
-    total = prob.sum()
-    if not total > 0:
+    cells = _normalised_cells(values, prob)
+    if cells is None:
         return ()
-    keep = np.flatnonzero(np.isfinite(values))
-    v, p = values[keep], prob[keep] / total
-    left, right = cell_edges(v)
-    width = np.abs(right - left)
+    v, p, left, right, width = cells
     _, runs = _region(p, width, level)
     with np.errstate(divide="ignore", invalid="ignore"):
         density = np.where(width > 0, p / np.where(width > 0, width, 1.0), 0.0)
