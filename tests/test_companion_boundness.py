@@ -100,6 +100,23 @@ def test_the_issue_background_m4_is_not_a_confident_bound_companion():
         assert test.background.type.median < test.bound.type.median - 10   # early M behind vs T at the host
 
 
+def test_a_large_b_from_the_prior_volume_alone_is_not_bound():
+    # M0 ten times beyond a host at 5.7 pc, Galactic prior to 30 kpc: B ~ 1e3 (the prior puts little
+    # probability at 74 pc), but the colours fit better as a K7 at ~74 pc (chi2 0.1) than as any
+    # template at the host (an M7, chi2 3.0): the photometry does not point to the host
+    s = BoundnessSettings(galactic_l_deg=120.0, galactic_b_deg=40.0)
+    test = photometric_boundness(_synthetic("M0", shift=5.0), s)
+    assert test.ln_bayes_factor > math.log(150)
+    assert test.colours_prefer_background and test.verdict == "ambiguous"
+    assert test.bound.chi2 - test.background.chi2 > 2.0
+    assert test.background.distance.lower > 5.7
+    assert any("volume of the line-of-sight prior" in f for f in test.flags)
+    assert "Akaike" in test.rule and bool(test.to_table()["colours_prefer_background"][0])
+    # the same M0 at the host: the background reading overlaps the host's distance, no veto
+    at_host = photometric_boundness(_synthetic("M0"), s)
+    assert at_host.verdict == "bound" and not at_host.colours_prefer_background
+
+
 def test_a_companion_at_the_host_distance_is_bound_and_b_scales_with_the_cube_of_the_limit():
     test = photometric_boundness(_synthetic("L3"))
     assert test.verdict == "bound" and not test.flags
@@ -130,8 +147,9 @@ def test_sequence_objects_at_the_host_and_ten_times_beyond(settings, capsys):
 
     Measured (issue 11, not tuned; field type prior): at the host 23/29 bound with either prior,
     the rest (T2-T8: JHK of T dwarfs are matched by distant G-M stars) ambiguous, none background;
-    10x beyond none (uniform) and 2/29 (b = 40°: M0, M1) called bound - early M dwarfs at 57 pc
-    whose JHK colours a late M at the host matches (chi2 ~3 for 3 dof).
+    10x beyond none called bound with either prior. (Before the prior-volume veto, 2/29 - M0 and
+    M1 at b = 40° - were called bound: a late M at the host matches their JHK with chi2 3-5, while
+    the background reading fits with chi2 0.1.)
     """
     at_host, behind = [], []
     for code in range(60, 89):
@@ -142,7 +160,7 @@ def test_sequence_objects_at_the_host_and_ten_times_beyond(settings, capsys):
               f"10x beyond: {dict((v, behind.count(v)) for v in set(behind))}")
     assert at_host.count("background") == 0
     assert at_host.count("bound") >= 23
-    assert behind.count("bound") <= 2
+    assert behind.count("bound") == 0
 
 
 def test_bad_settings_are_refused():

@@ -56,6 +56,21 @@ when the prior odds are known, P(bound) >= :data:`CONFIDENT_PROBABILITY`;
 ``background`` when B <= 1/threshold or P(bound) <= 1 - CONFIDENT_PROBABILITY;
 ``ambiguous`` otherwise. A large P(bound) that rests on the prior odds while the
 photometry is not decisive is said so, and is not called bound.
+
+One more condition guards ``bound``: the colours themselves must not prefer a place away from
+the host. When the background reading (its most probable type and distance) puts the
+companion elsewhere — its 68% distance interval clear of the host's — fits acceptably, and
+fits better than every template at the host's distance by more than its one extra free
+parameter (the distance) buys — chi2_bound - chi2_background > :data:`EXTRA_PARAMETER_CHI2` = 2,
+the Akaike information criterion's penalty per parameter (Akaike 1974, IEEE Trans. Autom.
+Control 19, 716) — the verdict is ``ambiguous`` however large B is. In that case B is large only because the line-of-sight prior
+spreads its probability over a large volume (the prior density at any one distance is small,
+and B grows as the cube of the limit), not because the photometry points to the host: in JHK
+an early-M dwarf ten times farther than a nearby host and a late-M dwarf at the host have
+nearly the same colours and magnitudes. Both readings are printed with the bands that would
+separate them. The margin is the criterion's, not tuned to any case: smaller differences
+(e.g. a mid-M dwarf at the host against a K dwarf seven times farther, chi2 1.7 against 0.9) are
+what one extra free parameter buys by chance.
 """
 
 from __future__ import annotations
@@ -99,6 +114,7 @@ __all__ = [
     "BoundnessTest",
     "CONFIDENT_PROBABILITY",
     "DEGENERATE_TYPE_DIFFERENCE",
+    "EXTRA_PARAMETER_CHI2",
     "DISTANCE_PRIORS",
     "LEFT_OUT_Z",
     "photometric_boundness",
@@ -117,6 +133,9 @@ _SEPARATING_MAG = 0.3
 #: A detected band left out of B contradicts a reading beyond this many sigma (common practice, no source:
 #: large because the prediction is the reading's best template alone, without its type uncertainty).
 LEFT_OUT_Z = 5.0
+#: chi2 improvement that one extra free parameter buys by chance (the Akaike information criterion's
+#: 2 per parameter; Akaike 1974): a background reading must fit better than this to veto ``bound``.
+EXTRA_PARAMETER_CHI2 = 2.0
 
 
 _SETTING_QUANTITIES = {
@@ -353,6 +372,10 @@ class BoundnessTest:
         z bound, z background), predictions from each reading's most probable
         template; a reading contradicted by more than :data:`LEFT_OUT_Z` sigma
         (while the other is not) is flagged, the verdict is not changed.
+    colours_prefer_background : bool
+        The background reading lies away from the host (68% interval clear of the host's
+        distance), fits, and fits better than any template at the host by more than
+        :data:`EXTRA_PARAMETER_CHI2`: never ``bound``.
     """
 
     bound: Reading
@@ -376,6 +399,7 @@ class BoundnessTest:
     prior: str
     settings: object = field(repr=False, default=None)
     left_out_checks: tuple = ()
+    colours_prefer_background: bool = False
 
     @property
     def bayes_factor(self) -> float:
@@ -413,6 +437,7 @@ class BoundnessTest:
         for i, (text, ln_b) in enumerate(self.sensitivity, 1):
             row[f"ln_bayes_factor_alt{i}"] = [ln_b]
         row["degenerate"] = [self.degenerate]
+        row["colours_prefer_background"] = [self.colours_prefer_background]
         t = Table(row)
         t["ln_bayes_factor"].description = "ln Z(at the host's distance) - ln Z(anywhere on the line of sight)"
         t["p_bound"].description = "B O / (1 + B O); nan without a separation"
@@ -634,13 +659,17 @@ def photometric_boundness(photometry, settings: BoundnessSettings | None = None,
     thr = settings.bayes_factor_threshold
     ln_thr = math.log(thr)
     known = math.isfinite(p_bound)
-    if ln_b >= ln_thr and (not known or p_bound >= CONFIDENT_PROBABILITY):
-        verdict = "bound"
-    elif ln_b <= -ln_thr or (known and p_bound <= 1.0 - CONFIDENT_PROBABILITY):
+    elsewhere = background.distance.lower > d_host + d_err or background.distance.upper < d_host - d_err
+    prefer_bg = bool(elsewhere and background.fits and bound.chi2 - background.chi2 > EXTRA_PARAMETER_CHI2)
+    if ln_b <= -ln_thr or (known and p_bound <= 1.0 - CONFIDENT_PROBABILITY):
         verdict = "background"
+    elif ln_b >= ln_thr and (not known or p_bound >= CONFIDENT_PROBABILITY) and not prefer_bg:
+        verdict = "bound"
     else:
         verdict = "ambiguous"
     rule = (f"bound if B >= {thr:g}" + (f" and P(bound) >= {CONFIDENT_PROBABILITY:g}" if known else "")
+            + f", unless a background reading away from the host fits better than every template at the host's "
+              f"distance by chi2 > {EXTRA_PARAMETER_CHI2:g} (one extra free parameter, Akaike's criterion)"
             + f"; background if B <= 1/{thr:g}" + (f" or P(bound) <= {1 - CONFIDENT_PROBABILITY:.2g}" if known else "")
             + "; ambiguous otherwise")
     degenerate = bool(bound.fits and background.fits
@@ -659,11 +688,12 @@ def photometric_boundness(photometry, settings: BoundnessSettings | None = None,
     if kind == "uniform":
         notes.append("with a uniform-in-volume prior B grows about as the cube of the distance limit (B for "
                      "half and twice the limit are printed)")
-    flags = _flags(verdict, ln_b, p_bound, known, bound, background, degenerate, separating, thr)
+    flags = _flags(verdict, ln_b, p_bound, known, bound, background, degenerate, separating, thr,
+                   prefer_bg and ln_b >= ln_thr)
     flags.extend(_left_out_flags(left_out))
     return BoundnessTest(bound, background, ln_b, n_exp, sigma, sigma_source, count_band, count_mag, odds, p_bound,
                          verdict, rule, sensitivity, degenerate, tuple(separating), tuple(obs.names[i] for i in cols),
-                         tuple(notes), tuple(flags), prior_text, settings, tuple(left_out))
+                         tuple(notes), tuple(flags), prior_text, settings, tuple(left_out), prefer_bg)
 
 
 def _left_out_flags(left_out) -> list[str]:
@@ -775,14 +805,18 @@ def _prior_label(type_prior) -> str:
     return "user knots"
 
 
-def _flags(verdict, ln_b, p_bound, known, bound, background, degenerate, separating, thr):
+def _flags(verdict, ln_b, p_bound, known, bound, background, degenerate, separating, thr, volume_only=False):
     flags = []
     b_text = f"B = {_fmt_b(ln_b)}"
     if verdict == "background":
         flags.append(f"photometric boundness: the photometry favours an unrelated object ({b_text}"
                      + (f", P(bound) = {p_bound:.3g}" if known else "") + f"): {background.describe()}")
     elif verdict == "ambiguous":
-        why = (f"P(bound) = {p_bound:.3g} rests on the prior odds; the photometry alone is not decisive"
+        why = (f"B is large only through the volume of the line-of-sight prior: the photometry fits better away "
+               f"from the host (chi2 {background.chi2:.1f} as {type_label(background.best_type_code)} at "
+               f"{background.best_distance:.3g} pc, against {bound.chi2:.1f} at the host's distance)"
+               if volume_only else
+               f"P(bound) = {p_bound:.3g} rests on the prior odds; the photometry alone is not decisive"
                if known and p_bound >= CONFIDENT_PROBABILITY else
                f"P(bound) = {p_bound:.3g}" if known else "no separation given, so no prior odds")
         flags.append(f"photometric boundness not decided ({b_text}, threshold {thr:g}; {why}): bound reading "
