@@ -83,6 +83,7 @@ def test_bad_priors_are_refused(value, message):
 
 
 def test_a_prior_outside_the_sequence_is_refused_before_anything_is_fitted():
+    # T9.5-Y0 are rows of the sequence since issue 11, but MKO ones: the grid for 2MASS photometry stops at T9
     with pytest.raises(InputError, match="excludes every template") as info:
         _colours_only("M5", type_prior="T9.5=1,Y0=1")
     assert "type_prior" in str(info.value)

@@ -83,7 +83,8 @@ def register(subparsers) -> None:
         help="rank spectral types (and Teff) of a companion from its photometry",
         description=(
             "Calibrate a target's photometry (as `motes photometry` does) and rank spectral types "
-            "against the built-in mean dwarf sequence (G0-T9), optionally a folder of labelled spectra, "
+            "against the built-in mean dwarf sequence (G0-Y4; Y rows in MKO J/K), optionally a folder of "
+            "labelled spectra, "
             "and blackbodies as a fallback for bands nothing else covers. Each template is fitted with "
             "one magnitude offset shared by all bands: with the host's distance known the offset has a "
             "Gaussian prior of the distance-modulus error (plus the templates' luminosity scatter); in "
@@ -112,7 +113,7 @@ def register(subparsers) -> None:
     p.add_argument("--luminosity-scatter", metavar="MAG", type=float, default=None,
                    help="shared absolute-magnitude scatter at fixed type (default 0.30 mag)")
     p.add_argument("--types", metavar="FIRST-LAST", type=_range, default=None,
-                   help="restrict the dwarf sequence, e.g. M0-T9 (default: all of G0-T9)")
+                   help="restrict the dwarf sequence, e.g. M0-T9 (default: all of G0-Y4)")
     p.add_argument("--type-prior", metavar="PRIOR", default=None,
                    help="prior over the sequence's types: field (default: space density of nearby dwarfs per "
                         "subtype), flat, or knots TYPE=WEIGHT,... e.g. 'M0=1,L0=0.3,T8=0.3' (linear between, "

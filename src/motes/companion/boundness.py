@@ -45,7 +45,7 @@ unrelated sources at least as bright as the companion within its separation rho:
 N = pi rho^2 Sigma(<m), the chance of at least one such source p = 1 - exp(-N), and
 O = (1 - p) / p. Sigma is the user's (the best choice: count a catalogue around the host)
 or :func:`cumulative_surface_density`, the same Galactic model and field population counted
-to the companion's magnitude (dwarfs G0-T9 only: giants and earlier dwarfs are missing, so
+to the companion's magnitude (the test's templates only, G0-T9 for 2MASS bands: giants and earlier dwarfs are missing, so
 at bright magnitudes it undercounts). P(bound) = B O / (1 + B O).
 
 Verdict (one rule, printed with the result)
@@ -737,7 +737,8 @@ def _counts(obs, cols, codes, absmag, k, pi_t, step, settings, kind, limit, l_de
                                        extinction_coeff=float(k[j]), av_per_kpc=settings.av_per_kpc,
                                        dust_scale_height_pc=settings.dust_scale_height_pc, galaxy=settings.galaxy)
     return (obs.names[col], mag, sigma,
-            "built-in counts model (field dwarfs G0-T9 in the same Galactic model; giants and earlier types are "
+            f"built-in counts model (field dwarfs {type_label(codes.min())}-{type_label(codes.max())}, the "
+            "templates of the test, in the same Galactic model; giants and earlier types are "
             "missing, so it undercounts bright sources: give source_density for a paper)")
 
 

@@ -14,8 +14,10 @@ user library, blackbodies) and every mode:
     = 40 mag; for templates with an absolute scale delta is the distance
     modulus and the range is -5 to 35 mag, i.e. 0.1 pc to 100 Mpc).
 
-Per-band template scatter sigma_tpl adds to the observed errors. The
-likelihood, the limits and the marginalisation are in
+Per-band template scatter sigma_tpl adds to the observed errors (in the
+colours-only mode, for the dwarf sequence, with the sequence's own uncertainty
+measured from its rows added in quadrature: :func:`sequence_colour_scatter`).
+The likelihood, the limits and the marginalisation are in
 :mod:`motes.companion.likelihood`. Template probabilities of the dwarf
 sequence include a prior over types (:mod:`motes.companion.type_prior`;
 default: the solar-neighbourhood space density per subtype), and every
@@ -67,6 +69,8 @@ __all__ = [
     "OFFSET_PRIOR_LOWER",
     "EXCLUSION_TOLERANCE",
     "CAVEATS",
+    "sequence_colour_scatter",
+    "SEQUENCE_SCATTER_WINDOW",
 ]
 
 MODES = ("auto", "distance", "colours", "both")
@@ -381,8 +385,11 @@ def _fit(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySe
         nodes, weights = av_prior_grid(settings.av_max, settings.av_steps)
         kwargs.update(extinction_coeff=ext[columns], av_nodes=nodes, av_weights=weights)
     sigma = np.where(obs.detected[columns], obs.sigma[columns], 1.0)
+    scatter = settings.template_scatter
+    if mode == "colours" and grid.kind == "sequence" and "row_residuals" in grid.extra:
+        scatter = sequence_colour_scatter(grid, templates, columns, settings.template_scatter)
     marginal = offset_marginal(model, obs.mag[columns], sigma, obs.detected[columns],
-                               settings.template_scatter, prior, **kwargs)
+                               scatter, prior, **kwargs)
     ln_z = marginal.ln_evidence
     if not np.any(np.isfinite(ln_z)):
         return None
@@ -398,6 +405,61 @@ def _fit(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySe
     if ext is not None:
         fitted = fitted + marginal.av[:, None] * ext[columns][None, :]
     return _Fit(np.asarray(columns), np.asarray(templates), marginal, probability, fitted, flat)
+
+
+#: Half-width [subtypes] of the window of sequence rows whose leave-one-out residuals give the
+#: sequence's own colour uncertainty at a type (:func:`sequence_colour_scatter`; 2 subtypes: a
+#: choice, common practice, no source - five rows where the rows are whole subtypes, nine where half).
+SEQUENCE_SCATTER_WINDOW = 2.0
+
+
+def sequence_colour_scatter(grid: TemplateGrid, templates, columns, template_scatter: float) -> np.ndarray:
+    """Per-template, per-band template scatter of the colours-only mode, ndarray[n_templates, n_bands] [mag].
+
+    The template scatter (``template_scatter``, the colours of individual
+    dwarfs about the mean) plus, in quadrature, the uncertainty of the mean
+    sequence itself at that type, measured from the sequence's own rows
+    (Notes). Only differences between bands matter with the offset free, so
+    only that part of the rows' residuals is counted.
+
+    Notes
+    -----
+    For each row the leave-one-out residuals r_b (the tabulated value minus
+    the interpolant through the other rows, :meth:`DwarfSequence.interpolation_residuals`)
+    in the n bands used, minus their mean over those bands (the part a common
+    offset absorbs), give d_b. For a template at type t, the rows within
+    :data:`SEQUENCE_SCATTER_WINDOW` subtypes of t that have all n residuals
+    give s_b^2 = mean(d_b^2) * n / (n - 1) / 1.5: the factor n / (n - 1)
+    undoes the mean subtraction, 1/1.5 the interpolation error of the
+    left-out row (for independent errors of the tabulated values and an
+    interpolant that is locally the average of the two neighbours, the
+    residual has 1 + 1/4 + 1/4 = 1.5 times their variance; PCHIP is close to
+    that for smooth slopes). Where the rows are smooth (J, H, Ks of G-M dwarfs,
+    s <~ 0.04 mag; L dwarfs up to ~0.09 mag) this changes little; where the
+    tabulated J, H, K means jitter from row to row (T dwarfs: H - Ks changes
+    by up to 0.6 mag between neighbouring rows, the source's M_J and M_Ks
+    being tabulated separately from its colours) the template is uncertain
+    by that much, and the likelihood says so instead of reading the jitter
+    as information. With fewer than two bands, or no row in the window,
+    nothing is added.
+    """
+    base = float(template_scatter)
+    cols = np.asarray(columns)
+    t = grid.type_code[np.asarray(templates)]
+    out = np.full((t.size, cols.size), base)
+    row_codes, residuals = grid.extra["row_residuals"]
+    residuals = np.asarray(residuals)[:, cols]
+    rows = np.all(np.isfinite(residuals), axis=1)
+    n = cols.size
+    if n < 2 or not rows.any():
+        return out
+    d = residuals[rows] - residuals[rows].mean(axis=1, keepdims=True)
+    d2 = d**2 * n / (n - 1) / 1.5                                    # [n_rows, n_bands]
+    codes = np.asarray(row_codes)[rows]
+    near = np.abs(t[:, None] - codes[None, :]) <= SEQUENCE_SCATTER_WINDOW + 1e-9   # [n_t, n_rows]
+    count = near.sum(axis=1)
+    var = (near.astype(float) @ d2) / np.maximum(count, 1)[:, None]
+    return np.sqrt(base**2 + np.where(count[:, None] > 0, var, 0.0))
 
 
 def _rank(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySettings, ext,
@@ -447,6 +509,15 @@ def _rank(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifyS
         notes.append(f"{grid.source}, {mode} mode: no template has a finite likelihood")
         return None
     dof = n_det - (1 if mode == "colours" else 0) - int(ext is not None)
+    if mode == "colours" and grid.kind == "sequence" and "row_residuals" in grid.extra:
+        total = sequence_colour_scatter(grid, templates, columns, settings.template_scatter)
+        extra = np.sqrt(np.clip(total**2 - settings.template_scatter**2, 0.0, None))
+        i, j = np.unravel_index(int(np.argmax(extra)), extra.shape)
+        own_notes.append(
+            f"template scatter of the colours-only mode: {settings.template_scatter:g} mag per band plus, in "
+            "quadrature, the mean sequence's own uncertainty measured from its rows (leave-one-out, "
+            f"sequence_colour_scatter): at most {extra[i, j]:.2f} mag ({names[columns][j]} at "
+            f"{type_label(grid.type_code[templates][i])}), median {np.median(extra):.3f} mag")
     rows, arrays = build_rows(grid, fit, obs, mode, dof)
     unused = tuple(n for i, n in enumerate(obs.names) if i not in set(columns.tolist()))
     return Ranking(
@@ -587,7 +658,10 @@ def classify(photometry, settings: ClassifySettings | None = None, library=None,
         if p < FIT_P_THRESHOLD:
             flags.append(f"{r.source}, {r.mode} mode: no template fits (best chi2 = {chi2:.1f} for {r.dof} dof, "
                          f"p = {p:.1e}): its type is the least-bad template, not an answer - not a normal field "
-                         "dwarf? (youth, binarity, extinction, a background star, or a photometry problem)")
+                         "dwarf? (youth, binarity, extinction, a background star, or a photometry problem)"
+                         + ("; rows on the other J/H/K system were not compared (see notes): if it is not a "
+                            "T9.5-Y dwarf, map the bands to the 2MASS ones (--treat-as mko_j=2mass_j,...)"
+                            if any("system only and are not compared" in n for n in notes) else ""))
     for e in estimates:
         if len(e.peaks) > 1:
             flags.append(f"{e.source}, {_MODE_WORDS[e.mode]}: the posterior has {len(e.peaks)} separate peaks "

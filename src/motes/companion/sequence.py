@@ -1,4 +1,4 @@
-"""The built-in empirical sequence of mean dwarf properties (G0 to T9).
+"""The built-in empirical sequence of mean dwarf properties (G0 to Y4).
 
 The data live in ``motes/data/dwarf_sequence.txt``: the published mean dwarf
 sequence of E. Mamajek (version 2024.05.15; Pecaut & Mamajek 2013, ApJS 208, 9),
@@ -7,6 +7,17 @@ photometric systems). This module reads the file once, derives absolute
 magnitudes in every tabulated band from the stored magnitudes and colours, and
 interpolates them to any type code. A user's own table in the same format is
 read by :func:`read_dwarf_sequence_file`.
+
+Photometric systems
+-------------------
+Each row names the system of its J, H, K columns (``jhk_sys``, format 3):
+``2mass`` rows give 2MASS J, H, Ks (``2mass_j``, ``2mass_h``, ``2mass_ks``),
+``mko`` rows MKO J, H, K (``mko_j``, ``mko_h``, ``mko_k``); the built-in
+sequence is on 2MASS to T9 and on MKO from T9.5 (the source's late-T/Y rows,
+see the bundled file's header). A band is tabulated only by the rows of its
+own system: nothing is converted between systems, so 2MASS measurements meet
+only the 2MASS rows and MKO measurements only the MKO rows (a user who accepts
+the difference maps one onto the other explicitly, ``band_map``).
 
 Interpolation
 -------------
@@ -55,13 +66,21 @@ M_BOL_SUN = 4.74
 #: Standard motes band names the sequence tabulates, in wavelength order.
 SEQUENCE_BANDS = (
     "johnson_v", "gaia_bp", "gaia_g", "cousins_r", "gaia_rp", "cousins_i",
-    "2mass_j", "2mass_h", "2mass_ks", "wise_w1", "wise_w2",
+    "2mass_j", "mko_j", "mko_h", "2mass_h", "2mass_ks", "mko_k", "wise_w1", "wise_w2",
 )
+
+#: Values of the per-row system column and the (J, H, K) bands each one gives.
+JHK_SYSTEMS = {"2mass": ("2mass_j", "2mass_h", "2mass_ks"), "mko": ("mko_j", "mko_h", "mko_k")}
+#: Name of that column (format 3).
+SYSTEM_COLUMN = "jhk_sys"
 
 _COLUMNS = ("spt", "teff", "log_l", "mass", "m_v", "v_rc", "v_ic", "m_g", "bp_rp", "g_rp",
             "m_j", "j_h", "h_ks", "ks_w1", "w1_w2")
 #: Format 2 adds ``m_ks`` (absolute Ks as tabulated) after ``h_ks``; format 1 files still read.
 _COLUMNS_2 = _COLUMNS[:13] + ("m_ks",) + _COLUMNS[13:]
+#: Format 3 adds the per-row J, H, K system (:data:`SYSTEM_COLUMN`) after ``w1_w2``; without it every
+#: row is 2MASS.
+_COLUMNS_3 = _COLUMNS_2 + (SYSTEM_COLUMN,)
 #: After either column set a user's table may add absolute magnitudes in any other band, one column
 #: ``abs_<band id>`` each (e.g. ``abs_mko_lp`` for MKO L'), the band id one that motes knows.
 EXTRA_PREFIX = "abs_"
@@ -98,6 +117,9 @@ class DwarfSequence:
     citation : str
         What to cite for the sequence (the header's ``CITE`` section; empty
         when the file has none).
+    systems : tuple of str
+        J, H, K system of each row, ``"2mass"`` or ``"mko"`` (the ``jhk_sys``
+        column; all ``"2mass"`` for a file without it).
     """
 
     labels: tuple[str, ...]
@@ -111,11 +133,12 @@ class DwarfSequence:
     name: str = "mean dwarf sequence"
     _interp: dict = field(default_factory=dict, repr=False)
     extra_bands: tuple = ()
+    systems: tuple = ()
 
     @property
     def bands(self) -> tuple[str, ...]:
         """Band ids the sequence can tabulate: :data:`SEQUENCE_BANDS` and the file's ``abs_<band>`` columns."""
-        return SEQUENCE_BANDS + tuple(self.extra_bands)
+        return tuple(dict.fromkeys(SEQUENCE_BANDS + tuple(self.extra_bands)))
 
     # ------------------------------------------------------------ lookups
     @property
@@ -182,7 +205,79 @@ class DwarfSequence:
                 out[:, j] = self.value(name, code)
         return out
 
+    def interpolation_residuals(self, band_names: Sequence[str]) -> np.ndarray:
+        """Leave-one-out residuals of the tabulated rows, ndarray[n_rows, n_bands] [mag].
+
+        For every band and every row with a value, except the band's first and
+        last row: the row's value minus the interpolant (PCHIP, as
+        :meth:`value`) through the band's other rows; nan elsewhere (and for a
+        band name that is empty or not tabulated, or tabulated by fewer than
+        four rows). They measure how well the rows around a type predict its
+        mean magnitudes: the uncertainty of the interpolated template, which
+        :mod:`motes.companion.classify` adds to the template scatter in the
+        colours-only mode.
+        """
+        out = np.full((self.codes.size, len(band_names)), np.nan)
+        for j, name in enumerate(band_names):
+            key = ("leave-one-out", name)
+            if key not in self._interp:   # cached beside the interpolants
+                self._interp[key] = self._leave_one_out(name)
+            out[:, j] = self._interp[key]
+        return out
+
+    def _leave_one_out(self, name: str) -> np.ndarray:
+        out = np.full(self.codes.size, np.nan)
+        values = self.columns.get(name) if name else None
+        if values is None:
+            return out
+        ok = np.flatnonzero(np.isfinite(values))
+        if ok.size < 4:
+            return out
+        for k in range(1, ok.size - 1):
+            keep = np.delete(ok, k)
+            f = PchipInterpolator(self.codes[keep], values[keep], extrapolate=False)
+            out[ok[k]] = values[ok[k]] - float(f(self.codes[ok[k]]))
+        return out
+
     # ---------------------------------------------------------- template grid
+    def _rows_for(self, targets, lo: float, hi: float, code_range) -> tuple[float, float, list[str]]:
+        """The part of [lo, hi] spanned by the rows whose J, H, K system the observed ``targets`` use, and
+        notes on the rows left out for being on the other system.
+
+        The system in use is MKO when the targets name MKO J/H/K and no 2MASS band, both when they name
+        both, else 2MASS (also for targets without any J, H, K: then nothing changes for a sequence on
+        one system). Nothing is trimmed when no row is on the system in use (a format-1/2 table with
+        ``abs_mko_*`` columns).
+        """
+        systems = np.array(self.systems if self.systems else ("2mass",) * self.codes.size)
+        known = {t for t in targets if t in self.bands}
+        named = {s for s, system_bands in JHK_SYSTEMS.items() if known & set(system_bands)}
+        in_use = named or {"2mass"}
+        mine = np.isin(systems, sorted(in_use))
+        if not mine.any() or mine.all():
+            return lo, hi, []
+        first, last = float(self.codes[mine][0]), float(self.codes[mine][-1])
+        inside = (self.codes >= lo - 1e-9) & (self.codes <= hi + 1e-9)
+        notes = []
+        for system in JHK_SYSTEMS:
+            theirs = inside & (systems == system) & ~mine
+            if named and theirs.any():
+                span = (f"{type_label(self.codes[theirs][0])}-{type_label(self.codes[theirs][-1])}"
+                        if theirs.sum() > 1 else type_label(self.codes[theirs][0]))
+                notes.append(
+                    f"{self.name}: rows {span} give J/H/K on the {'MKO' if system == 'mko' else '2MASS'} system "
+                    f"only and are not compared with the {'2MASS' if system == 'mko' else 'MKO'} measurements ("
+                    + ("no published 2MASS-MKO transformation covers these types; MKO J/K measurements "
+                       "would be compared with them" if system == "mko" else
+                       "to compare them, map the bands explicitly (band_map / --treat-as), accepting a "
+                       "system difference of up to 0.4 mag in J for T dwarfs, Stephens & Leggett 2004")
+                    + ")")
+        lo, hi = max(lo, first), min(hi, last)
+        if hi < lo:
+            raise InputError(f"type range {code_range} holds no row on the {'/'.join(sorted(in_use))} system of "
+                             f"the observed band(s) ({type_label(first)}-{type_label(last)})")
+        return lo, hi, notes
+
     def grid(self, bands: Sequence[Band], mapping: Mapping[str, str] | None = None, *,
              step: float = 0.1, code_range: tuple[float, float] | None = None) -> TemplateGrid:
         """Templates at regular steps in type code, in the observed bands.
@@ -203,6 +298,13 @@ class DwarfSequence:
         -------
         TemplateGrid
             Absolute magnitudes; ``extra["step"]`` holds the step.
+
+        Notes
+        -----
+        The grid spans only the rows on the J, H, K system of the observed (or
+        mapped) bands (see the module notes; 2MASS when they name none): rows
+        of the other system are not templates of this grid, and a note says
+        which were left out.
         """
         mapping = dict(mapping or {})
         lo, hi = self.code_range
@@ -213,10 +315,12 @@ class DwarfSequence:
                                  f"({type_label(self.code_range[0])}-{type_label(self.code_range[1])})")
         if not step > 0:
             raise InputError(f"sequence step must be positive, got {step!r}")
+        targets = [mapping.get(band.name, band.name) for band in bands]
+        lo, hi, notes = self._rows_for(targets, lo, hi, code_range)
         n = int(round((hi - lo) / step)) + 1
         codes = np.round(lo + step * np.arange(n), 6)
         codes = codes[codes <= hi + 1e-9]
-        names, used, notes = [], [], []
+        names, used = [], []
         for band in bands:
             target = mapping.get(band.name, band.name)
             if target != band.name:
@@ -242,12 +346,17 @@ class DwarfSequence:
             teff=self.value("teff", codes), mass=self.value("mass", codes),
             magnitudes=mags, absolute=np.ones(codes.size, bool),
             band_names=tuple(used), template_bands=tuple(names), notes=tuple(notes),
-            extra={"step": step},
+            # (row codes, leave-one-out residuals [n_rows, n_bands]): per row, not per template
+            extra={"step": step, "row_residuals": (self.codes.copy(), self.interpolation_residuals(names))},
         )
 
 
-def _derive(raw: dict[str, np.ndarray], unc: dict[str, np.ndarray]):
-    """Absolute magnitudes per band and BC_Ks from the stored magnitudes and colours."""
+def _derive(raw: dict[str, np.ndarray], unc: dict[str, np.ndarray], mko: np.ndarray | None = None):
+    """Absolute magnitudes per band and BC_Ks from the stored magnitudes and colours.
+
+    ``mko`` marks the rows whose J, H, K columns are MKO (default: none); their J, H, K go to the
+    MKO bands and the 2MASS bands are nan there, and the other way round.
+    """
     cols, flags = {}, {}
 
     def put(name, value, *sources):
@@ -266,6 +375,12 @@ def _derive(raw: dict[str, np.ndarray], unc: dict[str, np.ndarray]):
     tabulated = np.isfinite(raw["m_ks"])
     cols["2mass_ks"] = np.where(tabulated, raw["m_ks"], cols["2mass_h"] - raw["h_ks"])
     flags["2mass_ks"] = np.where(tabulated, unc["m_ks"], flags["2mass_h"] | unc["h_ks"])
+    mko = np.zeros(raw["m_j"].shape, bool) if mko is None else np.asarray(mko, bool)
+    for std, other in zip(JHK_SYSTEMS["2mass"], JHK_SYSTEMS["mko"]):
+        cols[other] = np.where(mko, cols[std], np.nan)
+        flags[other] = flags[std] & mko
+        cols[std] = np.where(mko, np.nan, cols[std])
+        flags[std] = flags[std] & ~mko
     put("wise_w1", cols["2mass_ks"] - raw["ks_w1"], "2mass_ks", "ks_w1")
     put("wise_w2", cols["wise_w1"] - raw["w1_w2"], "wise_w1", "w1_w2")
     for name in ("teff", "log_l", "mass"):
@@ -287,45 +402,59 @@ def read_dwarf_sequence(text: str, path: str = SEQUENCE_FILE) -> DwarfSequence:
         parts = stripped.split()
         if names is None:
             names = parts
-            fixed = next((c for c in (_COLUMNS_2, _COLUMNS) if tuple(names[:len(c)]) == c), None)
+            fixed = next((c for c in (_COLUMNS_3, _COLUMNS_2, _COLUMNS) if tuple(names[:len(c)]) == c), None)
             if fixed is None or not all(n.startswith(EXTRA_PREFIX) for n in names[len(fixed):]):
-                raise InputError(f"expected the columns {' '.join(_COLUMNS_2)} (format 2) or "
-                                 f"{' '.join(_COLUMNS)} (format 1), then optionally columns "
-                                 f"{EXTRA_PREFIX}<band id> (absolute magnitudes in other bands)", path,
-                                 f"line {number}")
-            extra = _extra_bands(names[len(fixed):], path, number)
+                raise InputError(f"expected the columns {' '.join(_COLUMNS_3)} (format 3), the same without "
+                                 f"{SYSTEM_COLUMN} (format 2: every row 2MASS) or without {SYSTEM_COLUMN} and "
+                                 f"m_ks (format 1), then optionally columns {EXTRA_PREFIX}<band id> (absolute "
+                                 "magnitudes in other bands)", path, f"line {number}")
+            has_system = SYSTEM_COLUMN in fixed
+            extra = _extra_bands(names[len(fixed):], path, number, has_system)
+            value_names = [n for n in names[1:] if n != SYSTEM_COLUMN]
+            system_at = names.index(SYSTEM_COLUMN) if has_system else None
             continue
         if len(parts) != len(names):
             raise InputError(f"expected {len(names)} columns, found {len(parts)}", path, f"line {number}")
+        system = "2mass"
+        if system_at is not None:
+            system = parts[system_at].lower()
+            if system not in JHK_SYSTEMS:
+                raise InputError(f"{SYSTEM_COLUMN} must be one of {', '.join(JHK_SYSTEMS)} (the system of the row's "
+                                 f"J, H, K columns), got {parts[system_at]!r}", path, f"line {number}")
         try:
-            rows.append((parts[0], [_parse_value(p) for p in parts[1:]]))
+            values = [_parse_value(p) for k, p in enumerate(parts[1:], 1) if k != system_at]
         except ValueError:
             raise InputError(f"cannot read numbers from {stripped!r}", path, f"line {number}") from None
+        if system == "mko" and math.isfinite(values[value_names.index("ks_w1")][0]):
+            raise InputError("ks_w1 is 2MASS Ks - W1: give it only in 2mass rows (this row's J, H, K are MKO)",
+                             path, f"line {number}")
+        rows.append((parts[0], values, system))
     if names is None or len(rows) < 2:
         raise InputError("the sequence file needs a column line and at least two rows", path)
     labels = tuple(r[0] for r in rows)
     codes = np.array([type_code(lab) for lab in labels])
     if np.any(np.diff(codes) <= 0):
         raise InputError("rows must be in increasing spectral type", path)
-    raw = {n: np.array([r[1][i][0] for r in rows]) for i, n in enumerate(names[1:])}
-    unc = {n: np.array([r[1][i][1] for r in rows]) for i, n in enumerate(names[1:])}
+    raw = {n: np.array([r[1][i][0] for r in rows]) for i, n in enumerate(value_names)}
+    unc = {n: np.array([r[1][i][1] for r in rows]) for i, n in enumerate(value_names)}
     if "m_ks" not in raw:
         raw["m_ks"], unc["m_ks"] = np.full(len(rows), np.nan), np.zeros(len(rows), bool)
-    cols, flags = _derive(raw, unc)
+    cols, flags = _derive(raw, unc, np.array([r[2] == "mko" for r in rows]))
     for name in extra:
         cols[name], flags[name] = raw[EXTRA_PREFIX + name], unc[EXTRA_PREFIX + name]
     return DwarfSequence(labels, codes, cols, flags, "\n".join(header), path, _citation(header),
-                         extra_bands=tuple(extra))
+                         extra_bands=tuple(extra), systems=tuple(r[2] for r in rows))
 
 
-def _extra_bands(columns, path, number) -> list[str]:
-    """Band ids of the ``abs_<band id>`` columns, each a band motes knows and none a standard column's."""
+def _extra_bands(columns, path, number, has_system: bool = False) -> list[str]:
+    """Band ids of the ``abs_<band id>`` columns, each a band motes knows and none a standard column's
+    (the MKO J, H, K are standard columns only in a file with the per-row system column)."""
     from ..photometry.bands import get_band
 
     out = []
     for column in columns:
         name = column[len(EXTRA_PREFIX):]
-        if name in SEQUENCE_BANDS:
+        if name in SEQUENCE_BANDS and (has_system or name not in JHK_SYSTEMS["mko"]):
             raise InputError(f"column {column!r}: {name} is derived from the standard columns; give it there",
                              path, f"line {number}")
         if name in out:
@@ -360,9 +489,10 @@ def read_dwarf_sequence_file(path) -> DwarfSequence:
         A text file: ``#`` comment lines (a ``# CITE`` line followed by
         lines up to an empty comment line gives what to cite), a column line, then one row per
         spectral type in increasing order (``-`` = missing, a trailing ``:``
-        = uncertain). Either column set is accepted:
-        ``spt teff log_l mass m_v v_rc v_ic m_g bp_rp g_rp m_j j_h h_ks m_ks ks_w1 w1_w2``
-        or the same without ``m_ks``, followed optionally by absolute magnitudes
+        = uncertain). Three column sets are accepted:
+        ``spt teff log_l mass m_v v_rc v_ic m_g bp_rp g_rp m_j j_h h_ks m_ks ks_w1 w1_w2 jhk_sys``
+        (``jhk_sys``: ``2mass`` or ``mko``, the system of the row's J, H, K columns), the same
+        without ``jhk_sys`` (every row 2MASS) or also without ``m_ks``, followed optionally by absolute magnitudes
         in other bands, one column ``abs_<band id>`` each (``abs_mko_lp`` for
         MKO L′, ``abs_mko_mp`` for M′; the id must be a band motes knows).
 

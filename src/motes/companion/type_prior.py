@@ -65,6 +65,14 @@ centres was tried first and moved a third of the K density and half of the L
 density into the neighbouring classes, so it was dropped.) The numbers were
 taken from the sources above before any classification was run with them;
 they are not adjusted to make any test pass.
+
+Types beyond T9.9 (the sequence's MKO rows T9.5-Y4, reached only by MKO J/K
+photometry) take the last bin's value, the T density per subtype: no census
+number for Y dwarfs was taken (the 20 pc census of Kirkpatrick et al. 2021
+counts them, from memory), so the prior neither favours nor penalises them.
+The prior is a density per unit of type code, and the sequence grid is
+regular in type code, so its weight per grid point is that density (the
+measure is the same on both sides).
 """
 
 from __future__ import annotations
@@ -99,7 +107,8 @@ FIELD_DENSITY = (
     (type_code("L0"), 0.38),
     (type_code("T0"), 0.38),
 )
-#: Upper end of the last bin of :data:`FIELD_DENSITY` (the end of class T).
+#: Upper end of the last bin of :data:`FIELD_DENSITY` (the end of class T; later types, Y, take the
+#: last bin's value).
 FIELD_LAST_CODE = type_code("T9.9")
 #: Width [subtypes] of the sliding average applied to the bins (see the module notes).
 FIELD_SMOOTHING = 1.0

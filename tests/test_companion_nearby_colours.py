@@ -1,0 +1,83 @@
+"""External check: the nearby dwarfs of test_companion_nearby_dwarfs typed from 2MASS J, H, Ks alone (issue 11).
+
+Same 16 objects, same photometry (2MASS, from memory, see that file), no distance:
+the colours-only mode with the default (field) type prior and with the flat one.
+Two questions, measured on objects nothing was tuned to:
+
+* are the 68% highest-density intervals honest? The count of objects whose
+  published type lies inside one of them must fall in the central 90% binomial
+  range of 0.68 for 16 draws (8-14), the criterion of issue 11;
+* does the reported type (median of the most probable peak) lie within 1.5
+  subtypes for at least 75% of them (issue 11's 15 of 20)? Not yet: marked
+  xfail with the measured numbers and the reasons.
+
+The 16 are spread over M4-T8 by choice, not drawn from the field population
+that the default prior describes, so they favour the flat prior; neither prior
+was changed for them.
+"""
+
+from __future__ import annotations
+
+import pytest
+from scipy.stats import binom
+
+from motes.companion import ClassifySettings, classify, photometry_from_magnitudes, type_code
+from motes.companion.spectral_types import type_label
+from test_companion_nearby_dwarfs import NEARBY
+
+
+def _typed(prior: str):
+    out = []
+    for name, j, h, ks, err, _plx, sptype in NEARBY:
+        phot = photometry_from_magnitudes({"2mass_j": (j, err), "2mass_h": (h, err), "2mass_ks": (ks, err)},
+                                          name=name)
+        est = classify(phot, ClassifySettings(mode="colours", type_prior=prior, blackbody="never")).estimate
+        out.append((name, type_code(sptype), est))
+    return out
+
+
+@pytest.fixture(scope="module", params=["field", "flat"])
+def typed(request):
+    return request.param, _typed(request.param)
+
+
+def _report(prior, rows):
+    print(f"\ncolours-only, J H Ks, {prior} prior:")
+    for name, truth, est in rows:
+        inside = any(a <= truth <= b for a, b, _ in est.intervals)
+        print(f"  {name:<18} {type_label(truth):>5} -> {est.label:<48} diff {est.reported - truth:+5.1f}"
+              f"{'' if inside else '  (outside the 68% HDI)'}")
+
+
+def test_the_68_percent_intervals_are_honest(typed, capsys):
+    prior, rows = typed
+    covered = sum(any(a <= truth <= b for a, b, _ in est.intervals) for _, truth, est in rows)
+    low, high = binom.interval(0.90, len(rows), 0.68)
+    with capsys.disabled():
+        _report(prior, rows)
+        print(f"  68% HDI contains the published type {covered}/{len(rows)} (90% binomial range {low:.0f}-{high:.0f})")
+    # measured (issue 11): field 10/16, flat 13/16 (the same before the sequence's own uncertainty was added)
+    assert low <= covered <= high
+
+
+@pytest.mark.xfail(strict=True, reason=(
+    "measured (issue 11, with the sequence's own colour uncertainty in the likelihood): reported type within "
+    "1.5 subtypes for 5/16 (field prior; posterior median 6/16, mode of the most probable peak 6/16) and 6/16 "
+    "(flat prior; median 8/16, peak mode 7/16); before that uncertainty was added: 5/16 and 8/16. The template "
+    "with the lowest chi2 alone gets 9/16 (10/16 before). Why: (1) M4-M8 differ by only ~0.12 mag in J-H and "
+    "~0.17 mag in H-Ks, against the 0.14 mag per colour that the default 0.10 mag per-band template scatter "
+    "allows, so the likelihood favours late M by a factor ~3 where the field prior favours M3-M5 by ~8 per "
+    "subtype: Wolf 359, Teegarden's star, VB 10, TRAPPIST-1 and 2MASS J1439 come back M3.5-M7.3; (2) the late "
+    "T dwarfs (Gl 570D, 2MASS J0415) have JHK colours within ~0.2 mag of G0-K2 and come back as a G/K peak of "
+    "0.5-0.8 beside a T peak (both reported; the T peak now spans T3.8-T9, the late-T rows being uncertain by "
+    "up to 0.28 mag in Ks); (3) 2MASS J1507 (L5) and DENIS J0255 (L9) fit L2 and L6 best: their colours are "
+    "not the mean sequence's at their types. The summed best chi2 is 2.3 for 16 objects (2 dof each), far "
+    "below its expectation: the 0.10 mag per-band scatter (common practice, no source) is larger than these "
+    "objects' scatter about the sequence - a published per-type colour scatter would sharpen the likelihood; "
+    "none was at hand, and none was fitted to these 16. strict: remove this mark when the test passes"))
+def test_the_reported_type_is_within_one_and_a_half_subtypes(typed, capsys):
+    prior, rows = typed
+    within = sum(abs(est.reported - truth) <= 1.5 for _, truth, est in rows)
+    with capsys.disabled():
+        print(f"\ncolours-only, {prior} prior: reported type within 1.5 subtypes {within}/{len(rows)}")
+    assert within >= 0.75 * len(rows)
