@@ -68,28 +68,40 @@ def main(argv=None):
         print(f"demo fit: {len(spec.models)} models; cores: {os.cpu_count()}; "
               f"tile builders: {tables.table_build_workers()}; cache {os.environ['MOTES_CACHE_DIR']}"
               f"{'' if args.cache else ' (empty)'}")
-        t0 = time.perf_counter()
+        t0, c0 = time.perf_counter(), _cpu_seconds()
         prepare_fit(spec)
         ready = time.perf_counter() - t0
+        cpu = _cpu_seconds() - c0
         built = sum(t.tiles_built for t in tables._TABLES.values())
         building = sum(t.build_seconds for t in tables._TABLES.values())
         loaded = sum(len(t._tiles) for t in tables._TABLES.values())
         per_tile = building / built if built else float("nan")
         print(f"tables ready in {ready:.1f} s: {built} tiles built ({building:.1f} s of building, "
               f"{per_tile:.2f} s per tile wall), {loaded} tiles in memory")
+        # CPU of this process and of the tile builders (pool processes, counted once they end): on a
+        # machine shared with other work the wall time above overstates the cost; CPU / cores is the
+        # wall time the build needs on idle cores when the builders keep every core busy
+        print(f"tables CPU {cpu:.1f} s (this process and its tile builders; {cpu / built if built else float('nan'):.2f} "
+              f"CPU s per tile); on {tables.table_build_workers()} idle cores >= {cpu / tables.table_build_workers():.0f} s wall")
         if not args.fit:
             print(f"{'warm' if args.cache else 'cold'}-start table time {ready:.0f} s against the whole first demo's goal of "
                   f"{GOAL_COLD_S:.0f} s ({ready / GOAL_COLD_S:.2f} of it)")
             return
-        t0 = time.perf_counter()
+        t0, c0 = time.perf_counter(), _cpu_seconds()
         run_fit(description, FitRunSettings(output=work / "cold", workers=1, progress=False), echo=lambda *_: None)
         cold_fit = time.perf_counter() - t0
+        cold_cpu = _cpu_seconds() - c0
+        late = sum(t.tiles_built for t in tables._TABLES.values()) - built
         tables._TABLES.clear()                  # a new run: tiles come from the cache on disk
         from motes.dust.fit import problem as _problem
         _problem._PROBLEMS.clear()
-        t0 = time.perf_counter()
+        t0, c0 = time.perf_counter(), _cpu_seconds()
         run_fit(description, FitRunSettings(output=work / "warm", workers=1, progress=False), echo=lambda *_: None)
         warm = time.perf_counter() - t0
+        warm_cpu = _cpu_seconds() - c0
+        print(f"fit on the prepared tiles: {cold_fit:.0f} s wall, {cold_cpu:.1f} CPU s, {late} tiles built during "
+              f"sampling; the same fit warm: {warm:.0f} s wall, {warm_cpu:.1f} CPU s (the difference, "
+              f"{cold_cpu - warm_cpu:.1f} CPU s, is mostly the tiles built during sampling)")
         cold = ready + cold_fit
         print(f"{'demo' if args.cache else 'cold demo'} fit (tables + fit): {cold:.0f} s against the first demo's goal of {GOAL_COLD_S:.0f} s "
               f"(ratio {cold / GOAL_COLD_S:.2f})")
@@ -100,6 +112,14 @@ def main(argv=None):
             print(f"kept {work}")
         else:
             shutil.rmtree(work, ignore_errors=True)
+
+
+def _cpu_seconds() -> float:
+    """User + system CPU seconds of this process and of its finished child processes."""
+    import resource
+
+    own, kids = resource.getrusage(resource.RUSAGE_SELF), resource.getrusage(resource.RUSAGE_CHILDREN)
+    return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
 
 
 def _whole_demo(work: Path, warm_cache: bool) -> None:

@@ -37,7 +37,9 @@ With ``--polarised`` every band is also modelled in polarised intensity (a
 second hollow-sphere table) and the largest relative error of the polarised
 ratios where the band's |degree of polarisation| >= ``P_FLOOR`` is printed
 too. ``--a-max`` and ``--nodes`` change the largest grain [um] and the Gauss
-nodes per band (the table's x range follows a_max).
+nodes per band (the table's x range follows a_max); ``--materials`` takes other
+bundled materials (weak absorbers such as ``silica_amorphous``, or a mixture
+``silica_amorphous,water_ice_crystalline`` with fractions uniform on the simplex).
 
 The reference is stored in ``REFERENCE`` (ECSV, one file per configuration)
 and reused when present and made with the same points (``--recompute``
@@ -79,11 +81,14 @@ P_FLOOR = 0.02
 POLARISED = False
 
 
-def configure(a_max, nodes, polarised):
-    global A_MAX, NODES, POLARISED, REFERENCE, CHECK_NODES
+def configure(a_max, nodes, polarised, materials=None):
+    global A_MAX, NODES, POLARISED, REFERENCE, CHECK_NODES, MATERIALS
     A_MAX, NODES, POLARISED, CHECK_NODES = a_max, nodes, polarised, 2 * nodes
-    if (a_max, nodes, polarised) != (2.0, 2, False):
-        REFERENCE = HERE / f"hollow_reference_a{a_max:g}_n{nodes}{'_pol' if polarised else ''}.ecsv"
+    if materials:
+        MATERIALS = tuple(materials)
+    tag = "" if MATERIALS == ("carbon_amorphous",) else "_" + "+".join(MATERIALS)
+    if (a_max, nodes, polarised) != (2.0, 2, False) or tag:
+        REFERENCE = HERE / f"hollow_reference_a{a_max:g}_n{nodes}{'_pol' if polarised else ''}{tag}.ecsv"
 
 
 def table_spec():
@@ -98,7 +103,11 @@ def points(rng, n=N_POINTS):
     por = rng.uniform(0.0, 0.3, n)
     a_min = np.exp(rng.uniform(np.log(0.1), np.log(1.0), n))
     q = rng.uniform(3.0, 4.0, n)
-    return np.ones((n, 1)), por, a_min, q
+    if len(MATERIALS) == 1:
+        return np.ones((n, 1)), por, a_min, q
+    # several materials: volume fractions uniform on the simplex (drawn after the other columns, so
+    # that porosity, a_min and q are the same points as in the one-material runs)
+    return rng.dirichlet(np.ones(len(MATERIALS)), n), por, a_min, q
 
 
 def model(method, grains="hollow spheres", nodes=None, refine=1.0):
@@ -136,7 +145,8 @@ def reference(pts, workers, recompute):
     f, por, a_min, q = pts
     if REFERENCE.exists() and not recompute:
         t = Table.read(REFERENCE, format="ascii.ecsv")
-        if len(t) == len(por) and np.allclose(t["a_min"], a_min, rtol=0, atol=0) and t.meta.get("seed") == SEED:
+        if len(t) == len(por) and np.allclose(t["a_min"], a_min, rtol=0, atol=0) and t.meta.get("seed") == SEED \
+                and tuple(t.meta.get("materials", ())) == MATERIALS:
             return np.asarray(t["reference"]), np.asarray(t["check"]), t.meta.get("seconds", float("nan"))
     t0 = time.perf_counter()
     ref = _run([(f[i], por[i], a_min[i], q[i], NODES, 1.0) for i in range(len(por))], workers)
@@ -191,8 +201,12 @@ def main(argv=None):
     parser.add_argument("--polarised", action="store_true", help="also every band in polarised intensity")
     parser.add_argument("--a-max", type=float, default=A_MAX, help="largest grain radius [um]")
     parser.add_argument("--nodes", type=int, default=NODES, help="Gauss nodes per band")
+    parser.add_argument("--materials", default=None,
+                        help="comma-separated bundled materials (default carbon_amorphous); several: fractions "
+                             "uniform on the simplex, e.g. silica_amorphous,water_ice_crystalline")
     args = parser.parse_args(argv)
-    configure(args.a_max, args.nodes, args.polarised)
+    configure(args.a_max, args.nodes, args.polarised,
+              None if args.materials is None else [m.strip() for m in args.materials.split(",") if m.strip()])
 
     pts = points(np.random.default_rng(SEED))
     f, por, a_min, q = pts
@@ -218,6 +232,8 @@ def main(argv=None):
     hollow_rate = rate(lambda: fast.flux_ratio(*timing), len(timing[1]))
     sphere_rate = rate(lambda: spheres.flux_ratio(*timing), len(timing[1]))
 
+    k_range = [float(np.min(fast._indices.imag)), float(np.max(fast._indices.imag))]
+    print(f"materials' k at the band nodes: {k_range[0]:.3g}-{k_range[1]:.3g}")
     print(f"model: porous {', '.join(MATERIALS)}, hollow spheres f_max = {F_MAX:g}; bands {', '.join(BANDS)}"
           f"{' in total and polarised intensity' if POLARISED else ''}; {NODES} nodes per band; "
           f"90 deg; a_max {A_MAX:g} um; {N_POINTS} points (seed {SEED})")

@@ -17,9 +17,9 @@ from motes.cli import build_parser, main
 from motes.demo import copy_demo_inputs
 from motes.files import default_output_folder
 
-# Subcommands that write no folder of outputs: bands and materials write only the file --plot names,
-# demo writes into its positional FOLDER (./motes-demo by default).
-_NO_OUTPUT_FOLDER = {"bands", "materials", "demo"}
+# Subcommands that write no folder of outputs: bands and materials write only the file --plot names.
+# (demo takes its folder as a positional FOLDER or as --output, like every other command.)
+_NO_OUTPUT_FOLDER = {"bands", "materials"}
 
 
 def _subcommands() -> dict[str, argparse.ArgumentParser]:
@@ -218,3 +218,18 @@ def test_fit_still_resumes_a_run_folder_beside_the_description(tmp_path, monkeyp
     earlier.mkdir()
     (earlier / "fit_state.json").write_text("{}")
     assert _default_output(spec) == earlier               # an earlier default's run is found, not restarted
+
+
+def test_demo_takes_its_folder_as_output_too(capsys):
+    args = build_parser().parse_args(["demo", "--output", "my-demo", "--parts", "photometry"])
+    assert args.output == "my-demo" and args.folder is None
+    assert main(["demo", "one", "--output", "two"]) == 2       # refused before anything is written
+    assert "two output folders given (one and --output two)" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("option, short", [("--workers", "-w"), ("--quiet", "-q")])
+def test_fit_and_grid_share_short_options(option, short):
+    for name in ("fit", "grid"):
+        options = _options(_subcommands()[name])
+        assert options[short] is options[option], f"motes {name}: {short} is not {option}"
+    assert _options(_subcommands()["fit"])["--output"].metavar == "DIR"

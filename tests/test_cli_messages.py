@@ -123,3 +123,43 @@ def test_grid_axis_profiles_carry_each_rows_unit():
     ones = {k: np.ones(2) for k in axes}
     table = _axis_table(axes, ones, ones, {k: np.array([3, 3]) for k in axes}, 0.5)
     assert list(table["unit"]) == ["", "", "um", "um"]
+
+
+def test_fit_and_grid_observations_carry_the_path_as_given(fit_folder):
+    """Issue 14: summaries and later messages named the photometry by its absolute path."""
+    from motes.dust.grid.spec import read_grid_description
+    from motes.dust.grid.workers import read_grid_observations
+
+    spec = read_fit_description(_write(FIT))
+    assert read_fit_photometry(spec).path == "sub/disk.csv"
+    grid = _write('[data]\nphotometry = "disk.csv"\n\n[star]\nteff = 5000.0\n\n'
+                  '[[materials]]\nname = "silica"\nsource = "silica_amorphous"\n\n'
+                  '[grid]\nfraction_step = 1.0\nporosity = [0.0, 0.3]\na_min = [1.0]\n', name="sub/grid.toml")
+    gspec = read_grid_description(grid)
+    assert gspec.photometry.is_absolute()          # kept absolute inside (resume checks, workers)
+    assert read_grid_observations(gspec).path == "sub/disk.csv"
+
+
+def test_optics_table_columns_stay_aligned_with_long_band_names(tmp_path):
+    """Issue 14: a band identifier longer than the column (spitzer-irac_4.5) pushed its row out of line."""
+    from motes.dust.model.mixture import compute_mixture_optics, read_mixture_file
+    from motes.report import format_mixture_optics
+
+    path = tmp_path / "mix.toml"
+    path.write_text('[star]\nteff = 5800.0\n\n[[materials]]\nname = "silica"\nsource = "silica_amorphous"\n\n'
+                    '[model]\nbands = ["2mass_j", "spitzer-irac_4.5"]\nwavelength_nodes = 2\n\n'
+                    '[mixture]\nfractions = { silica = 1.0 }\nporosity = 0.2\na_min = 0.2\nq = 3.5\na_max = 2.0\n')
+    text = format_mixture_optics(compute_mixture_optics(*read_mixture_file(path), spectrum_points=6))
+    for head in ("m_eff (n + ik)", "R_pol [1/sr]"):
+        lines = text.splitlines()
+        start = next(i for i, line in enumerate(lines) if head in line)
+        header, j_row, irac_row = lines[start:start + 3]
+        column = header.index("pivot[µm]") + len("pivot[µm]")      # right edge of the pivot column
+        assert j_row[:column].endswith("1.2391") and irac_row[:column].endswith("4.5020"), (j_row, irac_row)
+
+
+def test_materials_listing_gives_the_density_unit(capsys):
+    """Issue 14 ("units on every printed quantity"): the listing's density column had no unit."""
+    assert main(["materials"]) == 0
+    header = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("name"))
+    assert "density [g cm^-3]" in header and "range [um]" in header

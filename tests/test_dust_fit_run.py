@@ -61,6 +61,22 @@ def test_outputs_and_skip_of_finished_models(tmp_path, toy_fit):
     assert len(sessions) == 1
 
 
+def test_summary_and_page_name_files_as_the_user_gave_them(tmp_path, rng, monkeypatch):
+    """Issue 14: summary.txt and report.html listed the photometry by its absolute path."""
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "sub").mkdir()
+    write_toy_fit(tmp_path / "sub", TRUTH, rng=rng,
+                  sampler="nlive = 30\ndlogz = 2.0\nseed = 3\n")
+    res = run_fit("sub/toy_fit.toml", FitRunSettings(output="run", progress=False), model_factory=toy_factory,
+                  **QUIET)
+    assert res.observations.path == "sub/toy.csv"
+    write_fit_report(res, figures=False)
+    for name in ("summary.txt", "report.html"):
+        text = (tmp_path / "run" / name).read_text()
+        assert "sub/toy.csv" in text and "sub/toy_fit.toml" in text, name
+        assert str(tmp_path) not in text and str(tmp_path.resolve()) not in text, name
+
+
 def test_absent_material_gets_a_small_upper_limit(tmp_path, toy_fit):
     res = run_fit(toy_fit, FitRunSettings(output=tmp_path / "run", progress=False),
                   model_factory=toy_factory, **QUIET)

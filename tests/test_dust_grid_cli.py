@@ -49,6 +49,20 @@ def test_run_then_summarize_on_the_real_model(tmp_path, rng, capsys):
     assert "computed 0 points" in capsys.readouterr().out
 
 
+def test_default_store_is_named_as_the_rule_names_it_not_by_its_absolute_path(tmp_path, rng, capsys,
+                                                                              monkeypatch):
+    """Issue 14: the store and every summary file were printed with absolute paths."""
+    (tmp_path / "in").mkdir()
+    write_real_grid(tmp_path / "in", rng, step="0.5")
+    monkeypatch.chdir(tmp_path)
+    assert main(["grid", "in/grid.toml", "--dry-run", "--workers", "1"]) == 0
+    assert "  store grid_grid: new" in capsys.readouterr().out
+    assert main(["grid", "in/grid.toml", "--workers", "1", "--quiet", "--top", "2"]) == 0
+    out = capsys.readouterr().out
+    assert "store: grid_grid\n" in out and "  grid_grid/summary/grid_report.html" in out
+    assert str(tmp_path) not in out and str(tmp_path.resolve()) not in out
+
+
 def test_dry_run_prints_count_and_estimate_and_writes_nothing(tmp_path, rng, capsys):
     grid = write_real_grid(tmp_path, rng)
     before = sorted(p.name for p in tmp_path.iterdir())

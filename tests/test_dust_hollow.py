@@ -166,24 +166,58 @@ def test_small_hollow_table_matches_exact(tmp_path):
 _MATERIALS_TOML = '[star]\nteff = 5800.0\n[[materials]]\nname = "silica_amorphous"\n'
 
 
-def test_fit_refuses_a_prior_on_f_max():
+def _fit_text(model, parameters):
+    return (_MATERIALS_TOML + f'[model]\n{model}[data]\nphotometry = "d.csv"\n'
+            f'[parameters]\nporosity = 0.1\na_min = 0.2\nq = 3.5\n{parameters}')
+
+
+def test_fit_takes_a_prior_on_f_max(tmp_path):
+    # a fitted f_max (tests/test_dust_hollow_fmax.py has the model side): a free prior joins the
+    # parameter space, a fixed value is the one-f_max model; bad combinations are refused
     from motes.dust.fit.spec import parse_fit_description
 
-    text = (_MATERIALS_TOML + '[model]\ngrains = "hollow spheres"\nf_max = 0.8\n[data]\nphotometry = "d.csv"\n'
-            '[parameters]\nf_max = { prior = "uniform", lo = 0.0, hi = 0.9 }\n')
-    with pytest.raises(InputError, match=r"f_max .* cannot be fitted yet") as info:
-        parse_fit_description(text, source="fit.toml")
-    assert "[parameters] f_max" in str(info.value)
+    (tmp_path / "d.csv").write_text("band,value,error\n2mass_j,1e-5,1e-6\n")
+    hollow = 'grains = "hollow spheres"\n'
+    spec = parse_fit_description(_fit_text(hollow, 'f_max = { prior = "uniform", lower = 0.2, upper = 0.8 }\n'),
+                                 base_dir=tmp_path, source="fit.toml")
+    assert spec.description.f_max is None and spec.description.f_max_tables == "nodes"
+    assert spec.description.grain_summary == "hollow spheres (f_max fitted)"
+    space = spec.parameter_space(spec.models[0])
+    assert space.names == ("f_max",) and ("f_max", "uniform [0.2, 0.8]") in space.describe()
+    assert spec.description.subset(["silica_amorphous"]).build_model(bands=["2mass_j"]).f_max_tables == "nodes"
+    fixed = parse_fit_description(_fit_text(hollow, "f_max = 0.6\n"), base_dir=tmp_path, source="fit.toml")
+    assert (fixed.description.f_max, fixed.description.f_max_tables) == (0.6, None)
+    assert "f_max" not in fixed.parameters
+    for model, parameters, match in [
+            (hollow + "f_max = 0.8\n", "f_max = 0.5\n", "f_max is given both in \\[model\\] and in \\[parameters\\]"),
+            ("", "f_max = 0.5\n", "used by hollow-sphere grains only"),
+            (hollow, 'f_max = { prior = "uniform", lower = 0.2, upper = 0.95 }\n', r"f_max in \[0.1, 0.9\] only"),
+            (hollow, 'f_max = { prior = "uniform", lower = 0.0, upper = 0.5 }\n', r"f_max in \[0.1, 0.9\] only"),
+            (hollow, 'f_max = { prior = "uniform", lower = -0.1, upper = 0.5 }\n', r"must lie in \[0, 1\)")]:
+        with pytest.raises(InputError, match=match) as info:
+            parse_fit_description(_fit_text(model, parameters), base_dir=tmp_path, source="fit.toml")
+        assert "f_max" in str(info.value) and "fit.toml" in str(info.value)
 
 
-def test_grid_refuses_an_f_max_axis():
+def test_grid_takes_an_f_max_axis(tmp_path):
     from motes.dust.grid.spec import parse_grid_description
 
-    text = (_MATERIALS_TOML + '[model]\ngrains = "hollow spheres"\nf_max = 0.8\n'
-            '[grid]\nfraction_step = 0.5\nf_max = [0.5, 0.8]\n')
-    with pytest.raises(InputError, match="f_max .* is not a grid axis") as info:
-        parse_grid_description(text, source="grid.toml")
-    assert "[grid] f_max" in str(info.value)
+    (tmp_path / "d.csv").write_text("band,value,error\n2mass_j,1e-5,1e-6\n")
+    head = _MATERIALS_TOML + '[data]\nphotometry = "d.csv"\n[model]\ngrains = "hollow spheres"\n'
+    axes = '[grid]\nfraction_step = 1.0\nporosity = [0.0, 0.2]\na_min = [0.1]\nf_max = [0.5, 0.8]\n'
+    spec = parse_grid_description(head + axes, base_dir=tmp_path, source="grid.toml")
+    assert spec.axis_names[-1] == "f_max" and spec.n_points == 4
+    pts = spec.points(np.arange(4))
+    assert pts.f_max.tolist() == [0.5, 0.8, 0.5, 0.8] and pts.porosity.tolist() == [0.0, 0.0, 0.2, 0.2]
+    assert spec.nearest_key([1.0], 0.2, 0.1, f_max=0.75) == 3
+    assert spec.description.f_max_tables == "values"
+    assert "2 porosity x 1 a_min x 1 q x 1 a_max x 2 f_max" in spec.describe_count()
+    for text, match in [(head + "f_max = 0.8\n" + axes, "given both"),
+                        (head + axes.replace("[0.5, 0.8]", "[0.5, 1.0]"), r"f_max .* must be in \[0, 1\)"),
+                        (_MATERIALS_TOML + '[data]\nphotometry = "d.csv"\n' + axes, "hollow-sphere grains only")]:
+        with pytest.raises(InputError, match=match) as info:
+            parse_grid_description(text, base_dir=tmp_path, source="grid.toml")
+        assert "f_max" in str(info.value)
 
 
 def test_hollow_table_x_range_follows_a_max():

@@ -201,11 +201,22 @@ def test_user_sublimation_temperature_and_belt(tmp_path):
     (THERMAL.replace("40.0", "[10.0, 50.0]"), "luminosity = 1.0", 'extrapolation = "dielectric"',
      "surface_density_index"),
     (THERMAL + "\nring_radius = 3", "luminosity = 1.0", 'extrapolation = "dielectric"', "ring_radius"),
-    (THERMAL, "luminosity = 1.0", 'extrapolation = "loglog"', r"#1 \(silicate\).*'loglog' rule takes"),
 ])
 def test_bad_thermal_input_is_refused(tmp_path, thermal, luminosity, rule, match):
     path = _write(tmp_path, thermal, luminosity, rule)
     with pytest.raises(InputError, match=match) as info:
+        _compute(path)
+    assert "mix.toml" in str(info.value)
+
+
+def test_loglog_rule_that_leaves_the_index_range_is_refused(tmp_path):
+    """Iron's end slopes (n and k rising steeply towards 55.6 um), continued in log-log to 2 cm, pass
+    n, k = 1e4; the thermal side refuses, naming the material and the rules that do not. (Silica served
+    here while its data stopped at 30 um; since issue 13 it reaches 125 um and its log-log tail stays
+    in range.)"""
+    path = _write(tmp_path, silicate_rule='extrapolation = "loglog"')
+    path.write_text(path.read_text().replace('source = "silica_amorphous"', 'source = "iron"'))
+    with pytest.raises(InputError, match=r"#1 \(silicate\).*'loglog' rule takes.*\"dielectric\" or \"conductor\"") as info:
         _compute(path)
     assert "mix.toml" in str(info.value)
 
@@ -315,3 +326,14 @@ def test_user_star_spectrum_gives_the_blackbody_temperatures(tmp_path, ring):
     _, _, res = _compute(path)
     assert res.temperature == pytest.approx(ring[2].temperature, rel=0.01)
     assert any("Rayleigh-Jeans" in n for n in res.notes) and any("starts at 0.25 um" in n for n in res.notes)
+
+
+def test_printed_thermal_part_names_each_note_once_with_units(ring):
+    """Issue 14: `motes optics` printed the Mie-spheres note twice (scattered and thermal parts)."""
+    from motes.report.thermal_text import format_thermal
+
+    _, _, res = ring
+    assert format_thermal(res).count(res.notes[0]) == 1
+    text = format_thermal(res, printed_notes=res.notes[:1])
+    assert res.notes[0] not in text and all(n in text for n in res.notes[1:])
+    assert "pivot [µm]" in text and "a [µm]" in text and " um" not in text.split("Note:")[0]

@@ -9,8 +9,12 @@ the homogeneous sphere of ``motes.optics.mie`` (miepython) in the limits of a
 core of the mantle's index and of a vanishing mantle, van de Hulst's
 extinction paradox (Q_ext -> 2) at x >= 1000, and the Rayleigh-limit
 polarisability of a coated sphere (Bohren & Huffman 1983, ch. 5; from memory).
-No published numerical worked case of a coated sphere is quoted (none was at
-hand; the scattnlay comparisons stand in for one).
+One published worked case, through the coated-sphere code in its homogeneous
+limit: the sample output of the BHMIE program (Bohren & Huffman 1983,
+Appendix A; from memory, its printed 5 decimals; miepython gives the same
+numbers). No published coated-sphere (BHCOAT, Appendix B) or hollow-sphere
+numbers are quoted: none could be recalled reliably, and the scattnlay
+comparisons stand in for them.
 """
 
 from __future__ import annotations
@@ -167,6 +171,19 @@ def test_vanishing_mantle_is_the_solid_core(m_core, m_mantle, x):
     # and continuously: a mantle 1e-9 of the radius thick changes Q_ext by O(x 1e-9)
     thin = coated.coated_efficiencies(m_core, m_mantle, x, (1 - 1e-9) ** 3)
     assert float(thin.q_ext) == pytest.approx(float(h.q_ext), rel=1e-6)
+
+
+@pytest.mark.parametrize("fraction", [0.0, 0.3, 0.7])
+def test_bohren_huffman_sample_output_through_the_coated_code(fraction):
+    # Bohren & Huffman (1983), Appendix A, BHMIE sample output (from memory): sphere radius
+    # 0.525 um, wavelength 0.6328 um (x = 5.213), m = 1.55 in a medium of index 1:
+    # QSCA = 3.10543, QEXT = 3.10543, QBACK = 2.92534 (5 decimals printed). Here a coated sphere
+    # whose core has the mantle's index, at several core fractions (the core boundary must vanish).
+    x = 2 * np.pi * 0.525 / 0.6328
+    e = coated.coated_efficiencies(1.55 + 0j, 1.55 + 0j, x, fraction)
+    assert float(e.q_ext) == pytest.approx(3.10543, abs=5e-6)
+    assert float(e.q_sca) == pytest.approx(3.10543, abs=5e-6)
+    assert float(e.q_back) == pytest.approx(2.92534, abs=5e-6)
 
 
 @pytest.mark.parametrize("m_core,m_mantle,x,fraction", [(1.0 + 0j, 1.5 + 0.1j, 1000.0, 0.8),

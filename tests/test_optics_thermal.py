@@ -247,11 +247,14 @@ def test_no_rule_refuses_the_thermal_range():
 
 
 def test_iron_at_the_end_of_the_data_is_a_metal():
-    """The bundled iron reaches k ≈ 89 at 30 um (issue 13); the rule continues it without a jump."""
+    """The bundled iron reaches k ≈ 89 at 30 um and k ≈ 152 at the end of its data, 55.6 um (issue 13;
+    values of the file, Querry 1985 as exported); the rule continues it without a jump."""
     iron = load_material("iron", extrapolation="conductor")
     lo, hi = iron.wavelength_range
+    assert hi == pytest.approx(55.5556, rel=1e-5)
+    assert iron.refractive_index(30.303).imag == pytest.approx(89.1, rel=0.01)
     m_end, m_next = iron.refractive_index([hi, hi * 1.0001])
-    assert m_end.imag == pytest.approx(89.1, rel=0.01)
+    assert m_end.imag == pytest.approx(152.1, rel=0.01)
     assert m_next == pytest.approx(m_end, rel=1e-4)
 
 

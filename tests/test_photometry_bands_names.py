@@ -195,6 +195,17 @@ def test_search_table_has_the_zero_points_of_the_bands():
         assert row["vega_zero_point"] == pytest.approx(get_band(row["name"]).vega_zero_point_jy, rel=1e-12)
 
 
+def test_listing_notes_are_never_cut_mid_word():
+    """Issue 14: the HST/JWST note was cut to "... give the syste" in the listing."""
+    t = band_table(find_bands(facility="jwst-nircam") + find_bands(facility="herschel"))
+    notes = set(t["note"])
+    assert "Vega, AB or ST magnitudes in use" in notes
+    assert "Catalogue flux densities assume nu f_nu = constant" in notes
+    for note in notes:
+        assert note == "" or note.endswith(("…", "use", "constant")) or note[-1].isalnum(), note
+        assert "syste" not in note.split() and "give the" not in note
+
+
 # ---------------------------------------------------------------------- MKO
 # Vega in the MKO bands: Tokunaga & Vacca (2005), PASP 117, 421, Table 1 (from memory):
 # F_lambda [W m^-2 um^-1] for J, H, K, L', M' and f_nu [Jy] for J, H, K, L'.

@@ -432,3 +432,82 @@ def test_demo_truths_are_the_generators():
     for key in ("porosity", "a_min", "q"):
         assert math.isclose(disk_grid.DEMO_DISK_TRUTH[key], disk.TRUTH[key])
     assert companion.DEMO_TRUTH_TYPE == load("make_photometry_demo").COMPANION_TYPE
+
+
+# ------------------------------------------------------------------ band names in the optics, thermal and band figures
+@pytest.fixture
+def drawn_figures(monkeypatch):
+    """Every Figure saved while the test runs (Figure.savefig captured, files still written)."""
+    from matplotlib.figure import Figure
+
+    drawn = []
+    original = Figure.savefig
+
+    def capture(self, *args, **kwargs):
+        drawn.append(self)
+        return original(self, *args, **kwargs)
+
+    monkeypatch.setattr(Figure, "savefig", capture)
+    return drawn
+
+
+def _texts(fig):
+    """All text of a figure: axes texts and legend entries."""
+    out = [t.get_text() for ax in fig.axes for t in ax.texts] + [t.get_text() for t in fig.texts]
+    for ax in fig.axes:
+        if ax.get_legend() is not None:
+            out += [t.get_text() for t in ax.get_legend().get_texts()]
+    return out
+
+
+def test_optics_figures_name_bands_by_display_name(drawn_figures, tmp_path):
+    from motes.photometry import get_band
+    from motes.report.optics_figures import plot_efficiencies, plot_polarisation, plot_reflectance
+
+    bands = [get_band("2mass_ks"), get_band("mko_lp")]
+    lam = np.geomspace(1.5, 4.5, 30)
+    ratio = np.array([0.01, 0.008])
+    plot_reflectance(tmp_path / "r.png", lam, 1e-2 / lam, bands, ratio, "t")
+    radius = np.geomspace(0.1, 10.0, 20)
+    q = np.ones((2, radius.size))
+    plot_efficiencies(tmp_path / "e.png", radius, 2 * q, q, np.array([2.16, 3.76]), ["2mass_ks", "mko_lp"], "t")
+    plot_polarisation(tmp_path / "p.png", lam, 1e-2 / lam, 1e-3 / lam, bands, ratio, 0.1 * ratio, "t")
+    reflectance, efficiencies, polarisation = (_texts(f) for f in drawn_figures)
+    assert {"2MASS Ks", "MKO L′ (approx.)"} <= set(reflectance)
+    assert {"2MASS Ks (2.16 µm)", "MKO L′ (3.76 µm)"} <= set(efficiencies)
+    assert {"2MASS Ks", "MKO L′ (approx.)"} <= set(polarisation)
+    for texts in (reflectance, efficiencies, polarisation):
+        assert not any("2mass_ks" in t or "mko_lp" in t for t in texts)
+
+
+def test_thermal_figure_names_bands_by_display_name_and_writes_each_format(drawn_figures, tmp_path):
+    from types import SimpleNamespace
+
+    from motes.report.thermal_figures import plot_thermal
+
+    lam = np.geomspace(0.5, 3000.0, 200)
+    star = 10.0 * lam ** -2.0
+    disk = 1e-3 * lam ** 2 * np.exp(-lam / 60.0) + 1e-12
+    stand_in = SimpleNamespace(   # the attributes of ThermalResult the figure reads
+        settings=SimpleNamespace(distance_pc=25.0), spectrum_wavelength=lam, spectrum_star=star, spectrum_disk=disk,
+        band_names=("wise_w4", "herschel-pacs_70", "mm_1.3"), band_pivot=np.array([22.2, 71.5, 1300.0]),
+        band_disk=np.interp([22.2, 71.5, 1300.0], lam, disk), fractional_luminosity=1e-3, dust_temperature=80.0,
+        radius_ratio=3.0, sizes=np.geomspace(1.0, 1000.0, 10), radii=np.array([60.0]),
+        temperature=np.linspace(70.0, 36.0, 10)[:, None], blackbody_temperature=np.array([35.9]), flags=())
+    first = plot_thermal(tmp_path / "thermal.png", stand_in, formats=("png", "pdf"))
+    assert first == tmp_path / "thermal.png" and (tmp_path / "thermal.pdf").exists()
+    texts = _texts(drawn_figures[0])
+    assert {"WISE W4", "Herschel PACS 70 µm", "mm_1.3"} <= set(texts)     # a user band keeps its own name
+    assert not any("wise_w4" in t or "herschel-pacs_70" in t for t in texts)
+    sed = drawn_figures[0].axes[0]
+    assert sed.xaxis.get_major_formatter()(100.0, 0) == "100"               # plain numbers, not 10^2
+
+
+def test_band_figure_titles_display_name_and_identifier(drawn_figures, tmp_path):
+    from motes.photometry import get_band
+    from motes.report.band_figures import plot_band
+
+    plot_band(get_band("mko_lp"), tmp_path / "lp.png")
+    assert drawn_figures[-1].axes[0].get_title() == "MKO L′ (mko_lp) (approximate)"
+    plot_band(get_band("2mass_ks"), tmp_path / "ks.png")
+    assert drawn_figures[-1].axes[0].get_title() == "2MASS Ks (2mass_ks)"

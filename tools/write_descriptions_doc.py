@@ -359,9 +359,10 @@ def sections() -> list[Section]:
                           meaning="grain model: homogeneous Mie spheres, or a distribution of hollow spheres "
                                   "(Min, Hovenier & de Koter 2005) averaged over vacuum-core fractions 0–f_max "
                                   "at fixed material volume (docs/optics.md)"),
-            "f_max": _param("f_max", default="required with hollow spheres",
+            "f_max": _param("f_max", default="required with hollow spheres, unless fitted or a grid axis",
                             meaning="largest vacuum-core volume fraction of the hollow spheres (one value per "
-                                    "run; not with spheres; 0.8 is common practice, no source)"),
+                                    "run; not with spheres; 0.8 is common practice, no source; or a prior in "
+                                    "[parameters] f_max, or an axis in [grid] f_max)"),
         }),
         Section(MIXTURE, "[mixture]", _sorted(mixture._MIXTURE_KEYS,
                                               ("fractions", "porosity", "a_min", "q", "a_max", "reference_band")), {
@@ -400,12 +401,20 @@ def sections() -> list[Section]:
         Section(FIT, "[data]", FIT_KEYS["data"], {
             "photometry": Key("string (path)", meaning="the disk photometry table, CSV or ECSV, relative to this "
                                                        "file (required; columns in docs/fit.md)"),
+            "thermal": Key("string (path)", default="none", meaning="a thermal photometry table (rows of kind "
+                                                                    "`flux` with a unit) fitted jointly with the "
+                                                                    "scattered light (docs/fit.md, \"Joint fit\")"),
         }),
         Section(FIT, "[parameters]", FIT_KEYS["parameters"], {
             name: _param(name, type_="number or prior table",
-                         default="[model] a_max" if name == "a_max" else space_defaults.get(name))
+                         default=("[model] a_max" if name == "a_max" else
+                                  "none (required with [data] thermal; outside the sublimation radius)"
+                                  if name == "ring_radius" else space_defaults.get(name)))
             for name in FIT_KEYS["parameters"]
-        }, note="A number fixes the parameter; a table (below) gives its prior. "
+        } | {"f_max": _param("f_max", type_="number or prior table", default="[model] f_max",
+                             meaning="largest vacuum-core volume fraction of hollow-sphere grains, fitted "
+                                     "(hollow spheres only, not with [model] f_max; fast path: bounds in [0.1, 0.9])")},
+            note="A number fixes the parameter; a table (below) gives its prior. "
                 "Volume fractions always have a uniform prior on the simplex."),
         Section(FIT, "[parameters] prior table", PRIOR_KEYS, {
             "prior": Key("string", default='`"fixed"`', allowed=_choice(PRIOR_KINDS), meaning="kind of prior"),
@@ -417,6 +426,20 @@ def sections() -> list[Section]:
                                meaning="lower and upper are multiples of the blow-out size "
                                        "(needs [star] luminosity and mass)"),
         }, note='Written `porosity = { prior = "uniform", lower = 0.0, upper = 0.8 }`.'),
+        Section(FIT, "[thermal] (fit)", FIT_KEYS["thermal"], {
+            "distance_pc": Key("number", "pc", "none", "> 0", "the star's distance, for the model photosphere in Jy "
+                                                              "(required with [data] thermal)"),
+            "calibration": Key("number", "", "0", "[0, 10]", "fractional calibration error added in quadrature to "
+                                                             "every thermal detection"),
+            "cross_section_lower": Key("number", "au²", "1e-06", "> 0", "lower end of the log-uniform prior of the "
+                                                                     "thermal scale (total grain cross-section)"),
+            "cross_section_upper": Key("number", "au²", "1e+06", "> lower", "upper end of that prior"),
+            "verdicts_by_data": Key("boolean", default="true", meaning="also run every model on the scattered light "
+                                                                       "alone and on the thermal data alone (ln B per "
+                                                                       "data set; three evidence runs per model)"),
+            "sublimation_k": Key("table", "K", "{}", "> 0 each", "sublimation temperatures of more materials, "
+                                                                 "`{ material = T }`, for the ice flag"),
+        }, note="A fit's thermal side (only with [data] thermal; docs/fit.md, \"Joint fit\")."),
         Section(FIT, "[scale]", FIT_KEYS["scale"], {
             "lower": Key("number", "", "1e-12", "> 0", "lower end of the log-uniform flux-scale prior"),
             "upper": Key("number", "", "1", "> lower", "upper end of the flux-scale prior"),
@@ -463,6 +486,9 @@ def sections() -> list[Section]:
                                      else f"[{PARAMETERS[name].default:g}]"),
                             meaning=PARAMETERS[name].meaning + " (a grid axis)")
                for name in GRID_KEYS["grid"] if name in PARAMETERS},
+            "f_max": _param("f_max", type_="array or axis range", default="[model] f_max",
+                            meaning="largest vacuum-core volume fraction, a grid axis (hollow spheres only, not "
+                                    "with [model] f_max; one fast-path table per value)"),
             "chunk_size": Key("integer", default="chosen from the grid size", allowed=">= 1",
                               meaning="points per store part (unit of work and storage)"),
         }),

@@ -49,6 +49,7 @@ __all__ = [
     "PARAMETERS",
     "MIXTURE_PARAMETERS",
     "PRIOR_PARAMETERS",
+    "GRAIN_PARAMETERS",
     "parameter_table",
     "BoundaryQuantity",
     "BOUNDARY_QUANTITIES",
@@ -62,7 +63,8 @@ __all__ = [
     "convert_arguments",
 ]
 
-_ROLES = ("composition", "mixture", "grain", "geometry", "noise", "scale", "star", "material", "photometry")
+_ROLES = ("composition", "mixture", "grain", "geometry", "noise", "scale", "star", "material", "photometry",
+          "thermal")
 
 
 @dataclass(frozen=True)
@@ -153,7 +155,8 @@ PARAMETERS: MappingProxyType = MappingProxyType({p.name: p for p in (
     Parameter("a_max", "mixture", WAVELENGTH_UNIT, 0.0, _INF, True, True,
               "largest grain radius", default=1000.0),
     # f_max: largest vacuum-core volume fraction of the hollow-sphere grains (Min, Hovenier & de Koter
-    # 2005, A&A 432, 909); f = 1 would be a grain of no material. One value per run ([model] f_max).
+    # 2005, A&A 432, 909); f = 1 would be a grain of no material. One value per run ([model] f_max), a
+    # fitted parameter ([parameters] f_max) or a grid axis ([grid] f_max), hollow spheres only.
     Parameter("f_max", "grain", _NONE, 0.0, 1.0, False, True,
               "largest vacuum-core volume fraction of hollow-sphere grains ([model] grains)"),
     Parameter("angle", "geometry", u.deg, 0.0, 180.0, True, False,
@@ -162,6 +165,13 @@ PARAMETERS: MappingProxyType = MappingProxyType({p.name: p for p in (
               "fractional error added in quadrature to every detection", default=0.0),
     Parameter("scale", "scale", _NONE, 0.0, _INF, False, True,
               "flux scale (dust amount and geometry) multiplying the model's ratios"),
+    # the thermal side of a joint fit ([data] thermal, docs/fit.md "Joint fit"): where the grains are
+    # and how much cross-section emits. A radius must also lie outside the sublimation radius
+    # (motes.dust.fit.thermal_spec.sublimation_radius), which depends on the star.
+    Parameter("ring_radius", "thermal", u.AU, 0.0, _INF, True, True,
+              "distance of the ring's grains from the star (joint fits with thermal data)"),
+    Parameter("thermal_scale", "scale", u.AU**2, 0.0, _INF, False, True,
+              "total grain cross-section seen in the thermal data (joint fits)"),
 )})
 
 #: Effective temperature of a star (a photometry target's host, the star lighting a disk). 500-100000 K
@@ -188,6 +198,10 @@ MIXTURE_PARAMETERS: tuple[str, ...] = tuple(n for n, p in PARAMETERS.items() if 
 #: Parameters with a prior in a fit's ``[parameters]`` table, in order.
 PRIOR_PARAMETERS: tuple[str, ...] = tuple(n for n, p in PARAMETERS.items()
                                           if p.role in ("mixture", "geometry", "noise"))
+
+#: Grain-model parameters: in a fit's ``[parameters]`` (a prior) or a grid's ``[grid]`` (an axis) only
+#: when the grain model has them (f_max: ``[model] grains = "hollow spheres"``); absent otherwise.
+GRAIN_PARAMETERS: tuple[str, ...] = tuple(n for n, p in PARAMETERS.items() if p.role == "grain")
 
 
 def parameter_table() -> str:

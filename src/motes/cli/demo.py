@@ -18,11 +18,14 @@ def register(subparsers) -> None:
             "photometry calibration, companion typing, dust optics, the nested-sampling "
             "fit of the disk colours and a small mixture grid."
         ),
-        epilog="example: motes demo ./motes-demo --parts photometry companion",
+        epilog="examples:\n  motes demo ./motes-demo --parts photometry companion\n"
+               "  motes demo --output my-demo",
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    parser.add_argument("folder", nargs="?", default="motes-demo",
-                        help="output folder (default: ./motes-demo)")
+    parser.add_argument("folder", nargs="?", default=None,
+                        help="output folder (default: ./motes-demo); or give it as --output")
+    parser.add_argument("--output", "-o", metavar="DIR", default=None,
+                        help="output folder, as on every other command (default: ./motes-demo)")
     parser.add_argument("--parts", nargs="+", choices=DEMO_PARTS, metavar="PART",
                         help=f"run only these parts, from: {', '.join(DEMO_PARTS)}")
     parser.set_defaults(func=_run)
@@ -30,6 +33,9 @@ def register(subparsers) -> None:
 
 def _run(args) -> int:
     from ..demo import run_demo
+    from ..errors import InputError
 
-    run_demo(args.folder, parts=args.parts)
+    if args.folder is not None and args.output is not None and args.folder != args.output:
+        raise InputError(f"two output folders given ({args.folder} and --output {args.output}): give one")
+    run_demo(args.output or args.folder or "motes-demo", parts=args.parts)
     return 0

@@ -19,7 +19,8 @@ examples:
 
 The description (TOML) names the disk photometry, the star, the candidate materials,
 the priors and the model set ("each-removed", "all-subsets" or an explicit list);
-see docs/fit.md. Output: ranking.ecsv, verdicts.ecsv, summary.txt (with what to cite),
+see docs/fit.md. With [data] thermal = "sed.csv" the thermal SED of the same grains is
+fitted jointly, and the verdicts say which data drove them (docs/fit.md, "Joint fit"). Output: ranking.ecsv, verdicts.ecsv, summary.txt (with what to cite),
 figures, report.html (one self-contained page of the run), and per model the posterior
 samples, summaries and best fit.
 """
@@ -38,9 +39,9 @@ def register(subparsers) -> None:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     parser.add_argument("description", type=Path, help="fit description (TOML)")
-    parser.add_argument("--output", "-o", type=Path, default=None,
+    parser.add_argument("--output", "-o", type=Path, default=None, metavar="DIR",
                         help="run folder (default: ./<description stem>_fit)")
-    parser.add_argument("--workers", "-w", type=int, default=1,
+    parser.add_argument("--workers", "-w", type=int, default=1, metavar="N",
                         help="processes evaluating the likelihood (default 1)")
     mode = parser.add_mutually_exclusive_group()
     mode.add_argument("--resume", dest="mode", action="store_const", const="resume",

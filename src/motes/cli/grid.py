@@ -62,7 +62,7 @@ def register(subparsers) -> None:
     parser.add_argument("-o", "--output", metavar="DIR",
                         help="run: the store folder (default ./<GRID stem>_grid); "
                              "summarize: where tables and figures go (default STORE/summary)")
-    parser.add_argument("--workers", type=int, metavar="N",
+    parser.add_argument("--workers", "-w", type=int, metavar="N",
                         help="local worker processes (default: every core; 1 = in this process)")
     parser.add_argument("--scheduler", metavar="ADDRESS",
                         help="run on the Dask distributed scheduler at ADDRESS (e.g. tcp://host:8786)")
@@ -79,7 +79,7 @@ def register(subparsers) -> None:
     parser.add_argument("--top", type=int, metavar="N", help="best mixtures to list (default 10)")
     parser.add_argument("--no-summary", action="store_true",
                         help="run: do not summarise when the run completes")
-    parser.add_argument("--quiet", action="store_true", help="no progress bar")
+    parser.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
     add_figure_formats_option(parser)
     parser.set_defaults(func=_main)
 
@@ -113,13 +113,17 @@ def _run(path: Path, args) -> int:
 
     spec = read_grid_description(path)
     settings = _settings(args)
-    output = Path(args.output) if args.output else default_store_path(spec)
+    from ..files import default_output_folder
+
+    output = Path(args.output) if args.output else default_store_path(spec)   # absolute, for the run
+    # messages name the store as the user gave it, or as the default rule names it (./<stem>_grid)
+    shown = Path(args.output) if args.output else default_output_folder(spec.source, "grid")
     if args.dry_run:
-        for line in describe_dry_run(spec, output, settings):
+        for line in describe_dry_run(spec, shown, settings):
             print(line)
         return 0
     print(f"grid {spec.source}: {spec.describe_count()}")
-    print(f"store: {output}")
+    print(f"store: {shown}")
     try:
         result = run_grid(spec, output, settings)
     except KeyboardInterrupt:
@@ -131,7 +135,7 @@ def _run(path: Path, args) -> int:
     else:
         print(f"computed 0 points: the store already holds all {result.n_points:,}")
     if not args.no_summary:
-        _summarize(Path(result.store), args, default_folder=Path(result.store) / "summary")
+        _summarize(shown, args, default_folder=shown / "summary")
     return 0
 
 

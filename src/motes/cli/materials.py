@@ -94,7 +94,8 @@ def _run_list(args) -> int:
     user = os.environ.get(MATERIALS_PATH_VARIABLE, "")
     print(f"user folders ({MATERIALS_PATH_VARIABLE}): {user or 'none set'}")
     print()
-    header = f"{'name':24s} {'origin':8s} {'range [um]':>16s} {'points':>6s} {'density':>8s}  source"
+    header = (f"{'name':24s} {'origin':8s} {'range [um]':>16s} {'points':>6s} {'density [g cm^-3]':>17s}"
+              "  source")
     print(header)
     print("-" * len(header))
     for e in entries:
@@ -109,7 +110,7 @@ def _run_list(args) -> int:
             continue
         lo, hi = m.wavelength_range
         dens = f"{m.density:.3g}" if m.density == m.density else "?"
-        print(f"{e.name:24s} {origin:8s} {lo:7.3g} - {hi:6.3g} {m.wavelength.size:6d} {dens:>8s}  "
+        print(f"{e.name:24s} {origin:8s} {lo:7.3g} - {hi:6.3g} {m.wavelength.size:6d} {dens:>17s}  "
               f"{_short_source(m.provenance)}")
     if any(e.shadowed for e in entries):
         print("\n* hidden by a user file of the same name (user folders take precedence)")

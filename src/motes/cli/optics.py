@@ -94,7 +94,7 @@ def _run(args) -> int:
     if thermal is not None:
         from ..report.thermal_text import format_thermal
 
-        print(format_thermal(thermal))
+        print(format_thermal(thermal, printed_notes=result.notes))
     written = write_mixture_outputs(result, folder, stem=path.stem, figures=not args.no_figures,
                                     formats=figure_formats(args))
     if thermal is not None:
@@ -102,7 +102,8 @@ def _run(args) -> int:
 
         scattered = (result.bands, scattered_flux_ratio(thermal, result.optics.flux_ratio))
         written += write_thermal_outputs(thermal, folder, stem=path.stem, figures=not args.no_figures,
-                                         scattered=scattered, provenance=result.provenance())
+                                         scattered=scattered, provenance=result.provenance(),
+                                         formats=figure_formats(args))
     print("")
     for w in written:
         print(f"wrote {w}")

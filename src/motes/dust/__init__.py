@@ -5,6 +5,7 @@ The package reads as the data flow::
     model/          forward model of disk colours (description, geometry, quadrature,
                     exact and tabulated Mie paths, one mixture's optics)
     observations    the measured disk/star ratios
+    thermal_observations  a disk's thermal flux densities (joint fits)
     likelihood      the one noise model: detections, upper limits, systematic term,
                     flux-scale prior and its marginalisation
     fit/            nested sampling per model and the evidence ranking

@@ -30,15 +30,16 @@ balance needs constants from the ultraviolet to the millimetre:
 * ``"conductor"``: beyond the longest tabulated wavelength ``n, k ∝ lambda^(1/2)``
   from their end values, the Hagen-Rubens behaviour of a conductor whose
   conductivity is constant at low frequency (Bohren & Huffman 1983, ch. 9,
-  where n ≈ k ∝ lambda^(1/2)). The end values keep their own ratio (iron at
-  30 um has n/k ≈ 0.2, not yet the n ≈ k limit): forcing n = k would put a
-  jump at the end of the data.
+  where n ≈ k ∝ lambda^(1/2)). The end values keep their own ratio (the
+  bundled iron ends at 55.6 um with n/k ≈ 0.36, not yet the n ≈ k limit):
+  forcing n = k would put a jump at the end of the data.
 
 On the ultraviolet side both hold n and k at the shortest tabulated
 wavelength (``"constant"``). Dielectric ices and silica absorb far more
-strongly below ~0.2 um than at the edge of most tables (basic fact of the
-trade, no source), so this side under-estimates the ultraviolet absorption;
-callers report how much of the star's flux falls there.
+strongly below ~0.2 um than at the edge of tables that stop there (basic fact
+of the trade, no source; the bundled ice, silica and carbon reach ~0.1 um,
+iron, magnetite and soot only 0.21-0.26 um), so this side under-estimates the
+ultraviolet absorption; callers report how much of the star's flux falls there.
 
 A material that extrapolated says so:
 :meth:`Material.extrapolation_notes` and :meth:`Material.sample` return notes

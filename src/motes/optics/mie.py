@@ -48,6 +48,7 @@ __all__ = [
     "polarised_phase_function",
     "scattered_intensity",
     "polarised_scattered_intensity",
+    "intensities_for_index",
     "solver_summary",
     "check_index",
 ]
@@ -191,7 +192,114 @@ if _USE_JIT:
             out[i] = acc / mu.size
         return out
 
+    _lentz_dn = miepython.mie_jit._Lentz_Dn
+
+    @numba.njit(cache=True)
+    def _one_index_loop(m, x, mu):  # pragma: no cover - compiled
+        """Angle means of |S1|^2 + |S2|^2 and |S1|^2 - |S2|^2 for one index m (n - ik) and many x.
+
+        miepython's algorithm term for term (Wiscombe's truncation, Miller's downward
+        recurrence for psi_n(x), Lentz's continued fraction then the downward recurrence
+        for D_n(mx), Bohren & Huffman 1983 eqs. 4.88 for a_n, b_n and 4.74 for S1, S2), with
+        three changes that only move the rounding: psi_n(x) in real arithmetic, workspaces
+        allocated once per call instead of once per x, and each complex division done as
+        one reciprocal of |d|^2 instead of Smith's three divisions (|d| stays far from
+        overflow: d = T xi_n - xi_{n-1}, |T xi_n| ~ 3 n^2 / x^(n+1) for small x, so |d|^2 overflows
+        only for x below ~1e-40).
+        """
+        nx = x.size
+        nang = mu.size
+        tot = np.empty(nx)
+        pol = np.empty(nx)
+        if nx == 0:
+            return tot, pol
+        inv_m = 1.0 / m
+        xmax = x.max()
+        nt_max = int(xmax + 4.05 * xmax ** 0.33333 + 2.0)
+        psi = np.zeros(int(max(float(nt_max), xmax)) + 27 + int(1.5 * np.sqrt(xmax)))
+        dd = np.zeros(nt_max + 3, dtype=np.complex128)
+        pi_nm2 = np.zeros(nang)
+        pi_n = np.zeros(nang)
+        s1 = np.zeros(nang, dtype=np.complex128)
+        s2 = np.zeros(nang, dtype=np.complex128)
+        for i in range(nx):
+            xi = x[i]
+            nt = int(xi + 4.05 * xi ** 0.33333 + 2.0)
+            # psi_n(x), n = 0..nt: Miller's downward recurrence, scaled to psi_0 or psi_1
+            n_start = int(max(float(nt), xi)) + 25 + int(1.5 * np.sqrt(xi))
+            psi[n_start + 1] = 0.0
+            psi[n_start] = 1e-50
+            for n in range(n_start, 0, -1):
+                v = (2 * n + 1) / xi * psi[n] - psi[n + 1]
+                psi[n - 1] = v
+                if abs(v) > 1e200:
+                    for k in range(n - 1, n_start + 2):
+                        psi[k] /= 1e200
+            sin_x = np.sin(xi)
+            cos_x = np.cos(xi)
+            psi_1 = sin_x / xi - cos_x
+            scale = psi_1 / psi[1] if abs(psi_1) > abs(sin_x) else sin_x / psi[0]
+            for k in range(nt + 1):
+                psi[k] *= scale
+            # D_n(mx), n = 0..nt + 2: Lentz at the top, then downwards
+            z = m * xi
+            inv_z = 1.0 / z
+            last = _lentz_dn(z, nt + 2)
+            for n in range(nt + 2, 0, -1):
+                nz = n * inv_z
+                w = last + nz
+                r = 1.0 / (w.real * w.real + w.imag * w.imag)
+                last = nz - complex(w.real * r, -w.imag * r)
+                dd[n - 1] = last
+            inv_x = 1.0 / xi
+            chi_nm1 = cos_x
+            chi_n = cos_x * inv_x + sin_x
+            for k in range(nang):
+                pi_nm2[k] = 0.0
+                pi_n[k] = 1.0
+                s1[k] = 0.0
+                s2[k] = 0.0
+            for n in range(1, nt + 1):
+                n_over_x = n * inv_x
+                xi_nm1 = psi[n - 1] + 1j * chi_nm1
+                xi_n = psi[n] + 1j * chi_n
+                dn = dd[n]
+                temp = dn * inv_m + n_over_x
+                den = temp * xi_n - xi_nm1
+                r = 1.0 / (den.real * den.real + den.imag * den.imag)
+                a = (temp * psi[n] - psi[n - 1]) * complex(den.real * r, -den.imag * r)
+                temp = dn * m + n_over_x
+                den = temp * xi_n - xi_nm1
+                r = 1.0 / (den.real * den.real + den.imag * den.imag)
+                b = (temp * psi[n] - psi[n - 1]) * complex(den.real * r, -den.imag * r)
+                chi = (2 * n + 1) * inv_x * chi_n - chi_nm1
+                chi_nm1 = chi_n
+                chi_n = chi
+                fn = float(n)
+                sc = (2.0 * fn + 1.0) / ((fn + 1.0) * fn)
+                for k in range(nang):
+                    p = pi_n[k]
+                    t = n * mu[k] * p - (n + 1) * pi_nm2[k]
+                    s1[k] += sc * (p * a + t * b)
+                    s2[k] += sc * (t * a + p * b)
+                    pi_n[k] = ((2 * n + 1) * mu[k] * p - (n + 1) * pi_nm2[k]) / n
+                    pi_nm2[k] = p
+            acc = 0.0
+            accp = 0.0
+            for k in range(nang):
+                u = s1[k].real ** 2 + s1[k].imag ** 2
+                v = s2[k].real ** 2 + s2[k].imag ** 2
+                acc += u + v
+                accp += u - v
+            tot[i] = acc / nang
+            pol[i] = accp / nang
+        return tot, pol
+
 else:  # pure-Python fallback (MIEPYTHON_USE_JIT=0 set by the user)
+
+    def _one_index_loop(m, x, mu):
+        mm = np.full(x.size, m)
+        return _intensity_loop(mm, x, mu), _polarised_loop(mm, x, mu)
 
     def _efficiency_loop(m, x):
         out = np.empty((4, x.size))
@@ -374,6 +482,41 @@ def polarised_scattered_intensity(m, x, theta) -> np.ndarray:
     if xx.size == 0:
         return np.empty(shape)
     return _polarised_loop(mm, xx, mu).reshape(shape)
+
+
+@accepts_quantities(extra={"theta": SCATTERING_ANGLE_RAD})
+def intensities_for_index(m, x, theta) -> tuple[np.ndarray, np.ndarray]:
+    """Both angle means of :func:`scattered_intensity` and :func:`polarised_scattered_intensity`
+    for ONE index and many size parameters, in one pass (the lookup tables' builder).
+
+    Parameters
+    ----------
+    m : complex
+        ``n + i k``, ``k >= 0`` (a single value).
+    x : ndarray[n]
+        Size parameters.
+    theta : float or ndarray[n_theta] [rad]
+
+    Returns
+    -------
+    total, polarised : ndarray[n]
+        ``mean_theta (|S1|^2 + |S2|^2)`` and ``mean_theta (|S1|^2 - |S2|^2)``.
+
+    Notes
+    -----
+    The same series and recurrences as miepython (see ``_one_index_loop``) in a
+    loop that does not allocate per x and divides complex numbers through one
+    reciprocal; ~1.6x faster per x on the tables' samples. Against
+    :func:`scattered_intensity` it differs by rounding only: measured at most
+    6.5e-12 relative per sample (at deep minima of the Mie ripple), 3e-14 on
+    size integrals (``benchmarks/bench_tilebuild.py``, ``tests/test_optics_mie_one_index.py``).
+    """
+    mm = check_index(np.asarray(m)).ravel()
+    if mm.size != 1:
+        raise InputError("intensities_for_index takes a single refractive index", where="m")
+    xx = np.ascontiguousarray(_check_x(x).ravel(), dtype=np.float64)
+    mu, _ = _cos_angles(theta)
+    return _one_index_loop(complex(_miepython_index(mm)[0]), xx, mu)
 
 
 @accepts_quantities(extra={"theta": SCATTERING_ANGLE_RAD})

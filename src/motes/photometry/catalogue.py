@@ -77,10 +77,20 @@ def _short_note(band: Band | IndexedBand) -> str:
     if band.system in ("WISE", "Spitzer/IRAC"):
         parts.append("colour corrections may be needed")
     elif band.note and not band.approximate:
-        parts.append(band.note.split(";")[0].split(" (")[0][:48])
+        parts.append(_first_clause(band.note))
     if band.native_system == "AB":
         parts.append("AB system")
     return "; ".join(parts)
+
+
+def _first_clause(note: str, width: int = 56) -> str:
+    """A note cut for the table: its first clause, shortened at a word with "…", never mid-word."""
+    import textwrap
+
+    text = note.split(";")[0].split(" (")[0].rstrip(".")
+    if len(text) > width and ":" in text:
+        text = text.split(":")[0]
+    return textwrap.shorten(text, width, placeholder=" …")
 
 
 def format_band_table(table) -> str:

@@ -11,7 +11,7 @@ from pathlib import Path
 from ..errors import InputError
 from ..files import atomic_write
 from ..photometry.bands import Band
-from .figure_style import SERIES_COLOURS, house_style, new_figure
+from .figure_style import SERIES_COLOURS, figure_band_name, house_style, new_figure
 
 __all__ = ["plot_band"]
 
@@ -45,7 +45,9 @@ def plot_band(band: Band, path) -> Path:
     ax.axvline(band.pivot_wavelength, color="0.3", lw=0.8, ls=":", label=f"pivot {band.pivot_wavelength:.4f} µm")
     ax.set_xlabel("wavelength [µm]")
     ax.set_ylabel("normalised throughput")
-    title = band.name + (" (approximate)" if band.approximate else "")
+    # the display name ("MKO L′") and the identifier to type ("mko_lp"); a user band by its own name
+    shown = figure_band_name(band.name)
+    title = (shown if shown == band.name else f"{shown} ({band.name})") + (" (approximate)" if band.approximate else "")
     ax.set_title(title)
     ax.set_ylim(0, 1.12)
     ax.legend(fontsize=6.5, loc="lower center")

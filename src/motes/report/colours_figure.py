@@ -108,7 +108,8 @@ def draw_colours(result, n_models: int = 3, curves=None, truth_values=None):
     unit = " [arcsec⁻²]" if obs.normalisation == "surface brightness" else ""
     ax.set_ylabel("disk / star" + unit)
     angles = next((c.angles_deg for c in curves.values() if getattr(c, "angles_deg", ())), ())
-    ax.set_title(f"Disk colours: data and the {len(models)} best models (Mie spheres; "
+    hollow = any(str(n).startswith("grains: a distribution of hollow spheres") for n in result.notes)
+    ax.set_title(f"Disk colours: data and the {len(models)} best models ({'hollow' if hollow else 'Mie'} spheres; "
                  f"{scattering_angles_text(angles, result.notes)})")
     legend = ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=6.5)
     if not curves:

@@ -30,6 +30,58 @@ def _fmt(x, digits=3):
     return f"{x:.{digits}g}" if ax < 1 else f"{x:.{max(digits - int(math.log10(ax)) - 1, 0) + 1}f}"
 
 
+def _thermal_header(result) -> list[str]:
+    """The thermal data line of a joint fit (none for a scattered-light fit)."""
+    t = getattr(result, "thermal_observations", None)
+    if t is None:
+        return []
+    return [f"thermal data: {len(t.bands)} bands ({t.n_detections} detections), flux densities from {t.path}; "
+            "fitted jointly with the scattered light (each data set with its own flux scale)"]
+
+
+def _by_data_lines(result) -> list[str]:
+    """Per material: ln B from the scattered light alone, the thermal data alone and both (joint fits)."""
+    table = result.verdict_table
+    if not getattr(result, "by_data", None) or "ln_b_thermal" not in table.colnames:
+        return []
+    lines = ["", "Which data drove the verdicts (ln B of the same pair of models, each data set alone and jointly):",
+             f"  {'material':<16} {'scattered':>15} {'thermal':>15} {'joint':>15}  driven by"]
+
+    def pair(v, e):
+        return "-" if not np.isfinite(v) else f"{v:+.2f} ± {e:.2f}"
+
+    for row in table:
+        lines.append(f"  {row['material']:<16} {pair(row['ln_b_scattered'], row['ln_b_scattered_err']):>15} "
+                     f"{pair(row['ln_b_thermal'], row['ln_b_thermal_err']):>15} {pair(row['ln_b'], row['ln_b_err']):>15}"
+                     f"  {row['driven_by']}")
+    from ..dust.fit.joint_run import DRIVEN_BY_RULE
+
+    lines.append("  " + DRIVEN_BY_RULE)
+    return lines
+
+
+def _thermal_model_lines(m) -> list[str]:
+    """The thermal side of one model of a joint fit: derived quantities and fluxes per band."""
+    d, t = getattr(m, "thermal", None), getattr(m, "thermal_fluxes", None)
+    if not d:
+        return []
+    lines = [f"  thermal (best fit, exact path): L_dust/L_star = {_fmt(d['fractional_luminosity'])}, ring radius "
+             f"{_fmt(d['radius_au'])} au, blackbody radius {_fmt(d['blackbody_radius_au'])} au, r / r_bb = "
+             f"{_fmt(d['radius_over_blackbody_radius'])}, dust temperature {_fmt(d['dust_temperature_K'])} K; "
+             f"chi2 scattered {d['best_chi2_scattered']:.2f}, thermal {d['best_chi2_thermal']:.2f}"]
+    flags = [f"  FLAG: {f}" for f in d.get("flags", ())]
+    lines += flags or ["  ice sublimation: no material above its sublimation temperature at the best fit"]
+    if t is not None and len(t):
+        lines.append(f"  {'band':<22} {'data [mJy]':>14} {'model best':>11} {'median':>10}  68% interval")
+        for row in t:
+            data = (f"< {1e3 * row['value']:.4g}" if row["is_limit"] else
+                    f"{1e3 * row['value']:.4g}±{1e3 * row['error']:.2g}")
+            lines.append(f"  {row['band']:<22} {data:>14} {1e3 * row['model_best']:11.4g} "
+                         f"{1e3 * row['model_median']:10.4g}  [{1e3 * row['model_lo68']:.4g}, "
+                         f"{1e3 * row['model_hi68']:.4g}]")
+    return lines
+
+
 def format_fit_report(result: FitResult, references=None) -> str:
     """The text summary printed by ``motes fit`` and written to ``summary.txt``.
 
@@ -42,7 +94,9 @@ def format_fit_report(result: FitResult, references=None) -> str:
              f"from {obs.path}"
              + (f"; {int(obs.is_polarised.sum())} of the rows in polarised intensity "
                 f"({', '.join(b for b, p in zip(obs.band_names, obs.is_polarised) if p)}), one flux scale with "
-                "the total-intensity rows" if getattr(obs, "has_polarised", False) else ""), ""]
+                "the total-intensity rows" if getattr(obs, "has_polarised", False) else "")]
+    lines += _thermal_header(result)
+    lines.append("")
     lines.append("Models ranked by evidence (ln B = ln Z - ln Z(best), and vs the full set):")
     lines.append(f"  {'rank':>4}  {'model':<40} {'ln Z':>9} {'±':>5}  {'ln B best':>9}  {'reading':<13}"
                  f" {'ln B full':>9}  {'P(model)':>8}")
@@ -57,6 +111,7 @@ def format_fit_report(result: FitResult, references=None) -> str:
             text += f"; its fraction in {v.with_model}: 95% upper limit {row['fraction_upper95']:.3f}"
         lines.append(text)
     lines.append("  " + VERDICT_RULE)
+    lines += _by_data_lines(result)
     contrasts = best_fit_contrasts(result.verdicts, result.models)
     if contrasts:       # only for materials the verdicts judged: what a chi-square profile would say of them
         lines += ["", "Verdicts as best fit plus prior volume (ln B = Delta ln L_max + Delta ln Occam factor; "
@@ -74,6 +129,7 @@ def format_fit_report(result: FitResult, references=None) -> str:
         best = ", ".join(f"{k} = {_fmt(v)}" + (f" {parameter_unit(k)}" if parameter_unit(k) else "")
                          for k, v in m.best.items())
         lines.append(f"  maximum likelihood: chi2 = {m.best_chi2:.2f} for {m.dof} dof; {best}")
+        lines += _thermal_model_lines(m)
     if result.priors:
         lines += ["", "Priors:"] + [f"  {name}: {text}" for name, text in result.priors]
     lines += ["", "Caveats:"] + [f"  - {c}" for c in result.caveats]

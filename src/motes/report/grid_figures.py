@@ -20,13 +20,13 @@ from .label_placement import marker_boxes, place_labels
 __all__ = ["plot_fraction_profiles", "plot_axis_profiles", "plot_best_models", "write_grid_figures"]
 
 _AXIS_LABELS = {"porosity": "porosity (vacuum fraction)", "a_min": "a_min [µm]", "q": "size slope q",
-                "a_max": "a_max [µm]"}
+                "a_max": "a_max [µm]", "f_max": "f_max (hollow spheres)"}
 
 
 #: top of the linear Delta chi2 axis of the profiles; larger values are drawn as triangles at the top edge
 _DELTA_CHI2_TOP = 25.0
 #: the physical range of each axis (bars and ticks stay inside it)
-_DOMAINS = {"fraction": (0.0, 1.0), "porosity": (0.0, 1.0)}
+_DOMAINS = {"fraction": (0.0, 1.0), "porosity": (0.0, 1.0), "f_max": (0.0, 1.0)}
 
 
 def _plain_log_axis(ax, lo=None, hi=None):
@@ -148,13 +148,13 @@ def plot_fraction_profiles(summary, path, formats=None, truth=None) -> Path:
 
 @house_style
 def plot_axis_profiles(summary, path, formats=None, truth=None) -> Path | None:
-    """Best Delta chi2 and likelihood share against porosity, a_min, q and a_max.
+    """Best Delta chi2 and likelihood share against porosity, a_min, q, a_max (and f_max, hollow spheres).
 
     Axes with a single value are left out; returns None when none has more.
     """
     prof = summary.axis_profiles
     cols, truths = [], []
-    for name in ("porosity", "a_min", "q", "a_max"):
+    for name in ("porosity", "a_min", "q", "a_max", "f_max"):
         rows = prof[prof["axis"] == name]
         if len(rows) < 2:
             continue

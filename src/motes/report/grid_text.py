@@ -37,7 +37,8 @@ def format_grid_summary(summary: GridSummary, top: int = 10) -> list[str]:
     for row in best[:min(len(best), top)]:
         mix = ", ".join(f"{m} {row['f_' + m]:.3g}" for m in summary.materials)
         lines.append(f"  #{row['rank']:<3d} Δχ² = {row['delta_chi2']:7.3f}  {mix}; porosity {row['porosity']:.3g}, "
-                     f"a_min {row['a_min']:.3g} µm, q {row['q']:.3g}, a_max {row['a_max']:.4g} µm")
+                     f"a_min {row['a_min']:.3g} µm, q {row['q']:.3g}, a_max {row['a_max']:.4g} µm"
+                     + (f", f_max {row['f_max']:.3g}" if "f_max" in best.colnames else ""))
     lines.append("materials (chi-square profile over everything else):")
     lines += [f"  {line}" for line in format_grid_verdicts(summary)]
     lines += [f"note: {note}" for note in summary.notes]

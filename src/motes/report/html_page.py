@@ -493,11 +493,21 @@ def write_fit_page(result, printed: str, references=(), folder=None) -> Path:
     obs = result.observations
     facts = [("description", result.source), ("photometry", obs.path or "-"),
              ("data", f"{len(obs.bands)} bands ({obs.n_detections} detections), {obs.normalisation}")]
+    thermal = getattr(result, "thermal_observations", None)
+    if thermal is not None:
+        facts += [("thermal photometry", thermal.path),
+                  ("thermal data", f"{len(thermal.bands)} bands ({thermal.n_detections} detections), flux densities; "
+                                   "fitted jointly, each data set with its own flux scale")]
     facts += [(f"prior {name}", text) for name, text in result.priors]
     parts = []
     for v in result.verdicts:
         parts.append(_verdict_html(v.verdict, v.sentence(), _VERDICT_TONE.get(v.verdict, "open")))
     parts.append(f'<p class="rule">{_e(VERDICT_RULE)}</p>')
+    if "driven_by" in result.verdict_table.colnames:
+        for row in result.verdict_table:
+            parts.append(f"<p>{_e(row['material'])}: ln B scattered alone {row['ln_b_scattered']:+.2f}, thermal alone "
+                         f"{row['ln_b_thermal']:+.2f}, joint {row['ln_b']:+.2f}: driven by "
+                         f"<b>{_e(row['driven_by'])}</b></p>")
     data_rows = tuple((b.name, b.pivot_wavelength, ">" if lim else "", val, None if lim else err)
                       for b, val, err, lim in zip(obs.bands, obs.value, obs.error, obs.is_limit))
     heads = ("band", "pivot [µm]", "limit", "value", "error")
@@ -517,6 +527,18 @@ def write_fit_page(result, printed: str, references=(), folder=None) -> Path:
                                 f"(maximum likelihood chi2 = {m.best_chi2:.2f} for {m.dof} dof)",
                                 ("parameter", "median", "68% low", "68% high", "95% low", "95% high",
                                  "95% upper"), tuple(rows)))
+        if getattr(m, "thermal", None):
+            d = m.thermal
+            tables.append(PageTable(
+                f"model {m.name}: thermal side at the best fit (exact path)", ("quantity", "value"),
+                (("L_dust / L_star", d["fractional_luminosity"]), ("ring radius [au]", d["radius_au"]),
+                 ("blackbody radius [au]", d["blackbody_radius_au"]),
+                 ("r / r_blackbody", d["radius_over_blackbody_radius"]), ("dust temperature [K]", d["dust_temperature_K"]),
+                 ("sublimation flags", "; ".join(d.get("flags", ())) or "none"))))
+            if m.thermal_fluxes is not None:
+                tables.append(_astropy_table(m.thermal_fluxes, f"model {m.name}: thermal data and model fluxes [Jy]",
+                                             ("band", "pivot_wavelength", "value", "error", "is_limit", "model_best",
+                                              "model_median", "model_lo68", "model_hi68")))
     figures = _figures(result.files)
     files = [*result.files, *([] if path in result.files else [path])]
     html_text = render_page(

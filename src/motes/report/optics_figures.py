@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from .figure_files import save_figure
-from .figure_style import colour_map, house_style, new_figure
+from .figure_style import colour_map, figure_band_name, house_style, new_figure
 
 __all__ = ["plot_reflectance", "plot_efficiencies", "plot_polarisation"]
 
@@ -80,7 +80,8 @@ def plot_reflectance(path, wavelength, flux_ratio_curve, bands, band_flux_ratio,
         # band names beside their points (no colour-coded legend: it would not read in grey)
         obstacles = marker_boxes(ax, list(ax.lines) + list(ax.collections)) + curve_boxes(ax, ax.lines)
         place_labels(ax, [(b.pivot_wavelength, v) for b, v in zip(bands, band_flux_ratio)],
-                     [b.name + (" (approx.)" if b.approximate else "") for b in bands], obstacles=obstacles,
+                     [figure_band_name(b.name) + (" (approx.)" if b.approximate else "") for b in bands],
+                     obstacles=obstacles,
                      fontsize=6)
         return save_figure(fig, path, formats=formats)
 
@@ -97,7 +98,7 @@ def plot_efficiencies(path, radius, q_ext, q_sca, wavelengths, labels, title: st
     q_ext, q_sca : ndarray[n_wavelengths, n]
     wavelengths : ndarray[n_wavelengths] [um]
     labels : sequence of str
-        One label per wavelength (e.g. band names).
+        One label per wavelength (e.g. band identifiers, written by their display names).
     title : str
     a_min, a_max : float, optional [um]
         Size-distribution limits, drawn as vertical lines.
@@ -113,7 +114,8 @@ def plot_efficiencies(path, radius, q_ext, q_sca, wavelengths, labels, title: st
         n = len(wavelengths)
         for i in range(n):
             colour = cmap(0.8 * i / max(n - 1, 1))
-            ax1.plot(radius, q_ext[i], color=colour, lw=1.0, label=f"{labels[i]} ({wavelengths[i]:.3g} µm)")
+            ax1.plot(radius, q_ext[i], color=colour, lw=1.0,
+                     label=f"{figure_band_name(labels[i])} ({wavelengths[i]:.3g} µm)")
             ax1.plot(radius, q_sca[i], color=colour, lw=0.8, ls="--")
             with np.errstate(invalid="ignore", divide="ignore"):
                 ax2.plot(radius, q_sca[i] / q_ext[i], color=colour, lw=1.0)
@@ -175,7 +177,7 @@ def plot_polarisation(path, wavelength, total_curve, polarised_curve, bands, ban
             for ax in (ax1, ax2):
                 ax.axvspan(band.wavelength_min, band.wavelength_max, color=colour, alpha=0.12, lw=0)
             ax1.errorbar([band.pivot_wavelength], [band_total[i]], xerr=[[half], [half]], fmt="o", ms=5,
-                         color=colour, label=band.name + (" (approx.)" if band.approximate else ""))
+                         color=colour, label=figure_band_name(band.name) + (" (approx.)" if band.approximate else ""))
             ax1.errorbar([band.pivot_wavelength], [abs(band_polarised[i])], xerr=[[half], [half]],
                          fmt="s" if band_polarised[i] >= 0 else "v", ms=5, mfc="none", color=colour)
             ax2.errorbar([band.pivot_wavelength], [degree[i]], xerr=[[half], [half]], fmt="o", ms=5, color=colour)

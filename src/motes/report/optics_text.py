@@ -23,27 +23,28 @@ def format_mixture_optics(result: MixtureOptics) -> str:
     o, p = result.optics, result.parameters
     mats = result.description.material_names
     ref = o.bands[result.reference]
+    w = max([14] + [len(b) + 2 for b in o.bands])     # the band column fits the longest identifier
     lines = [result.model_summary,
              "mixture: " + ", ".join(f"{n} {f:.3g}" for n, f in zip(mats, p.fractions))
              + f"; porosity {p.porosity:.3g}; sizes {p.a_min:g}-{p.a_max:g} µm, q = {p.q:g}",
              f"mixture density: {o.density:.4g} g cm^-3" if np.isfinite(o.density)
              else "mixture density: unknown (a material has no bulk density)",
              "",
-             f"{'band':<14}{'pivot[µm]':>9}  {'m_eff (n + ik)':<22}{'R [1/sr]':>11}"
+             f"{'band':<{w}}{'pivot[µm]':>9}  {'m_eff (n + ik)':<22}{'R [1/sr]':>11}"
              f"{'colour[mag]':>12}{'albedo':>8}{'g':>7}{'Q_ext':>7}"]
     colours = result.colours
     for i, band in enumerate(o.bands):
         m = o.m_pivot[i]
-        lines.append(f"{band:<14}{o.pivot[i]:9.4f}  {m.real:7.4f} + {m.imag:9.3e}i   {o.flux_ratio[i]:11.4e}"
+        lines.append(f"{band:<{w}}{o.pivot[i]:9.4f}  {m.real:7.4f} + {m.imag:9.3e}i   {o.flux_ratio[i]:11.4e}"
                      f"{colours[i]:12.4f}{o.albedo[i]:8.4f}{o.g[i]:7.3f}{o.q_ext[i]:7.3f}")
     lines.append(f"(R: disk/star flux ratio per unit total grain cross-section; colour: mag relative to {ref}; "
                  "albedo and g: cross-section weighted, band averaged; exact Mie path)")
     if o.polarised_flux_ratio is not None:
         lines.append("")
-        lines.append(f"{'band':<14}{'pivot[µm]':>9}  {'R_pol [1/sr]':>12}{'R [1/sr]':>12}{'P = R_pol/R':>13}")
+        lines.append(f"{'band':<{w}}{'pivot[µm]':>9}  {'R_pol [1/sr]':>12}{'R [1/sr]':>12}{'P = R_pol/R':>13}")
         degree = o.degree_of_polarisation
         for i, band in enumerate(o.bands):
-            lines.append(f"{band:<14}{o.pivot[i]:9.4f}  {o.polarised_flux_ratio[i]:12.4e}{o.flux_ratio[i]:12.4e}"
+            lines.append(f"{band:<{w}}{o.pivot[i]:9.4f}  {o.polarised_flux_ratio[i]:12.4e}{o.flux_ratio[i]:12.4e}"
                          f"{degree[i]:+13.4f}")
         lines.append("(polarised intensity from -S12 = (|S1|^2 - |S2|^2)/2, integrated like R; P: degree of "
                      "linear polarisation, > 0 perpendicular to the scattering plane, < 0 parallel)")

@@ -148,6 +148,9 @@ def grid_citations(summary) -> tuple[Reference, ...]:
         return run_references(mie=True, bands=bands,
                               user_data=[f"optical constants of {n} (the grid description's files could not be "
                                          "read again to name their source)" for n in summary.materials])
+    custom = spec.description.custom_bands or {}     # user bands by their own definition (top-hat, curve file)
+    bands = [_band_triple(custom[name]) if name in custom else triple
+             for name, triple in zip((t[0] for t in bands), bands)]
     return _description_references(spec.description, None, bands, _star_data(spec.description))
 
 

@@ -9,17 +9,17 @@ from pathlib import Path
 
 import numpy as np
 
-from ..files import atomic_write
-from .figure_style import house_style
+from .figure_files import save_figure
+from .figure_style import colour_map, figure_band_name, house_style, new_figure
 
 __all__ = ["plot_thermal"]
 
-_STYLE = {"font.size": 9, "axes.grid": True, "grid.alpha": 0.25, "axes.spines.top": False,
-          "axes.spines.right": False}
+#: on top of the house style (:mod:`motes.report.figure_style`): a light grid
+_STYLE = {"axes.grid": True, "grid.alpha": 0.25}
 
 
 @house_style
-def plot_thermal(path, result, scattered=None, title: str | None = None) -> Path:
+def plot_thermal(path, result, scattered=None, title: str | None = None, formats=None) -> Path:
     """Two panels: the disk's SED (thermal and scattered) with the photosphere, and T(a).
 
     Parameters
@@ -31,24 +31,31 @@ def plot_thermal(path, result, scattered=None, title: str | None = None) -> Path
         Scattered-light bands and their disk/star flux ratios, drawn as
         ``ratio x star flux`` beside the thermal points.
     title : str, optional
+    formats : sequence of str or str, optional
+        Figure formats (``"png"``, ``"pdf"``, ``"svg"``); see :func:`motes.report.save_figure`.
+
+    Returns
+    -------
+    Path
+        The first file written.
     """
     import matplotlib
-    from matplotlib.figure import Figure
+    from matplotlib.ticker import FuncFormatter
+
+    from .label_placement import curve_boxes, marker_boxes, place_labels
 
     path = Path(path)
     unit = "Jy" if result.settings.distance_pc else "Jy at 1 pc"
     with matplotlib.rc_context(_STYLE):
-        fig = Figure(figsize=(7.0, 7.6))
+        fig = new_figure(2, height=7.6)
         ax1, ax2 = fig.subplots(2, 1, gridspec_kw={"height_ratios": [1.15, 1.0]})
         lam = result.spectrum_wavelength
         ax1.plot(lam, result.spectrum_star, color="0.55", lw=1.0, ls="--", label="photosphere")
         ax1.plot(lam, result.spectrum_disk, color="tab:red", lw=1.4, ls="-", label="dust, thermal")
         ax1.plot(lam, result.spectrum_disk + result.spectrum_star, color="0.15", lw=0.8, ls="-", label="total")
-        for i, name in enumerate(result.band_names):
+        for i in range(len(result.band_names)):
             ax1.plot([result.band_pivot[i]], [result.band_disk[i]], "o", color="tab:red", ms=5,
                      mec="k", mew=0.5)
-            ax1.annotate(name, (result.band_pivot[i], result.band_disk[i]), textcoords="offset points",
-                         xytext=(4, 4), fontsize=6, color="0.3")
         if scattered is not None:
             bands, ratio = scattered
             piv = np.array([b.pivot_wavelength for b in bands])
@@ -68,7 +75,9 @@ def plot_thermal(path, result, scattered=None, title: str | None = None) -> Path
                              f"T_dust (F_ν peak) = {result.dust_temperature:.0f} K\n"
                              f"R / R_bb = {result.radius_ratio:.2f}",
                  transform=ax1.transAxes, ha="right", va="top", fontsize=7)
-        cmap = matplotlib.colormaps["viridis"]
+        plain = FuncFormatter(lambda v, _pos: f"{v:g}")
+        ax1.xaxis.set_major_formatter(plain)
+        cmap = colour_map()
         n_r = result.radii.size
         for j in range(n_r):
             colour = cmap(j / max(n_r - 1, 1)) if n_r > 1 else "tab:red"
@@ -79,6 +88,7 @@ def plot_thermal(path, result, scattered=None, title: str | None = None) -> Path
         ax2.text(result.sizes[0], result.blackbody_temperature[0], " blackbody (dotted)", fontsize=6,
                  va="bottom", ha="left", color="0.35")
         ax2.set_xscale("log")
+        ax2.xaxis.set_major_formatter(plain)
         ax2.set_xlabel("grain radius [µm]")
         ax2.set_ylabel("grain temperature [K]")
         ax2.legend(fontsize=7, frameon=False, title="distance from the star", title_fontsize=7)
@@ -87,10 +97,12 @@ def plot_thermal(path, result, scattered=None, title: str | None = None) -> Path
         flags = [f"⚠ {f}" for f in result.flags]
         notes = flags + ["Mie spheres, optically thin; band fluxes without colour corrections"]
         fig.text(0.01, 0.005, "\n".join(_wrap(n) for n in notes), fontsize=6, color="0.3", va="bottom")
-        fig.subplots_adjust(hspace=0.3, bottom=0.08 + 0.02 * sum(_wrap(n).count("\n") + 1 for n in notes))
-        with atomic_write(path) as tmp:
-            fig.savefig(tmp, dpi=150, bbox_inches="tight")
-    return path
+        fig.subplots_adjust(left=0.1, right=0.97, top=0.95 if title else 0.98, hspace=0.3, bottom=0.08 + 0.02 * sum(_wrap(n).count("\n") + 1 for n in notes))
+        # band names (display names, "WISE W4") beside their points, clear of the curves and markers
+        obstacles = marker_boxes(ax1, list(ax1.lines)) + curve_boxes(ax1, ax1.lines)
+        place_labels(ax1, list(zip(result.band_pivot, result.band_disk)),
+                     [figure_band_name(n) for n in result.band_names], obstacles=obstacles, fontsize=6)
+        return save_figure(fig, path, formats=formats)
 
 
 def _wrap(text: str, width: int = 150) -> str:

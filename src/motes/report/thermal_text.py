@@ -25,9 +25,14 @@ def _where(result: ThermalResult) -> str:
     return f"belt {r[0]:g}-{r[1]:g} au, surface density ∝ r^{result.settings.surface_density_index:g}"
 
 
-def format_thermal(result: ThermalResult) -> str:
-    """The thermal part of what ``motes optics`` prints."""
+def format_thermal(result: ThermalResult, printed_notes=()) -> str:
+    """The thermal part of what ``motes optics`` prints.
+
+    ``printed_notes``: notes already printed (by the scattered-light part), left out here so
+    that each note is printed once.
+    """
     s = result.settings
+    w = max([20] + [len(n) + 2 for n in result.band_names])
     mass = (f"{result.dust_mass_mearth:.3g} M_earth" if np.isfinite(result.dust_mass_mearth)
             else "mass unknown (a material has no density)")
     seen = f"seen from {s.distance_pc:g} pc" if s.distance_pc else "no distance given: fluxes at 1 pc"
@@ -38,9 +43,9 @@ def format_thermal(result: ThermalResult) -> str:
              f"{result.blackbody_radius:.3g} au; radius / blackbody radius: {result.radius_ratio:.3g}"
              + ("" if len(s.radius_au) == 1 else " (cross-section-weighted mean radius)"),
              "",
-             f"{'band':<20}{'pivot um':>10}{'disk [mJy]':>13}{'star [mJy]':>13}{'disk/star':>12}"]
+             f"{'band':<{w}}{'pivot [µm]':>10}{'disk [mJy]':>13}{'star [mJy]':>13}{'disk/star':>12}"]
     for i, name in enumerate(result.band_names):
-        lines.append(f"{name:<20}{result.band_pivot[i]:10.4g}{1e3 * result.band_disk[i]:13.4g}"
+        lines.append(f"{name:<{w}}{result.band_pivot[i]:10.4g}{1e3 * result.band_disk[i]:13.4g}"
                      f"{1e3 * result.band_star[i]:13.4g}{result.excess[i]:12.4g}")
     lines.append("(disk/star: the excess over the photosphere in the band; photon-counting band averages, "
                  "no colour correction)")
@@ -48,7 +53,7 @@ def format_thermal(result: ThermalResult) -> str:
     for j in j_show:
         t_bb = float(result.blackbody_temperature[j])
         lines += ["", f"grain temperature against size at {result.radii[j]:.4g} au (blackbody {t_bb:.1f} K):",
-                  f"  {'a [um]':>10}{'T [K]':>9}{'T/T_bb':>8}{'<Q_abs>*':>10}{'<Q_abs>_T':>11}"]
+                  f"  {'a [µm]':>10}{'T [K]':>9}{'T/T_bb':>8}{'<Q_abs>*':>10}{'<Q_abs>_T':>11}"]
         step = max(1, result.sizes.size // 10)
         for i in list(range(0, result.sizes.size, step)) + ([result.sizes.size - 1]
                                                             if (result.sizes.size - 1) % step else []):
@@ -59,7 +64,7 @@ def format_thermal(result: ThermalResult) -> str:
         lines.append("")
         lines.extend(f"Flag: {f}" for f in result.flags)
     lines.append("")
-    lines.extend(f"Note: {n}" for n in result.notes)
+    lines.extend(f"Note: {n}" for n in result.notes if n not in set(printed_notes))
     return "\n".join(lines)
 
 
@@ -85,7 +90,7 @@ def scattered_flux_ratio(result: ThermalResult, flux_ratio_per_cross_section) ->
 
 
 def write_thermal_outputs(result: ThermalResult, folder, stem: str = "optics", figures: bool = True,
-                          scattered=None, provenance=None) -> list[Path]:
+                          scattered=None, provenance=None, formats=None) -> list[Path]:
     """Write the thermal band table, the temperature table and the figure; return the paths.
 
     Parameters
@@ -100,7 +105,10 @@ def write_thermal_outputs(result: ThermalResult, folder, stem: str = "optics", f
     provenance : dict, optional
         What produced the numbers (:meth:`ModelDescription.provenance`), added to
         both tables' ``meta``.
+    formats : sequence of str or str, optional
+        Figure formats (``--figure-formats``); default PNG.
     """
+    from .figure_files import figure_paths
     from .thermal_figures import plot_thermal
 
     folder = Path(folder)
@@ -116,5 +124,6 @@ def write_thermal_outputs(result: ThermalResult, folder, stem: str = "optics", f
             table.write(tmp, format="ascii.ecsv", overwrite=True)
     out = [p for p, _ in tables]
     if figures:
-        out.append(plot_thermal(folder / f"{stem}_thermal.png", result, scattered=scattered))
+        plot_thermal(folder / f"{stem}_thermal.png", result, scattered=scattered, formats=formats)
+        out += figure_paths(folder / f"{stem}_thermal.png", formats)
     return out

@@ -8,7 +8,9 @@
 - :mod:`~motes.dust.fit.sampler` — dynesty runs, checkpoints and pools;
 - :mod:`~motes.dust.fit.evidence` — ranking by ln Z and the material verdicts;
 - :mod:`~motes.dust.fit.results` — result objects and their files;
-- :mod:`~motes.dust.fit.run` — :func:`run_fit`, the whole job, resumable.
+- :mod:`~motes.dust.fit.run` — :func:`run_fit`, the whole job, resumable;
+- :mod:`~motes.dust.fit.thermal_spec`, :mod:`~motes.dust.fit.joint`, :mod:`~motes.dust.fit.joint_run` —
+  the joint fit of scattered light and a thermal SED (``[data] thermal``).
 """
 
 from __future__ import annotations

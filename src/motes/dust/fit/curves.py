@@ -117,8 +117,9 @@ def posterior_curves(result, n_models: int = 3, n_draws: int = 8, wavelength=Non
         scale = np.append(m.samples[pick, m.sample_names.index("scale")], m.best["scale"])
         p = problem.space.unpack(theta)
         how = method or getattr(colour_model, "method", "exact")
+        extra = {"f_max": p["f_max"]} if "f_max" in p else {}     # a fitted f_max (hollow spheres)
         curves = colour_model.monochromatic_flux_ratio(wl, p["fractions"], p["porosity"], p["a_min"], p["q"],
-                                                       a_max=p["a_max"], method=how) * scale[:, None]
+                                                       a_max=p["a_max"], method=how, **extra) * scale[:, None]
         draws = curves[:-1]
         out[m.name] = ModelCurve(model=m.name, wavelength=wl, median=np.median(draws, axis=0),
                                  lo68=np.percentile(draws, 16, axis=0), hi68=np.percentile(draws, 84, axis=0),

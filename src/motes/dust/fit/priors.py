@@ -195,6 +195,15 @@ class ParameterSpace:
     blowout : callable or None
         ``blowout(fractions[N, K], porosity[N]) -> a_blow[N]`` [um]; needed
         when ``a_min.relative_to == "blowout"``.
+    f_max : Prior or None
+        Prior of the largest vacuum-core volume fraction of hollow-sphere
+        grains (``[parameters] f_max``); None: not a parameter of this fit
+        (spheres, or f_max fixed in ``[model]``). Sampled after the other
+        scalars (before ``ring_radius``).
+    ring_radius : Prior or None
+        Prior of the ring radius [au] of a joint fit with thermal data
+        (:mod:`motes.dust.fit.thermal_spec`); None (no such parameter) otherwise.
+        When free it is sampled after the other scalars.
     """
 
     materials: tuple[str, ...]
@@ -206,6 +215,8 @@ class ParameterSpace:
     systematic: Prior = Prior("fixed", value=PARAMETERS["systematic"].default)
     scale: ScalePrior = ScalePrior()
     sample_scale: bool = False
+    f_max: Prior | None = None
+    ring_radius: Prior | None = None
     blowout: Callable | None = field(default=None, compare=False, repr=False)
 
     def __post_init__(self):
@@ -213,7 +224,7 @@ class ParameterSpace:
             raise FitError("a model needs at least one material")
         if self.a_min.relative_to == "blowout" and self.blowout is None:
             raise FitError("a_min tied to the blow-out size needs the star's luminosity and mass")
-        for name in ("porosity", "q"):
+        for name in ("porosity", "q") + (("f_max",) if self.f_max is not None else ()):
             p, declared = getattr(self, name), PARAMETERS[name]
             lo = p.value if p.kind == "fixed" else p.lower
             hi = p.value if p.kind == "fixed" else p.upper
@@ -231,6 +242,10 @@ class ParameterSpace:
 
     def _scalar_params(self):
         out = [(n, getattr(self, n)) for n in PRIOR_PARAMETERS]
+        if self.f_max is not None:
+            out.append(("f_max", self.f_max))
+        if self.ring_radius is not None:
+            out.append(("ring_radius", self.ring_radius))
         return [(n, p) for n, p in out if p.free]
 
     @property
@@ -260,6 +275,10 @@ class ParameterSpace:
         for n in PRIOR_PARAMETERS:
             prior, unit = getattr(self, n), PARAMETERS[n].unit_text
             rows.append((n, prior.describe() + (f" {unit}" if unit and prior.relative_to is None else "")))
+        if self.f_max is not None:
+            rows.append(("f_max", self.f_max.describe()))
+        if self.ring_radius is not None:
+            rows.append(("ring_radius", self.ring_radius.describe() + " au"))
         rows.append(("scale", f"log-uniform [{self.scale.lower:g}, {self.scale.upper:g}], "
                      + ("sampled" if self.sample_scale else "marginalised numerically")))
         return rows
@@ -324,6 +343,18 @@ class ParameterSpace:
                 col += 1
             else:
                 out[name] = np.full(n, prior.value)
+        if self.f_max is not None:
+            if self.f_max.free:
+                out["f_max"] = theta[:, col]
+                col += 1
+            else:
+                out["f_max"] = np.full(n, self.f_max.value)
+        if self.ring_radius is not None:
+            if self.ring_radius.free:
+                out["ring_radius"] = theta[:, col]
+                col += 1
+            else:
+                out["ring_radius"] = np.full(n, self.ring_radius.value)
         if self.sample_scale:
             out["scale"] = theta[:, col]
         if self.a_min.relative_to == "blowout" and not self.a_min.free and not _raw_a_min:

@@ -48,12 +48,16 @@ def read_fit_photometry(spec: FitSpec) -> DiskPhotometry:
 
     Problems name the file as the description gave it (not its absolute path).
     """
+    import dataclasses
+
     try:
-        return read_disk_photometry(spec.photometry_path, custom_bands=spec.description.custom_bands or None)
+        obs = read_disk_photometry(spec.photometry_path, custom_bands=spec.description.custom_bands or None)
     except InputError as exc:
         if exc.path != str(spec.photometry_path):
             raise
         raise InputError(exc.reason, spec.photometry_shown, exc.where) from None
+    # summaries, report pages and later messages name the file as given, too (issue 14)
+    return dataclasses.replace(obs, path=spec.photometry_shown)
 
 
 def build_colour_model(spec: FitSpec, materials, bands, intensities=None):
@@ -151,6 +155,8 @@ class FitProblem:
         kwargs = {"a_max": p["a_max"]}
         if self._angle_keyword is not None and (self.space.angle.free or self.space.angle.value != 90.0):
             kwargs[self._angle_keyword] = p["angle"]
+        if "f_max" in p:          # a fitted f_max (hollow-sphere grains): one value per point
+            kwargs["f_max"] = p["f_max"]
         flux = self.colour_model.flux_ratio(p["fractions"], *(p[n] for n in MIXTURE_PARAMETERS[:3]), **kwargs)
         return np.atleast_2d(np.asarray(flux, dtype=float))
 
@@ -223,16 +229,23 @@ class ProblemHandle:
         Folder in which each process that evaluates the likelihood leaves an
         empty file named after its process id (how a run reports how many
         worker processes really took part).
+    part : {"joint", "scattered", "thermal"}
+        With thermal data (``spec.thermal``): which data the likelihood uses
+        (:class:`motes.dust.fit.joint.JointProblem` ``which``). Ignored otherwise.
     """
 
-    def __init__(self, spec: FitSpec, model: ModelSpec, model_factory=None, trace_dir=None):
+    def __init__(self, spec: FitSpec, model: ModelSpec, model_factory=None, trace_dir=None, part: str = "joint"):
         self.spec = spec
         self.model = model
         self.model_factory = model_factory
         self.trace_dir = None if trace_dir is None else str(trace_dir)
+        self.part = part
         factory_name = "default" if model_factory is None else \
             f"{getattr(model_factory, '__module__', '')}.{getattr(model_factory, '__qualname__', repr(model_factory))}"
-        self.key = hashlib.sha256(f"{spec.digest}|{model.name}|{factory_name}|{spec.source}".encode()).hexdigest()
+        key = f"{spec.digest}|{model.name}|{factory_name}|{spec.source}"
+        if spec.thermal is not None:
+            key += f"|{part}"
+        self.key = hashlib.sha256(key.encode()).hexdigest()
 
     def build(self) -> FitProblem:
         """Build (or fetch from this process's cache) the :class:`FitProblem`."""
@@ -253,6 +266,10 @@ class ProblemHandle:
                 blowout = _blowout_function(self.spec, colour_model)
             space = self.spec.parameter_space(self.model, blowout=blowout)
             problem = FitProblem(colour_model, obs, space)
+            if self.spec.thermal is not None:
+                from .joint_run import build_joint_problem
+
+                problem = build_joint_problem(self.spec, self.model, problem, self.part)
             _PROBLEMS[self.key] = problem
         return problem
 
@@ -286,7 +303,7 @@ class ProblemHandle:
 
     def __getstate__(self):
         return {"spec": self.spec, "model": self.model, "model_factory": self.model_factory,
-                "trace_dir": self.trace_dir, "key": self.key}
+                "trace_dir": self.trace_dir, "key": self.key, "part": self.part}
 
     def __setstate__(self, state):
         self.__dict__.update(state)

@@ -115,6 +115,15 @@ class ModelResult:
         Per session: resumed (bool), wall_time [s], processes (number of
         processes that evaluated the likelihood).
     folder : pathlib.Path
+    thermal : dict
+        Joint fits only (empty otherwise): the best fit's L_dust/L_star, ring
+        radius, blackbody radius, r / r_bb, dust temperature, sublimation flags
+        and the per-data-set chi2 (:func:`motes.dust.fit.joint_run.postprocess_joint`).
+    thermal_fluxes : astropy.table.Table or None
+        Joint fits only: thermal data and model fluxes [Jy] per band (``thermal.ecsv``).
+    data_set : str
+        ``"joint"`` for a joint fit's main runs, ``"scattered"`` / ``"thermal"`` for
+        its runs on one data set; ``""`` for a scattered-light fit.
     """
 
     name: str
@@ -135,6 +144,9 @@ class ModelResult:
     colours: object = field(default=None, repr=False)
     sessions: tuple = ()
     folder: Path | None = None
+    thermal: dict = field(default_factory=dict, repr=False)
+    thermal_fluxes: object = field(default=None, repr=False)
+    data_set: str = ""
 
     def column(self, name: str) -> np.ndarray:
         """Posterior samples of one column, ndarray[M]."""
@@ -160,6 +172,8 @@ class ModelResult:
             "information": self.information, "parameter_names": list(self.parameter_names),
             "sample_names": list(self.sample_names), "best": self.best, "best_chi2": self.best_chi2,
             "dof": self.dof, "best_ln_l": self.best_ln_l, "sessions": list(self.sessions),
+            **({"thermal": self.thermal} if self.thermal else {}),
+            **({"data_set": self.data_set} if self.data_set else {}),
         }
 
 
@@ -176,6 +190,8 @@ def read_model_result(folder: Path) -> ModelResult:
         samples_t = Table.read(folder / "samples.ecsv", format="ascii.ecsv")
         summary = Table.read(folder / "parameters.ecsv", format="ascii.ecsv")
         colours = Table.read(folder / "colours.ecsv", format="ascii.ecsv")
+        thermal = (Table.read(folder / "thermal.ecsv", format="ascii.ecsv") if (folder / "thermal.ecsv").is_file()
+                   else None)
     except (OSError, ValueError, KeyError) as exc:
         raise FitError(f"{folder}: cannot read the finished model's files ({exc}); "
                        "start the fit afresh (--fresh)") from None
@@ -189,6 +205,7 @@ def read_model_result(folder: Path) -> ModelResult:
         best=dict(info["best"]), best_chi2=float(info["best_chi2"]), dof=int(info["dof"]),
         best_ln_l=float(info["best_ln_l"]), summary=summary, colours=colours,
         sessions=tuple(info.get("sessions", ())), folder=folder,
+        thermal=dict(info.get("thermal", {})), thermal_fluxes=thermal, data_set=str(info.get("data_set", "")),
     )
 
 
@@ -214,6 +231,11 @@ class FitResult:
         Data and model notes (approximate bands, extrapolations, prior bounds reached...).
     caveats : tuple of str
     files : tuple of pathlib.Path
+    thermal_observations : ThermalPhotometry or None
+        Joint fits: the thermal data (:mod:`motes.dust.thermal_observations`).
+    by_data : dict
+        Joint fits with ``verdicts_by_data``: ``{"scattered": {model: ModelResult}, "thermal": {...}}``,
+        the runs on each data set alone (empty otherwise).
     """
 
     source: str
@@ -228,6 +250,8 @@ class FitResult:
     notes: tuple = ()
     caveats: tuple = FIT_CAVEATS
     files: tuple = ()
+    thermal_observations: object = None
+    by_data: dict = field(default_factory=dict)
 
     @property
     def best(self) -> ModelResult:

@@ -101,6 +101,10 @@ def prepare_fit(spec: FitSpec, model_factory=None):
         problems, each naming the model.
     """
     obs = read_fit_photometry(spec)
+    if spec.thermal is not None:
+        from .joint_run import check_thermal_coverage, read_fit_thermal
+
+        check_thermal_coverage(spec, read_fit_thermal(spec))     # one clear message, before any model
     a_min, a_max = spec.parameters.get("a_min"), spec.parameters.get("a_max")
     if a_min is not None and a_min.relative_to is None:
         hi_min = a_min.value if a_min.kind == "fixed" else a_min.upper
@@ -116,9 +120,23 @@ def prepare_fit(spec: FitSpec, model_factory=None):
             prepare = getattr(problem.colour_model, "prepare", None)
             if prepare is not None:
                 _prepare_tables(prepare, problem.space)   # once, before any worker starts
+            if spec.thermal is not None:
+                _prepare_tables(problem.thermal_model.prepare, problem.space)
         except MotesError as exc:
             raise FitError(f"{spec.source}: model '{model.name}': {_without_context(str(exc), spec, model)}") from None
         need = problem.space.n_effective
+        if spec.thermal is not None:
+            need, n_det = problem.n_effective, problem.n_detections
+            if n_det < need:
+                raise FitError(
+                    f"{spec.source}: model '{model.name}' has {need} free parameters (two flux scales included) "
+                    f"but the scattered-light and thermal data have only {n_det} detected bands together; fix "
+                    "some parameters or add bands")
+            check_scale_prior(problem.scattered, model.name, spec.source)
+            check_scale_prior(problem.thermal, model.name, spec.source, "[thermal]",
+                              ("cross_section_lower", "cross_section_upper"))
+            handles.append(handle)
+            continue
         if obs.n_detections < need:
             raise FitError(
                 f"{spec.source}: model '{model.name}' has {need} free parameters (fractions "
@@ -293,17 +311,21 @@ def _postprocess(handle: ProblemHandle, run, spec: FitSpec, obs, folder: Path, s
     return result
 
 
-def _run_model(index, handle, spec, obs, run_dir, settings, echo) -> ModelResult:
+def _run_model(index, handle, spec, obs, run_dir, settings, echo, *, folder=None, postprocess=None,
+               seed_key=None, label=None) -> ModelResult:
     model = handle.model
-    folder = run_dir / "models" / model.folder_name
+    folder = run_dir / "models" / model.folder_name if folder is None else folder
+    postprocess = _postprocess if postprocess is None else postprocess
+    seed_key = index if seed_key is None else seed_key
+    label = model.name if label is None else label
     if (folder / "result.json").exists():
-        echo(f"[{index + 1}/{len(spec.models)}] {model.name}: finished earlier, read from {folder}")
+        echo(f"[{index + 1}/{len(spec.models)}] {label}: finished earlier, read from {folder}")
         return read_model_result(folder)
     folder.mkdir(parents=True, exist_ok=True)
     trace = folder / "processes"
     shutil.rmtree(trace, ignore_errors=True)
     reset_traces(trace)
-    traced = ProblemHandle(spec, model, model_factory=handle.model_factory, trace_dir=trace)
+    traced = ProblemHandle(spec, model, model_factory=handle.model_factory, trace_dir=trace, part=handle.part)
     checkpoint = folder / "sampler_state.dynesty"
     previous = []
     if (folder / "sessions.json").exists():
@@ -312,16 +334,16 @@ def _run_model(index, handle, spec, obs, run_dir, settings, echo) -> ModelResult
         except (OSError, ValueError):
             previous = []
     verb = "resuming" if checkpoint.exists() else "running"
-    echo(f"[{index + 1}/{len(spec.models)}] {model.name}: {verb} nested sampling "
+    echo(f"[{index + 1}/{len(spec.models)}] {label}: {verb} nested sampling "
          f"({handle.space.ndim} dimensions, {settings.workers} worker{'s' if settings.workers > 1 else ''})")
     with open_pool(settings.workers, HandleLikelihood(traced), HandlePriorTransform(traced)) as pool:
         run = run_nested_model(handle.space.ndim, spec.sampler, checkpoint, pool=pool,
-                               workers=settings.workers, seed_key=index, resume=True,
-                               progress=settings.progress, label=model.name)
+                               workers=settings.workers, seed_key=seed_key, resume=True,
+                               progress=settings.progress, label=label)
     n_proc = len(list(trace.glob("*"))) if trace.exists() else 0
     sessions = previous + [{"resumed": run.resumed, "wall_time": round(run.wall_time, 2), "processes": n_proc}]
     write_result_json(folder / "sessions.json", sessions)
-    return _postprocess(handle, run, spec, obs, folder, sessions)
+    return postprocess(handle, run, spec, obs, folder, sessions)
 
 
 # --------------------------------------------------------------- run
@@ -356,12 +378,13 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
         fresh = not (run_dir / "models" / h.model.folder_name / "sampler_state.dynesty").exists() and not (
             run_dir / "models" / h.model.folder_name / "result.json").exists()
         start = time.perf_counter()
-        results.append(_run_model(i, h, spec, obs, run_dir, settings, echo))
+        results.append(_run_model(i, h, spec, obs, run_dir, settings, echo, **_joint_run_options(spec)))
         if fresh:   # sampled from start to end now: its rate is this session's
             timed.append((results[-1].n_calls, time.perf_counter() - start))
         line = remaining_estimate(timed, [r.n_calls for r in results], len(handles) - len(results))
         if line and settings.progress:
             echo(f"  {line}")
+    by_data = _run_by_data(spec, handles, obs, run_dir, settings, echo)
     full = spec.full_model.name if spec.full_model is not None else None
     evid = [ModelEvidence(r.name, r.materials, r.ln_z, r.ln_z_err) for r in results]
     ranking = rank_models(evid, full)
@@ -370,6 +393,23 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     verdict_table = _verdict_table(verdicts, by_name)
     ordered = tuple(by_name[n] for n in ranking["model"])
     notes = list(obs.notes) + _model_notes(handles) + _bound_notes(ordered, handles)
+    thermal_obs = None
+    if spec.thermal is not None:
+        from .joint_run import JOINT_NOTES, by_data_columns, read_fit_thermal
+
+        thermal_obs = read_fit_thermal(spec)
+        notes = list(JOINT_NOTES) + list(thermal_obs.notes) + notes
+        for name, values in by_data_columns(verdicts, by_data).items() if by_data else ():
+            verdict_table[name] = values
+        for part, models in by_data.items():
+            ranking[f"ln_z_{part}"] = [models[n].ln_z for n in ranking["model"]]
+            ranking[f"ln_z_{part}_err"] = [models[n].ln_z_err for n in ranking["model"]]
+        if by_data:
+            from .joint_run import DRIVEN_BY_RULE
+
+            verdict_table.meta["driven_by_rule"] = DRIVEN_BY_RULE
+            verdict_table.meta["note_by_data"] = ("ln_b: both data sets (joint); ln_b_scattered / ln_b_thermal: "
+                                                  "the same pair of models run on one data set alone")
 
     files = [run_dir / "ranking.ecsv", run_dir / "verdicts.ecsv"]
     write_result_table(ranking, files[0])
@@ -377,13 +417,14 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     files += [m.folder for m in ordered]
     return FitResult(source=spec.source, run_dir=run_dir, observations=obs, models=ordered,
                      ranking=ranking, verdicts=verdicts, verdict_table=verdict_table, full_model=full,
-                     priors=tuple(handles[0].space.describe()) if handles else (),
-                     notes=tuple(dict.fromkeys(notes)), caveats=_caveats(spec.description), files=tuple(files))
+                     priors=tuple(handles[0].space.describe()) + _thermal_priors(spec) if handles else (),
+                     notes=tuple(dict.fromkeys(notes)), caveats=_caveats(spec.description), files=tuple(files),
+                     thermal_observations=thermal_obs, by_data=by_data)
 
 
 def _caveats(description) -> tuple:
     """FIT_CAVEATS, with the grain-model caveat of the hollow spheres when they ran."""
-    if getattr(description, "f_max", None) is None:
+    if getattr(description, "grains", "spheres") == "spheres":   # f_max is None too when it is fitted
         return FIT_CAVEATS
     hollow = (f"Grains are modelled as a distribution of {description.grain_summary} (Min, Hovenier & de "
               "Koter 2005), an idealisation of irregular grains; fractions are those of that grain model.")
@@ -414,8 +455,52 @@ def _verdict_table(verdicts, by_name):
 def _model_notes(handles) -> list[str]:
     notes = []
     for h in handles:   # the Mie-spheres note is already a caveat
-        notes.extend(n for n in getattr(h.build().colour_model, "notes", ()) if "Mie spheres" not in n)
+        problem = h.build()
+        notes.extend(n for n in getattr(problem.colour_model, "notes", ()) if "Mie spheres" not in n)
+        notes.extend(getattr(getattr(problem, "thermal_model", None), "notes", ()))
     return notes
+
+
+def _thermal_priors(spec) -> tuple:
+    """Prior rows of a joint fit's thermal side (none for a scattered-light fit)."""
+    if spec.thermal is None:
+        return ()
+    t = spec.thermal
+    return (("thermal_scale", f"log-uniform [{t.scale.lower:g}, {t.scale.upper:g}] au^2 (total grain cross-section), "
+                              "marginalised numerically"),
+            ("thermal calibration", f"fractional error {t.calibration:g} added in quadrature to every thermal "
+                                    "detection"))
+
+
+def _joint_run_options(spec) -> dict:
+    """_run_model's options for a joint fit's main runs (none for a scattered-light fit)."""
+    if spec.thermal is None:
+        return {}
+    from .joint_run import postprocess_joint
+
+    return {"postprocess": postprocess_joint}
+
+
+#: Offsets of the seed streams of the runs on one data set (the joint runs keep the model's index).
+_PART_SEED_OFFSET = {"scattered": 1000, "thermal": 2000}
+
+
+def _run_by_data(spec, handles, obs, run_dir, settings, echo) -> dict:
+    """Every model run on the scattered light alone and on the thermal data alone (``verdicts_by_data``)."""
+    if spec.thermal is None or not spec.thermal.verdicts_by_data:
+        return {}
+    from .joint_run import postprocess_part
+
+    out = {}
+    for part in ("scattered", "thermal"):
+        out[part] = {}
+        for i, h in enumerate(handles):
+            ph = ProblemHandle(spec, h.model, model_factory=h.model_factory, part=part)
+            folder = run_dir / "models" / h.model.folder_name / "by_data" / part
+            res = _run_model(i, ph, spec, obs, run_dir, settings, echo, folder=folder, postprocess=postprocess_part,
+                             seed_key=i + _PART_SEED_OFFSET[part], label=f"{h.model.name} ({part} alone)")
+            out[part][h.model.name] = res
+    return out
 
 
 def _bound_notes(models, handles) -> list[str]:
@@ -427,5 +512,11 @@ def _bound_notes(models, handles) -> list[str]:
         if handle is None or not all(n in m.best for n in handle.space.names):
             continue
         theta = np.array([m.best[n] for n in handle.space.names])
-        out += scale_bound_notes(handle.build(), m.name, theta, m.best.get("scale", math.nan))
+        problem = handle.build()
+        if hasattr(problem, "thermal"):      # a joint fit: both scales
+            out += scale_bound_notes(problem.scattered, m.name, theta, m.best.get("scale", math.nan))
+            out += scale_bound_notes(problem.thermal, m.name, theta, m.best.get("thermal_scale", math.nan),
+                                     "[thermal] cross_section_lower/upper")
+            continue
+        out += scale_bound_notes(problem, m.name, theta, m.best.get("scale", math.nan))
     return out

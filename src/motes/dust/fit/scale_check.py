@@ -45,7 +45,8 @@ def _prior_points(space) -> np.ndarray:
     return np.atleast_2d(space.transform(u))
 
 
-def check_scale_prior(problem, model_name: str, source: str) -> None:
+def check_scale_prior(problem, model_name: str, source: str, table: str = "[scale]",
+                      keys: tuple = ("lower", "upper")) -> None:
     """Refuse a model whose data need a flux scale outside the scale prior (see the module docstring).
 
     Parameters
@@ -55,6 +56,9 @@ def check_scale_prior(problem, model_name: str, source: str) -> None:
         Named in the error.
     source : str
         The fit description, named in the error.
+    table, keys : str, (str, str)
+        Where the prior's bounds are set (a joint fit's thermal scale:
+        ``"[thermal]"``, ``("cross_section_lower", "cross_section_upper")``).
 
     Raises
     ------
@@ -79,12 +83,13 @@ def check_scale_prior(problem, model_name: str, source: str) -> None:
     raise FitError(
         f"{source}: model '{model_name}': the data need a flux scale of about {median:.3g} (median best-fit "
         f"scale at {scale.size} points spread over the prior; range {scale.min():.3g} to {scale.max():.3g}), "
-        f"{side} bound of the [scale] prior [{prior.lower:g}, {prior.upper:g}]; the fit would end pinned at "
-        f"that bound. Set [scale] lower and upper to bracket it (e.g. lower = 1e{int(np.floor(decades)) - 4}, "
-        f"upper = 1e{int(np.ceil(decades)) + 4}), or check the data's normalisation")
+        f"{side} bound of the {table} prior [{prior.lower:g}, {prior.upper:g}]; the fit would end pinned at "
+        f"that bound. Set {table} {keys[0]} and {keys[1]} to bracket it (e.g. {keys[0]} = "
+        f"1e{int(np.floor(decades)) - 4}, {keys[1]} = 1e{int(np.ceil(decades)) + 4}), or check the data's "
+        "normalisation")
 
 
-def scale_bound_notes(problem, model_name: str, theta_best, scale_best: float) -> list[str]:
+def scale_bound_notes(problem, model_name: str, theta_best, scale_best: float, table: str = "[scale]") -> list[str]:
     """A note when a scale-prior bound cuts into the scale's likelihood at the best fit.
 
     Parameters
@@ -115,5 +120,5 @@ def scale_bound_notes(problem, model_name: str, theta_best, scale_best: float) -
         if not d >= NOTE_DELTA_CHI2:       # NaN counts as a cut
             out.append(f"model {model_name}: the best flux scale {scale_best:.3g} is close to the scale "
                        f"prior's {bound} bound {value:g} (chi-square only {d:.1f} above its minimum there, "
-                       f"less than {NOTE_DELTA_CHI2:g}): the bound cuts into the scale's likelihood; widen [scale]")
+                       f"less than {NOTE_DELTA_CHI2:g}): the bound cuts into the scale's likelihood; widen {table}")
     return out

@@ -7,6 +7,8 @@ with grid descriptions and read by :mod:`motes.dust.model.description`; the fit 
 
     [data]
     photometry = "disk_photometry.csv"      # read by motes.dust.observations
+    # thermal = "disk_sed.csv"              # optional: a joint fit with the thermal SED; then also
+    #                                       #   [parameters] ring_radius and [thermal] (motes.dust.fit.thermal_spec)
 
     [star]                                  # see motes.dust.model.description
     teff = 5400.0
@@ -62,10 +64,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ...errors import FitError, InputError, quoted_names
-from ...parameters import PARAMETERS, PRIOR_PARAMETERS
+from ...parameters import GRAIN_PARAMETERS, PARAMETERS, PRIOR_PARAMETERS
 from ...tomlcheck import check_keys, check_tables, get_table
 from ..model.description import MODEL_TABLES, ModelDescription, parse_model_description
 from .priors import ParameterSpace, Prior, parse_prior
+from .thermal_spec import THERMAL_FIT_KEYS, ThermalFitSettings, parse_thermal_fit
 from ..likelihood import ScalePrior
 
 __all__ = [
@@ -84,7 +87,7 @@ MODEL_SETS = ("all-subsets", "each-removed", "list")
 _SAMPLER_KINDS = ("static", "dynamic")
 _BOUNDS = ("none", "single", "multi", "balls", "cubes")
 _SAMPLES = ("auto", "unif", "rwalk", "slice", "rslice")
-_FIT_TABLES = ("data", "parameters", "scale", "models", "sampler")
+_FIT_TABLES = ("data", "parameters", "scale", "models", "sampler", "thermal")
 _PARAMETERS = PRIOR_PARAMETERS   # declared once, in motes.parameters
 
 
@@ -292,6 +295,9 @@ class FitSpec:
     photometry_given : str
         The photometry file as written, joined to the description's folder as
         the user gave it (for messages; ``photometry_path`` is absolute).
+    thermal : ThermalFitSettings or None
+        The thermal side of a joint fit (``[data] thermal``; :mod:`motes.dust.fit.thermal_spec`),
+        None for a scattered-light fit.
     """
 
     description: ModelDescription
@@ -309,6 +315,7 @@ class FitSpec:
     text: str = field(default="", repr=False)
     digest: str = ""
     photometry_given: str = ""
+    thermal: ThermalFitSettings | None = None
 
     @property
     def photometry_shown(self) -> str:
@@ -326,8 +333,9 @@ class FitSpec:
     def parameter_space(self, model: ModelSpec, blowout=None) -> ParameterSpace:
         """The :class:`ParameterSpace` of one model."""
         try:
+            extra = {} if self.thermal is None else {"ring_radius": self.thermal.ring_radius}
             return ParameterSpace(materials=model.materials, scale=self.scale, sample_scale=self.sample_scale,
-                                  blowout=blowout, **self.parameters)
+                                  blowout=blowout, **self.parameters, **extra)
         except FitError as exc:
             raise FitError(f"{self.source}: model '{model.name}': {exc}") from None
 
@@ -335,11 +343,12 @@ class FitSpec:
 #: Keys each fit section accepts, by table (docs/descriptions.md lists them; a prior
 #: table's keys are :data:`motes.dust.fit.priors.PRIOR_KEYS`).
 FIT_KEYS = {
-    "data": ("photometry",),
-    "parameters": _PARAMETERS,
+    "data": ("photometry", "thermal"),
+    "parameters": _PARAMETERS + GRAIN_PARAMETERS + ("ring_radius",),
     "scale": ("lower", "upper", "treatment"),
     "models": ("set", "keep", "list"),
     "sampler": tuple(SamplerSettings.__dataclass_fields__),
+    "thermal": THERMAL_FIT_KEYS,
 }
 
 
@@ -390,17 +399,17 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
         materials.append(m["name"])
     materials = tuple(materials)
 
-    if isinstance(doc.get("parameters"), dict) and "f_max" in doc["parameters"]:
-        raise InputError("f_max (hollow-sphere grains) cannot be fitted yet: it is one value per run; set "
-                         "[model] grains = 'hollow spheres' and f_max = ... there, and compare runs with "
-                         "different f_max by their ln Z", path, "[parameters] f_max")
     params = check_keys(get_table(doc, "parameters", path=path), FIT_KEYS["parameters"], path=path,
                         where="[parameters]")
     parameters = {}
     for name in _PARAMETERS:
         if name in params:
             parameters[name] = parse_prior(params[name], name, path, allow_relative=(name == "a_min"))
-    description = parse_model_description(doc, base_dir=base_dir, source=source)
+    f_max_prior = parse_prior(params["f_max"], "f_max", path) if "f_max" in params else None
+    description = parse_model_description(doc, base_dir=base_dir, source=source,
+                                          f_max_elsewhere=None if f_max_prior is None else "[parameters] f_max")
+    if f_max_prior is not None:
+        description = _fitted_f_max(f_max_prior, description, parameters, path)
     if "a_max" not in parameters:
         parameters["a_max"] = Prior("fixed", value=description.a_max)
     for name in ("a_min", "a_max"):
@@ -426,6 +435,10 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     treatment = {"marginalize": "marginalise"}.get(treatment, treatment)
     if treatment not in ("marginalise", "sample"):
         raise InputError(f"treatment must be \"marginalise\" or \"sample\", got {treatment!r}", path, "[scale]")
+    thermal = parse_thermal_fit(doc, data, params, description, base_dir, path)
+    if thermal is not None and treatment == "sample":
+        raise InputError("a joint fit with thermal data marginalises both flux scales: use treatment = "
+                         "\"marginalise\"", path, "[scale] treatment")
     try:
         scale = ScalePrior(float(scale_t.get("lower", ScalePrior.lower)), float(scale_t.get("upper", ScalePrior.upper)))
     except FitError as exc:
@@ -468,14 +481,46 @@ def parse_fit_description(text: str, base_dir=".", source: str = "<string>") -> 
     except OSError:
         raise InputError(f"cannot read the photometry file {base_dir / data['photometry']}", path,
                          "[data] photometry") from None
+    if thermal is not None:
+        try:
+            digest.update(thermal.path.read_bytes())
+        except OSError:
+            raise InputError(f"cannot read the thermal photometry file {thermal.shown}", path,
+                             "[data] thermal") from None
     for extra in _referenced_files(doc, base_dir):
         digest.update(extra.read_bytes())
     return FitSpec(
         description=description, base_dir=base_dir, materials=materials, photometry_path=photometry_path,
         parameters=parameters, scale=scale, sample_scale=(treatment == "sample"), model_set=kind,
         keep=tuple(keep), models=models, sampler=sampler, source=source, text=text,
-        digest=digest.hexdigest(), photometry_given=str(base_dir / data["photometry"]),
+        digest=digest.hexdigest(), photometry_given=str(base_dir / data["photometry"]), thermal=thermal,
     )
+
+
+def _fitted_f_max(prior: Prior, description: ModelDescription, parameters: dict, path) -> ModelDescription:
+    """Check ``[parameters] f_max``; a free prior joins ``parameters``, a fixed value goes to the model."""
+    import dataclasses
+
+    from ..model.tables import F_MAX_FAST_RANGE
+
+    declared, where = PARAMETERS["f_max"], "[parameters] f_max"
+    ends = [prior.value] if prior.kind == "fixed" else [prior.lower, prior.upper]
+    if not declared.contains(ends).all():
+        raise InputError(f"f_max ({declared.meaning}) must lie in {declared.interval}, got {prior.describe()}",
+                         path, where)
+    if prior.kind == "fixed":     # one value per run, as [model] f_max = ... would give it
+        return dataclasses.replace(description, f_max=float(prior.value), f_max_tables=None)
+    lo, hi = F_MAX_FAST_RANGE
+    if description.method == "fast" and (min(ends) < lo or max(ends) > hi):
+        raise InputError(f"the fast path interpolates a fitted f_max between tables for f_max in [{lo:g}, {hi:g}] "
+                         f"only (below {lo:g} it misses the fast change of weak absorbers, docs/optics.md); give "
+                         f"bounds within it, or [model] method = 'exact', got {prior.describe()}", path, where)
+    a_min = parameters.get("a_min")
+    if a_min is not None and a_min.relative_to == "blowout":
+        raise InputError("a_min tied to the blow-out size needs one f_max per run (the blow-out size of hollow "
+                         "spheres depends on it): fix f_max or give a_min in um", path, where)
+    parameters["f_max"] = prior
+    return description
 
 
 def _referenced_files(doc, base_dir: Path):

@@ -150,7 +150,7 @@ class GridProbe:
 def store_manifest(spec: GridSpec, observations: DiskPhotometry) -> dict:
     """The manifest a store of this grid gets (see :class:`GridStore`)."""
     bands = list(observations.row_keys)     # "<band>_polarised" for polarised-intensity rows
-    columns = (["key"] + [fraction_column(m) for m in spec.materials] + list(AXES)
+    columns = (["key"] + [fraction_column(m) for m in spec.materials] + list(spec.axis_names)
                + [model_column(b) for b in bands] + ["scale", "chi2", "dof"])
     return {
         "grid_digest": spec.digest,

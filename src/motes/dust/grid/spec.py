@@ -28,6 +28,8 @@ against are named in ``[data]``; the grid axes are in ``[grid]``::
     q = [3.5]                               # optional, default [3.5]
     a_max = [1000.0]                        # [um], optional, default [model] a_max (1000)
     chunk_size = 200                        # optional: points per store part
+    # f_max = [0.4, 0.8]                    # hollow-sphere grains only ([model] grains = "hollow spheres"):
+                                            #   largest vacuum-core volume fraction, an axis (fastest digit)
 
     [grid.fraction_bounds]                  # optional, per material, as fractions
     water_ice = [0.0, 0.5]
@@ -38,7 +40,8 @@ Any other table or key is refused with the nearest valid name (a misspelt
 Every point has an integer key in ``0 .. n_points - 1``: the composition rank
 (see :mod:`motes.dust.grid.compositions`) is the slowest digit, then porosity,
 a_min, q and a_max (fastest), so ``key = ((((c * n_p + i_p) * n_amin + i_amin)
-* n_q + i_q) * n_amax + i_amax)``. Keys are the same on every machine and in
+* n_q + i_q) * n_amax + i_amax)``; a grid of hollow-sphere grains with an
+``f_max`` axis has it as a last, fastest digit (``key * n_fmax + i_fmax``). Keys are the same on every machine and in
 every run of the same description; chunks of consecutive keys are the units of
 work and of storage.
 """
@@ -57,7 +60,7 @@ from pathlib import Path
 import numpy as np
 
 from ...errors import GridError, InputError, quoted_names
-from ...parameters import MIXTURE_PARAMETERS, PARAMETERS, accepts_quantities
+from ...parameters import GRAIN_PARAMETERS, MIXTURE_PARAMETERS, PARAMETERS, accepts_quantities
 from ...tomlcheck import check_keys, check_tables, get_table
 from ..model.description import MODEL_TABLES, ModelDescription, parse_model_description
 from .compositions import SimplexGrid
@@ -80,7 +83,7 @@ DEFAULT_MAX_POINTS = 1_000_000
 AXES = MIXTURE_PARAMETERS   # porosity, a_min, q, a_max (motes.parameters)
 
 _AXIS_DEFAULTS = {"q": (PARAMETERS["q"].default,)}   # q = 3.5 (Dohnanyi 1969); a_max defaults to [model] a_max
-_GRID_KEYS = ("fraction_step", "fraction_bounds", *AXES, "chunk_size")
+_GRID_KEYS = ("fraction_step", "fraction_bounds", *AXES, *GRAIN_PARAMETERS, "chunk_size")
 _GRID_TABLES = ("data", "grid")
 #: Keys each grid section accepts, by table (docs/descriptions.md lists them); ``axis range``
 #: is an axis written as a table, e.g. ``a_min = { start = 0.5, stop = 8.0, num = 5 }``.
@@ -104,6 +107,8 @@ class GridPoints:
         Volume fractions of the solid (rows sum to 1).
     porosity, a_min, q, a_max : ndarray[N]
         Vacuum fraction; minimum and maximum grain size [um]; size slope.
+    f_max : ndarray[N] or None
+        Largest vacuum-core volume fraction (a grid with an f_max axis; else None).
     """
 
     keys: np.ndarray
@@ -112,6 +117,7 @@ class GridPoints:
     a_min: np.ndarray
     q: np.ndarray
     a_max: np.ndarray
+    f_max: np.ndarray | None = None
 
     def __len__(self) -> int:
         return int(self.keys.size)
@@ -134,6 +140,9 @@ class GridSpec:
         The composition grid.
     porosity, a_min, q, a_max : tuple of float
         Values of the other axes.
+    f_max : tuple of float
+        Values of the f_max axis (hollow-sphere grains, ``[grid] f_max``);
+        empty: no such axis.
     chunk_size : int
         Points per unit of work and per store part.
     photometry : pathlib.Path
@@ -160,10 +169,16 @@ class GridSpec:
     digest: str
     source: str = "<string>"
     text: str = field(default="", repr=False)
+    f_max: tuple[float, ...] = ()
+
+    @property
+    def axis_names(self) -> tuple[str, ...]:
+        """The non-composition axes, slowest first: :data:`AXES`, then ``f_max`` if the grid has it."""
+        return AXES + (("f_max",) if self.f_max else ())
 
     @property
     def axis_values(self) -> dict[str, tuple[float, ...]]:
-        return {name: getattr(self, name) for name in AXES}
+        return {name: getattr(self, name) for name in self.axis_names}
 
     @property
     def n_compositions(self) -> int:
@@ -206,23 +221,23 @@ class GridSpec:
             raise GridError(f"grid key out of range 0..{self.n_points - 1}")
         rem = keys.copy()
         index = {}
-        for name in reversed(AXES):
+        for name in reversed(self.axis_names):
             size = len(getattr(self, name))
             index[name] = rem % size
             rem //= size
         parts = self.simplex.unrank(rem)
-        values = {name: np.asarray(getattr(self, name), dtype=float)[index[name]] for name in AXES}
+        values = {name: np.asarray(getattr(self, name), dtype=float)[index[name]] for name in self.axis_names}
         return GridPoints(keys=keys, fractions=parts / self.simplex.divisions, **values)
 
-    def key_of(self, parts, porosity_index, a_min_index, q_index=0, a_max_index=0) -> np.ndarray:
+    def key_of(self, parts, porosity_index, a_min_index, q_index=0, a_max_index=0, f_max_index=0) -> np.ndarray:
         """Keys of points given integer compositions and axis indices (inverse of :meth:`points`)."""
         key = self.simplex.rank(parts)
-        for name, idx in zip(AXES, (porosity_index, a_min_index, q_index, a_max_index)):
+        for name, idx in zip(self.axis_names, (porosity_index, a_min_index, q_index, a_max_index, f_max_index)):
             key = key * len(getattr(self, name)) + np.asarray(idx, dtype=np.int64)
         return np.asarray(key, dtype=np.int64)
 
     @accepts_quantities
-    def nearest_key(self, fractions, porosity, a_min, q=None, a_max=None) -> int:
+    def nearest_key(self, fractions, porosity, a_min, q=None, a_max=None, f_max=None) -> int:
         """Key of the grid point nearest to a parameter vector.
 
         Fractions are rounded by largest remainders, porosity and q to the
@@ -237,14 +252,15 @@ class GridSpec:
             return int(np.argmin(np.abs(np.log(v) - np.log(x)) if log else np.abs(v - x)))
 
         return int(self.key_of(parts, pick(self.porosity, porosity), pick(self.a_min, a_min, True),
-                               pick(self.q, q), pick(self.a_max, a_max, True))[0])
+                               pick(self.q, q), pick(self.a_max, a_max, True),
+                               pick(self.f_max, f_max) if self.f_max else 0)[0])
 
     def describe_count(self) -> str:
         """The point count written as its product, e.g. ``1771 mixtures x 3 porosity x ...``."""
         k, n = len(self.materials), self.simplex.divisions
         bounded = any(lo > 0 or hi < n for lo, hi in zip(self.simplex.lower, self.simplex.upper))
         how = "within the fraction bounds" if bounded else f"= C({n} + {k} - 1, {k} - 1)"
-        axes = " x ".join(f"{len(getattr(self, a))} {a}" for a in AXES)
+        axes = " x ".join(f"{len(getattr(self, a))} {a}" for a in self.axis_names)
         return f"{self.n_points:,} points = {self.n_compositions:,} mixtures ({how}) x {axes}"
 
 
@@ -292,10 +308,6 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
     base_dir = Path(base_dir)
     materials = _material_names(doc, source)
     grid = get_table(doc, "grid", path=source, required=True, expected="fraction_step, porosity, a_min, ...")
-    if isinstance(grid, dict) and "f_max" in grid:
-        raise InputError("f_max (hollow-sphere grains) is not a grid axis: it is one value per run; set "
-                         "[model] grains = 'hollow spheres' and f_max = ... there, one grid per f_max",
-                         path=source, where="[grid] f_max")
     check_keys(grid, GRID_KEYS["grid"], path=source, where="[grid]")
     divisions = _divisions(grid.get("fraction_step"), source)
     bounds = _bounds(grid.get("fraction_bounds", {}), materials, divisions, source)
@@ -310,7 +322,11 @@ def parse_grid_description(text: str, base_dir=".", source: str = "<string>") ->
     axes = {name: _axis(grid, name, source) for name in AXES if name != "a_max"}
     if "a_max" in grid:
         axes["a_max"] = _axis(grid, "a_max", source)
-    description = parse_model_description(doc, base_dir=base_dir, source=source)
+    has_f_max = isinstance(grid, dict) and "f_max" in grid
+    description = parse_model_description(doc, base_dir=base_dir, source=source,
+                                          f_max_elsewhere="[grid] f_max" if has_f_max else None)
+    if has_f_max:
+        axes["f_max"] = _axis(grid, "f_max", source)
     if "a_max" not in grid:   # the description's single value
         axes["a_max"] = (description.a_max,)
     if max(axes["a_min"]) >= min(axes["a_max"]):
@@ -422,8 +438,8 @@ def _axis(grid, name, source) -> tuple[float, ...]:
     if name == "porosity" and not declared.contains(v).all():
         raise InputError(f"porosity is the vacuum volume fraction, in {declared.interval}; got {values}",
                          path=source, where=where)
-    if name == "q" and not declared.contains(v).all():
-        raise InputError(f"q ({declared.meaning}) must be in {declared.interval}, got {values}",
+    if name in ("q", "f_max") and not declared.contains(v).all():
+        raise InputError(f"{name} ({declared.meaning}) must be in {declared.interval}, got {values}",
                          path=source, where=where)
     if declared.physical_type == "length" and not declared.contains(v).all():   # a_min, a_max
         raise InputError(f"grain sizes [{declared.unit_text}] must be positive, got {values}", path=source, where=where)

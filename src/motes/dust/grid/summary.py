@@ -32,7 +32,7 @@ from astropy.table import Table
 
 from ...errors import GridError
 from ...files import atomic_write
-from ...parameters import PARAMETERS
+from ...parameters import GRAIN_PARAMETERS, PARAMETERS
 from .spec import AXES
 from .store import GridStore, fraction_column, model_column
 
@@ -158,7 +158,7 @@ def summarize_grid(store, top: int = 10) -> GridSummary:
     materials = tuple(man["materials"])
     bands = tuple(man["bands"])
     divisions = int(man["fraction_divisions"])
-    axes = {name: np.asarray(man["axes"][name], dtype=float) for name in AXES}
+    axes = {name: np.asarray(man["axes"][name], dtype=float) for name in _axis_names(man)}
 
     # pass 1: chi2_min and the best rows (all columns of at most `top` rows kept)
     best = None
@@ -190,7 +190,7 @@ def summarize_grid(store, top: int = 10) -> GridSummary:
     a_best = {a: np.full(v.size, np.inf) for a, v in axes.items()}
     a_like = {a: np.zeros(v.size) for a, v in axes.items()}
     a_count = {a: np.zeros(v.size, dtype=np.int64) for a, v in axes.items()}
-    for table in store.iter_tables(frac_cols + list(AXES) + ["chi2"]):
+    for table in store.iter_tables(frac_cols + list(axes) + ["chi2"]):
         chi2 = table.column("chi2").to_numpy()
         keep = np.isfinite(chi2)
         chi2 = chi2[keep]
@@ -212,7 +212,7 @@ def summarize_grid(store, top: int = 10) -> GridSummary:
 
     fraction_profiles = _fraction_table(materials, divisions, f_best, f_like, f_count, chi2_min, store.manifest)
     axis_profiles = _axis_table(axes, a_best, a_like, a_count, chi2_min)
-    best_table = _best_table(best, materials, bands, chi2_min)
+    best_table = _best_table(best, materials, bands, chi2_min, tuple(axes))
 
     notes = []
     if n_rows < store.n_points:
@@ -296,17 +296,23 @@ def _axis_table(axes, best, like, count, chi2_min) -> Table:
     table = Table(rows)
     # one unit per row (the rows are different quantities): "um" for a_min, a_max, "" for pure numbers
     table.add_column([PARAMETERS[str(a)].unit_text for a in table["axis"]], name="unit", index=2)
-    table["value"].description = "porosity: vacuum fraction; a_min, a_max: um; q: size slope"
+    table["value"].description = ("porosity: vacuum fraction; a_min, a_max: um; q: size slope; f_max: largest "
+                                  "vacuum-core volume fraction (hollow spheres)")
     return table
 
 
-def _best_table(best, materials, bands, chi2_min) -> Table:
+def _axis_names(manifest) -> tuple[str, ...]:
+    """The store's non-composition axes: AXES, then f_max when the grid has that axis."""
+    return AXES + tuple(n for n in GRAIN_PARAMETERS if n in manifest["axes"])
+
+
+def _best_table(best, materials, bands, chi2_min, axis_names=AXES) -> Table:
     table = Table()
     table["rank"] = np.arange(1, len(best) + 1)
     table["key"] = best["key"].to_numpy()
     for m in materials:
         table[fraction_column(m)] = best[fraction_column(m)].to_numpy()
-    for a in AXES:
+    for a in axis_names:
         table[a] = best[a].to_numpy()
     table["a_min"].unit = table["a_max"].unit = "um"
     table["chi2"] = best["chi2"].to_numpy()

@@ -79,10 +79,11 @@ def build_disk_model(spec: GridSpec, observations: DiskPhotometry):
     else:
         model = spec.description.build_model(bands=observations.bands)
     mixtures = grid_mixtures(spec)
+    f_max = {"f_max": spec.f_max} if spec.f_max else {}     # an f_max axis: one table per listed value
     if mixtures is None:
-        model.prepare()
+        model.prepare(**f_max)
     else:
-        model.prepare(*mixtures)
+        model.prepare(*mixtures, **f_max)
     return model
 
 
@@ -119,13 +120,17 @@ def read_grid_observations(spec: GridSpec) -> DiskPhotometry:
     Problems name the file relative to the current folder when it lies below it
     (as the user gave it), not by the absolute path the spec keeps.
     """
+    import dataclasses
+
+    shown = os.path.relpath(spec.photometry)
+    shown = str(spec.photometry) if shown.startswith("..") else shown
     try:
-        return read_disk_photometry(spec.photometry, custom_bands=spec.description.custom_bands)
+        obs = read_disk_photometry(spec.photometry, custom_bands=spec.description.custom_bands)
     except InputError as exc:
         if exc.path != str(spec.photometry):
             raise
-        shown = os.path.relpath(spec.photometry)
-        raise InputError(exc.reason, spec.photometry if shown.startswith("..") else shown, exc.where) from None
+        raise InputError(exc.reason, shown, exc.where) from None
+    return dataclasses.replace(obs, path=shown)     # later messages name it so too
 
 
 class GridEvaluator:
@@ -167,8 +172,9 @@ class GridEvaluator:
             ``scale``, ``chi2``, ``dof``.
         """
         pts = self.spec.points(keys)
+        extra = {} if pts.f_max is None else {"f_max": pts.f_max}
         flux = np.asarray(self.model.flux_ratio(pts.fractions, pts.porosity, pts.a_min, pts.q,
-                                                a_max=pts.a_max), dtype=float)
+                                                a_max=pts.a_max, **extra), dtype=float)
         bands = self.observations.row_keys      # band names; "<band>_polarised" for polarised rows
         if flux.shape != (len(pts), len(bands)):
             raise GridError(f"the model returned shape {flux.shape}, expected ({len(pts)}, {len(bands)})")
@@ -176,7 +182,7 @@ class GridEvaluator:
         cols = {"key": pts.keys}
         for j, name in enumerate(self.spec.materials):
             cols[fraction_column(name)] = pts.fractions[:, j]
-        for name in AXES:
+        for name in self.spec.axis_names:
             cols[name] = getattr(pts, name)
         for j, band in enumerate(bands):
             cols[model_column(band)] = flux[:, j]

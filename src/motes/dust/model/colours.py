@@ -52,7 +52,9 @@ vacuum-core volume fractions f in [0, f_max], outer radius ``a / (1 - f)^(1/3)``
 distribution, the mass and the blow-out size) refers to the material; the
 normalisation ``integral n pi a^2 da = 1`` is over the material cross-section,
 and the core is not porosity (which stays the effective-medium vacuum fraction
-of the material). With ``f_max = 0`` it is the solid sphere.
+of the material). With ``f_max = 0`` it is the solid sphere. With
+``f_max_tables`` the model takes f_max per point (``flux_ratio(..., f_max=...)``:
+a fitted f_max, or a grid axis).
 
 Real grains are not Mie spheres: irregular and aggregate grains scatter
 differently (especially in the phase function). Every result carries that note
@@ -87,10 +89,16 @@ __all__ = [
     "INTENSITIES",
     "GRAINS",
     "HOLLOW_SPHERES_NOTE",
+    "F_MAX_TABLES",
 ]
 
 #: Grain models: homogeneous Mie spheres, or the distribution of hollow spheres (Min et al. 2005).
 GRAINS = ("spheres", "hollow spheres")
+
+#: How the fast path tabulates an f_max that varies from point to point (``flux_ratio(..., f_max=...)``):
+#: ``"nodes"``, interpolated between tables at fixed f_max nodes (a fit; :data:`motes.dust.model.tables.F_MAX_NODES`),
+#: or ``"values"``, one table per distinct value (a grid's listed f_max axis).
+F_MAX_TABLES = ("nodes", "values")
 
 #: What an output column of the model holds: total or polarised intensity.
 INTENSITIES = ("total", "polarised")
@@ -105,6 +113,10 @@ MIE_SPHERES_NOTE = ("real grains are not Mie spheres: irregular, porous aggregat
 HOLLOW_SPHERES_NOTE = ("grains: a distribution of hollow spheres (Min, Hovenier & de Koter 2005), vacuum-core "
                        "volume fractions 0-{f_max:g} with equal weight at fixed material volume; sizes, mass "
                        "and blow-out refer to the material; still an idealisation of irregular grains")
+HOLLOW_VARIED_NOTE = ("grains: a distribution of hollow spheres (Min, Hovenier & de Koter 2005), vacuum-core "
+                      "volume fractions 0-f_max with equal weight at fixed material volume, f_max given per "
+                      "point ({how}); sizes, mass and blow-out refer to the material; still an idealisation "
+                      "of irregular grains")
 FRACTIONS_NOTE = ("fractions are volume fractions of the solid; porosity is the vacuum fraction of the "
                   "whole grain volume")
 _FRACTION_TOLERANCE = 1e-6
@@ -214,7 +226,16 @@ class DiskColourModel:
         Homogeneous spheres (default) or the hollow-sphere distribution.
     f_max : float, optional
         Largest vacuum-core volume fraction, in [0, 1); required with
-        ``grains="hollow spheres"``, refused with spheres.
+        ``grains="hollow spheres"`` (unless ``f_max_tables`` is given),
+        refused with spheres.
+    f_max_tables : {"nodes", "values"}, optional
+        Hollow spheres whose f_max is given per point (``flux_ratio(...,
+        f_max=...)``: a fitted f_max or a grid axis); ``f_max`` may then be
+        None. How the fast path tabulates it: ``"nodes"`` interpolates between
+        tables at the f_max nodes :data:`motes.dust.model.tables.F_MAX_NODES`
+        (4-point Lagrange; error measured in docs/optics.md), ``"values"``
+        builds one table per distinct value. The exact path computes every
+        value as given.
 
     Notes
     -----
@@ -228,8 +249,16 @@ class DiskColourModel:
                  mixing="bruggeman", matrix=None, geometry=ScatteringGeometry(),
                  method="fast", a_max=1000.0, wavelength_nodes: int = 8,
                  size_sampling: SizeSampling = SizeSampling(), table_spec=None, intensities=None,
-                 grains: str = "spheres", f_max=None):
-        self.grains, self.f_max = self._check_grains(grains, f_max)
+                 grains: str = "spheres", f_max=None, f_max_tables: str | None = None):
+        if f_max_tables is not None and f_max_tables not in F_MAX_TABLES:
+            raise InputError(f"f_max_tables must be one of {quoted_names(F_MAX_TABLES)}, got {f_max_tables!r}",
+                             where="f_max_tables")
+        if f_max_tables is not None and grains != "hollow spheres":
+            raise InputError("f_max_tables (f_max per point) is used by grains = 'hollow spheres' only",
+                             where="f_max_tables")
+        self.f_max_tables = f_max_tables
+        self.grains, self.f_max = self._check_grains(grains, f_max, f_max_tables is not None)
+        self._tables = {}
         self.materials = tuple(_as_material(m, i) for i, m in enumerate(materials))
         self.bands = tuple(_as_band(b, i) for i, b in enumerate(bands))
         self.intensities = self._check_intensities(intensities, geometry)
@@ -264,7 +293,7 @@ class DiskColourModel:
 
     # ------------------------------------------------------------ set-up
     @staticmethod
-    def _check_grains(grains, f_max):
+    def _check_grains(grains, f_max, per_point=False):
         if grains not in GRAINS:
             raise InputError(f"grains must be one of {quoted_names(GRAINS)}, got {grains!r}", where="grains")
         if grains == "spheres":
@@ -273,6 +302,8 @@ class DiskColourModel:
                                  "spheres' only", where="f_max")
             return grains, None
         declared = PARAMETERS["f_max"]
+        if f_max is None and per_point:
+            return grains, None
         if f_max is None:
             raise InputError("grains = 'hollow spheres' needs f_max, the largest vacuum-core volume fraction, "
                              f"in {declared.interval} (0.8 is common practice, no source)", where="f_max")
@@ -288,25 +319,42 @@ class DiskColourModel:
     @property
     def hollow(self) -> bool:
         """True for the hollow-sphere grain model."""
-        return self.f_max is not None
+        return self.grains == "hollow spheres"
+
+    @property
+    def f_max_varies(self) -> bool:
+        """True when f_max is given per point (``flux_ratio(..., f_max=...)``; a fit or grid over f_max)."""
+        return self.f_max_tables is not None
 
     @property
     def grain_summary(self) -> str:
         """Which grain model runs, as text (``"spheres"`` or ``"hollow spheres (f_max = 0.8)"``)."""
-        return "spheres" if not self.hollow else f"hollow spheres (f_max = {self.f_max:g})"
+        if not self.hollow:
+            return "spheres"
+        if self.f_max is None:
+            return "hollow spheres (f_max per point)"
+        return f"hollow spheres (f_max = {self.f_max:g})"
 
-    def _intensity(self, m, t, theta, quantity="total"):
+    def _f_max(self, f_max):
+        f_max = self.f_max if f_max is None else float(f_max)
+        if f_max is None:
+            raise InputError("this hollow-sphere model takes f_max per point: pass f_max=...", where="f_max")
+        return f_max
+
+    def _intensity(self, m, t, theta, quantity="total", f_max=None):
         """Angle mean of ``|S1|^2 + |S2|^2`` (or ``|S1|^2 - |S2|^2``) per material size parameter."""
         if not self.hollow:
             if quantity == "polarised":
                 return mie.polarised_scattered_intensity(m, t, theta)
             return mie.scattered_intensity(m, t, theta)
-        total, polarised = hollow.hollow_intensities(m, t, theta, self.f_max)
+        total, polarised = hollow.hollow_intensities(m, t, theta, self._f_max(f_max))
         return polarised if quantity == "polarised" else total
 
-    def grain_efficiencies(self, m, t):
-        """Efficiencies per material cross-section (Mie, or the hollow-sphere average)."""
-        return mie.efficiencies(m, t) if not self.hollow else hollow.hollow_efficiencies(m, t, self.f_max)
+    def grain_efficiencies(self, m, t, f_max=None):
+        """Efficiencies per material cross-section (Mie, or the hollow-sphere average; ``f_max`` overrides)."""
+        if not self.hollow:
+            return mie.efficiencies(m, t)
+        return hollow.hollow_efficiencies(m, t, self._f_max(f_max))
 
     def _check_intensities(self, intensities, geometry) -> tuple[str, ...]:
         n = len(self.bands)
@@ -388,8 +436,12 @@ class DiskColourModel:
     def _setup_nodes(self):
         nodes, weights, owner = [], [], []
         notes = [MIE_SPHERES_NOTE, FRACTIONS_NOTE]
-        if self.hollow:
+        if self.hollow and self.f_max is not None:
             notes.append(HOLLOW_SPHERES_NOTE.format(f_max=self.f_max))
+        elif self.hollow:
+            how = ("fast path: interpolated between tables at f_max nodes" if self.f_max_tables == "nodes"
+                   else "fast path: one table per value")
+            notes.append(HOLLOW_VARIED_NOTE.format(how=how if self.method == "fast" else "exact path"))
         for b, band in enumerate(self.bands):
             grid = np.union1d(np.linspace(band.wavelength_min, band.wavelength_max, 801),
                               band.wavelength[(band.wavelength >= band.wavelength_min)
@@ -524,7 +576,7 @@ class DiskColourModel:
 
     # ------------------------------------------------------------ outputs
     @accepts_quantities
-    def flux_ratio(self, fractions, porosity, a_min, q, a_max=None) -> np.ndarray:
+    def flux_ratio(self, fractions, porosity, a_min, q, a_max=None, f_max=None) -> np.ndarray:
         """Disk/star flux ratio per band for dust of unit total cross-section.
 
         Parameters
@@ -537,6 +589,9 @@ class DiskColourModel:
         q : ndarray[N] or float
         a_max : ndarray[N] or float [um], optional
             Default: the model's ``a_max``.
+        f_max : ndarray[N] or float, optional
+            Largest vacuum-core volume fraction per point (hollow-sphere
+            models built with ``f_max_tables``; default: the model's f_max).
 
         Returns
         -------
@@ -545,50 +600,100 @@ class DiskColourModel:
             polarised column (``intensities``) its polarised twin, signed.
         """
         f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
+        f_max = self._point_f_max(f_max, f.shape[0])
         m = self.effective_index(f, p)
         if not self.has_polarised:
-            if self.method == "fast":
-                node = self._fast_table().node_values(m, self.node_wavelength, a_min, q, a_max)
-            else:
-                node = self.node_values_exact(m, self.node_wavelength, a_min, q, a_max)
-            return node @ self._band_matrix
+            return self._node_values(m, self.node_wavelength, a_min, q, a_max, "total", f_max) @ self._band_matrix
         node = np.empty(m.shape)
         for quantity, cols in (("total", ~self._node_polarised), ("polarised", self._node_polarised)):
-            if not cols.any():
-                continue
-            if self.method == "fast":
-                node[:, cols] = self._fast_table().node_values(m[:, cols], self.node_wavelength[cols],
-                                                                a_min, q, a_max, quantity=quantity)
-            else:
-                node[:, cols] = self.node_values_exact(m[:, cols], self.node_wavelength[cols], a_min, q, a_max,
-                                                       quantity=quantity)
+            if cols.any():
+                node[:, cols] = self._node_values(m[:, cols], self.node_wavelength[cols], a_min, q, a_max,
+                                                  quantity, f_max)
         return node @ self._band_matrix
 
-    def _fast_table(self):
-        if self._table is None:
+    def _point_f_max(self, f_max, n):
+        """Per-point f_max as ndarray[n] (None: the model's own f_max)."""
+        if f_max is None:
+            if self.f_max_varies and self.f_max is None:
+                raise InputError("this hollow-sphere model takes f_max per point (a fitted f_max or a grid "
+                                 "axis): pass f_max=...", where="f_max")
+            return None
+        if not self.f_max_varies:
+            raise InputError("f_max per point needs a hollow-sphere model built with f_max_tables "
+                             "('nodes' or 'values')", where="f_max")
+        try:
+            values = np.broadcast_to(np.asarray(f_max, dtype=float), (n,)).copy()
+        except ValueError:
+            raise InputError(f"f_max must be a scalar or an array of length {n}", where="f_max") from None
+        declared = PARAMETERS["f_max"]
+        if not declared.contains(values).all():
+            bad = values[~declared.contains(values)][0]
+            raise InputError(f"f_max ({declared.meaning}) must be in {declared.interval}, got {bad:g}",
+                             where="f_max")
+        return values
+
+    def _node_values(self, m, wavelength, a_min, q, a_max, quantity, f_max):
+        """Monochromatic ratios [N, L] of one quantity, by the model's method; f_max per point or None."""
+        if f_max is None:
+            if self.method == "fast":
+                return self._fast_table().node_values(m, wavelength, a_min, q, a_max, quantity=quantity)
+            return self.node_values_exact(m, wavelength, a_min, q, a_max, quantity=quantity)
+        out = np.zeros(m.shape)
+        if self.method == "exact":
+            for value in np.unique(f_max):
+                rows = f_max == value
+                out[rows] = self.node_values_exact(m[rows], wavelength, a_min[rows], q[rows], a_max[rows],
+                                                   quantity=quantity, f_max=value)
+            return out
+        from .tables import f_max_terms
+
+        for table_f_max, rows, weight in f_max_terms(f_max, self.f_max_tables):
+            out[rows] += weight[:, None] * self._fast_table(table_f_max).node_values(
+                m[rows], wavelength, a_min[rows], q[rows], a_max[rows], quantity=quantity)
+        return out
+
+    def _fast_table(self, f_max=None):
+        """The fast path (the model's own f_max, or the tables of ``f_max`` for a per-point f_max)."""
+        if f_max is None:
+            if self._table is None:
+                from .tables import table_for_model
+
+                self._table = table_for_model(self, lazy=True)
+            return self._table
+        table = self._tables.get(float(f_max))
+        if table is None:
             from .tables import table_for_model
 
-            self._table = table_for_model(self, lazy=True)
-        return self._table
+            table = self._tables[float(f_max)] = table_for_model(self, lazy=True, f_max=float(f_max))
+        return table
 
-    def prepare(self, fractions=None, porosity=None) -> None:
+    def prepare(self, fractions=None, porosity=None, f_max=None) -> None:
         """Load or build the fast path's lookup tables now (``method="fast"`` only).
 
         Without arguments, every tile the model's mixtures can reach (any
         fractions, porosity 0-0.95) is made ready; with ``fractions[N, K]`` and
         ``porosity[N]``, only what those mixtures need (others are built on
         demand). Call it once in the parent process before starting workers:
-        they then load the cached tiles instead of building them.
+        they then load the cached tiles instead of building them. A model with
+        f_max per point (``f_max_tables``) prepares the tables of the f_max
+        values ``f_max`` (an array; for ``"nodes"``, the nodes their
+        interpolation uses); without it, none.
         """
         if self.method != "fast":
             return
-        from .tables import table_for_model
+        from .tables import f_max_terms, table_for_model
 
-        self._table = table_for_model(self, fractions=fractions, porosity=porosity)
+        if not self.f_max_varies or self.f_max is not None:
+            self._table = table_for_model(self, fractions=fractions, porosity=porosity)
+        if self.f_max_varies and f_max is not None:
+            values = np.unique(np.atleast_1d(np.asarray(f_max, dtype=float)))
+            for table_f_max, _, _ in f_max_terms(values, self.f_max_tables):
+                self._tables[float(table_f_max)] = table_for_model(self, fractions=fractions, porosity=porosity,
+                                                                   f_max=float(table_f_max))
 
     @accepts_quantities
     def node_values_exact(self, m, wavelength, a_min, q, a_max, sampling: SizeSampling | None = None,
-                          quantity: str = "total"):
+                          quantity: str = "total", f_max=None):
         """Monochromatic flux ratio R(lambda) by direct Mie quadrature.
 
         Parameters
@@ -602,6 +707,8 @@ class DiskColourModel:
         quantity : {"total", "polarised"}
             Total intensity, or polarised intensity (``|S1|^2 - |S2|^2``, signed;
             Mie phase function only).
+        f_max : float, optional
+            Hollow spheres: this f_max instead of the model's.
 
         Returns
         -------
@@ -631,10 +738,10 @@ class DiskColourModel:
                 owner.append(np.full(t.size, j))
             t, w, mm, owner = (np.concatenate(v) for v in (ts, ws, mm, owner))
             if quantity == "polarised" or self.geometry.phase == "mie":
-                s = self._intensity(mm, t, theta, quantity)
+                s = self._intensity(mm, t, theta, quantity, f_max)
                 integral = np.bincount(owner, w * 0.5 * t ** (-q[i]) * s, minlength=n_lam)
             else:
-                e = self.grain_efficiencies(mm, t)
+                e = self.grain_efficiencies(mm, t, f_max)
                 base = w * t ** (2.0 - q[i]) * e.q_sca
                 csca = np.pi * np.bincount(owner, base, minlength=n_lam)
                 gbar = np.bincount(owner, base * e.g, minlength=n_lam) * np.pi / csca
@@ -644,7 +751,7 @@ class DiskColourModel:
 
     @accepts_quantities
     def monochromatic_flux_ratio(self, wavelength, fractions, porosity, a_min, q, a_max=None,
-                                 quantity: str = "total", method: str = "exact") -> np.ndarray:
+                                 quantity: str = "total", method: str = "exact", f_max=None) -> np.ndarray:
         """R(lambda) [sr^-1] at given wavelengths (no band average).
 
         ``quantity="polarised"`` gives the polarised-intensity ratio (signed).
@@ -667,7 +774,17 @@ class DiskColourModel:
                              where="method")
         wavelength = np.atleast_1d(np.asarray(wavelength, dtype=float))
         f, p, a_min, q, a_max = self._parameters(fractions, porosity, a_min, q, a_max)
+        f_max = self._point_f_max(f_max, f.shape[0])     # per point (f_max_tables models), else None
         m = self.effective_index(f, p, wavelength)
+        if f_max is not None:
+            if method == "fast":
+                return self._node_values(m, wavelength, a_min, q, a_max, quantity, f_max)
+            exact = np.zeros(m.shape)
+            for value in np.unique(f_max):
+                rows = f_max == value
+                exact[rows] = self.node_values_exact(m[rows], wavelength, a_min[rows], q[rows], a_max[rows],
+                                                     quantity=quantity, f_max=value)
+            return exact
         if method == "fast":
             return self._fast_table().node_values(m, wavelength, a_min, q, a_max, quantity=quantity)
         return self.node_values_exact(m, wavelength, a_min, q, a_max, quantity=quantity)
@@ -723,7 +840,10 @@ class DiskColourModel:
         """Q_pr = Q_ext - g Q_sca averaged over the stellar F_lambda, for radii ``a`` [um].
 
         The average runs over the wavelengths where every material has data
-        (no extrapolation); the fraction of stellar flux covered is returned.
+        (no extrapolation), trimmed to where the star emits (between the
+        wavelengths below and above which it puts 1e-4 of its flux, so that the
+        nodes sample the stellar spectrum rather than the materials' far-infrared
+        tails); the fraction of stellar flux covered is returned.
 
         Returns
         -------
@@ -736,13 +856,17 @@ class DiskColourModel:
         lo, hi = max(lo, 0.05), min(hi, 1000.0)
         if self.star_spectrum is not None:
             lo, hi = max(lo, self.star_spectrum[0][0]), min(hi, self.star_spectrum[0][-1])
-        lam = np.geomspace(lo, hi, n_wavelengths)
-        flux = self.star_flux(lam)
         full = np.geomspace(0.05, 1000.0, 4000)
         if self.star_spectrum is not None:
             full = self.star_spectrum[0]
-        inside = (full >= lo) & (full <= hi)
         fl_full = self.star_flux(full)
+        cum = np.concatenate([[0.0], np.cumsum(0.5 * (fl_full[1:] + fl_full[:-1]) * np.diff(full))])
+        cum /= cum[-1]
+        lo = max(lo, float(np.interp(1e-4, cum, full)))
+        hi = min(hi, float(np.interp(1.0 - 1e-4, cum, full)))
+        lam = np.geomspace(lo, hi, n_wavelengths)
+        flux = self.star_flux(lam)
+        inside = (full >= lo) & (full <= hi)
         covered = float(np.trapezoid(np.where(inside, fl_full, 0.0), full) / np.trapezoid(fl_full, full))
         m = self.effective_index(np.atleast_2d(fractions), porosity, lam)[0]
         a = np.atleast_1d(np.asarray(a, dtype=float))

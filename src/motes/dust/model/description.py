@@ -147,7 +147,11 @@ class ModelDescription:
     grains : str
         ``"spheres"`` or ``"hollow spheres"`` (``[model] grains``).
     f_max : float or None
-        Largest vacuum-core volume fraction of hollow spheres (None for spheres).
+        Largest vacuum-core volume fraction of hollow spheres (None for spheres,
+        and for hollow spheres whose f_max is fitted or a grid axis).
+    f_max_tables : str or None
+        ``"nodes"`` (f_max fitted: ``[parameters] f_max``) or ``"values"`` (a grid
+        axis: ``[grid] f_max``); None when f_max is one value per run.
     """
 
     star: StarDescription
@@ -163,11 +167,16 @@ class ModelDescription:
     source: str
     grains: str = "spheres"
     f_max: float | None = None
+    f_max_tables: str | None = None
 
     @property
     def grain_summary(self) -> str:
         """Which grain model the description selects, as text."""
-        return "spheres" if self.f_max is None else f"hollow spheres (f_max = {self.f_max:g})"
+        if self.grains == "spheres":
+            return "spheres"
+        if self.f_max is None:
+            return "hollow spheres (f_max " + ("fitted" if self.f_max_tables == "nodes" else "a grid axis") + ")"
+        return f"hollow spheres (f_max = {self.f_max:g})"
 
     @property
     def material_names(self) -> tuple[str, ...]:
@@ -261,7 +270,7 @@ class ModelDescription:
                 self.materials, bands, star_teff=self.star.teff, star_spectrum=self.star.spectrum,
                 mixing=self.mixing, matrix=self.matrix, geometry=self.geometry,
                 method=method or self.method, a_max=self.a_max, wavelength_nodes=self.wavelength_nodes,
-                intensities=intensities, grains=self.grains, f_max=self.f_max)
+                intensities=intensities, grains=self.grains, f_max=self.f_max, f_max_tables=self.f_max_tables)
         except InputError as exc:
             if exc.path is not None:
                 raise
@@ -375,7 +384,8 @@ def _read_geometry(doc, source) -> ScatteringGeometry:
         raise InputError(exc.reason, path=source, where=f"[geometry] {exc.where or ''}".strip()) from None
 
 
-def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -> ModelDescription:
+def parse_model_description(doc: dict, base_dir=".", source: str = "<string>",
+                            f_max_elsewhere: str | None = None) -> ModelDescription:
     """Parse the dust-model sections of a description already loaded from TOML.
 
     Parameters
@@ -386,6 +396,10 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
         Folder against which relative file names are resolved.
     source : str
         File name used in messages.
+    f_max_elsewhere : str, optional
+        Where f_max is given instead of ``[model] f_max``: ``"[parameters] f_max"``
+        (fitted) or ``"[grid] f_max"`` (a grid axis); ``[model] grains`` must
+        then be ``"hollow spheres"`` and ``[model] f_max`` is refused.
 
     Returns
     -------
@@ -430,18 +444,27 @@ def parse_model_description(doc: dict, base_dir=".", source: str = "<string>") -
         raise InputError(f"method must be one of {quoted_names(METHODS)}, got {method!r}", path=source, where="[model] method")
     nodes = read_number(model.get("wavelength_nodes", 8), path=source, where="[model] wavelength_nodes",
                         integer=True, lo=1, hi=64)
-    grains, f_max = _read_grains(model, source)
+    grains, f_max = _read_grains(model, source, f_max_elsewhere)
+    tables = None if f_max_elsewhere is None else ("values" if f_max_elsewhere.startswith("[grid]") else "nodes")
     return ModelDescription(star, materials, rule, matrix, geometry, bands, custom, a_max, method, nodes, source,
-                            grains, f_max)
+                            grains, f_max, tables)
 
 
-def _read_grains(model, source):
+def _read_grains(model, source, elsewhere=None):
     """``[model] grains`` and ``f_max``: spheres (default) or hollow spheres with their f_max."""
     grains = model.get("grains", "spheres")
     if grains not in GRAINS:
         raise InputError(f"grains must be one of {quoted_names(GRAINS)}, got {grains!r}", path=source,
                          where="[model] grains")
     declared = PARAMETERS["f_max"]
+    if elsewhere is not None:
+        if grains != "hollow spheres":
+            raise InputError(f"{elsewhere} is used by hollow-sphere grains only; add [model] grains = "
+                             f"'hollow spheres' or remove {elsewhere}", path=source, where=elsewhere)
+        if "f_max" in model:
+            raise InputError(f"f_max is given both in [model] and in {elsewhere}; keep one", path=source,
+                             where="[model] f_max")
+        return grains, None
     if grains == "spheres":
         if "f_max" in model:
             raise InputError("f_max is used by grains = 'hollow spheres' only; add that line or remove f_max",
@@ -453,8 +476,8 @@ def _read_grains(model, source):
                          where="[model] f_max")
     value = model["f_max"]
     if isinstance(value, (list, dict)):
-        raise InputError("f_max is one number per run (a fit or grid cannot vary it yet); "
-                         f"give f_max = 0.8 or another value in {declared.interval}", path=source,
+        raise InputError("[model] f_max is one number per run; to fit it give a prior in [parameters] f_max, "
+                         f"for a grid axis list it in [grid] f_max (values in {declared.interval})", path=source,
                          where="[model] f_max")
     f_max = read_number(value, path=source, where="[model] f_max",
                         what=f"the largest vacuum-core volume fraction, in {declared.interval}")

@@ -29,12 +29,19 @@ __all__ = [
     "TableSpec",
     "build_node",
     "build_tile",
+    "tile_rows",
     "channel_key",
     "rayleigh_exponents",
     "tile_path",
 ]
 
 FORMAT_VERSION = 1
+#: builder of the solid-sphere Mie-phase channels (total and polarised intensity), in their cache key:
+#: since it, :func:`motes.optics.mie.intensities_for_index` (node values moved by rounding only, at most
+#: 8e-13 of a moment, benchmarks/bench_tilebuild.py), so tiles of the per-x miepython loop before it sit
+#: in other folders and are never mixed with these. Henyey-Greenstein and hollow-sphere tables keep
+#: their builder and their keys.
+SPHERE_BUILDER = "one-index-1"
 N_MOMENTS = 5
 FACTORIALS = np.array([math.factorial(j) for j in range(N_MOMENTS)], dtype=float)
 
@@ -98,8 +105,11 @@ class TableSpec:
 
     def key(self, channel_key: str) -> str:
         """Hash naming the cache folder of this spec for one tabulated quantity."""
-        payload = json.dumps({"spec": asdict(self), "channels": channel_key, "format": FORMAT_VERSION,
-                              "miepython": mie.miepython.__version__}, sort_keys=True)
+        fields = {"spec": asdict(self), "channels": channel_key, "format": FORMAT_VERSION,
+                  "miepython": mie.miepython.__version__}
+        if _one_index_built(channel_key):
+            fields["builder"] = SPHERE_BUILDER
+        payload = json.dumps(fields, sort_keys=True)
         return hashlib.sha256(payload.encode()).hexdigest()[:20]
 
 
@@ -121,10 +131,16 @@ def channel_key(geometry, quantity: str = "total", f_max: float | None = None) -
     return key
 
 
+def _one_index_built(channel_key: str) -> bool:
+    """True for the channels :func:`_channels` builds with the one-index kernel (solid spheres, Mie phase)."""
+    return not (channel_key == "hg" or channel_key.startswith("hollow"))
+
+
 # ------------------------------------------------------------------- building
 def _channels(geometry, m: np.ndarray, t: np.ndarray, quantity: str = "total",
               f_max: float | None = None) -> np.ndarray:
-    """Integrand channels s(t) [n_channels, n] for indices m (same length as t); hollow spheres with f_max."""
+    """Integrand channels s(t) [n_channels, n] for one index (m: that index repeated, same length as t);
+    hollow spheres with f_max."""
     if f_max is not None:
         if quantity == "polarised" or geometry.phase == "mie":
             total, polarised = hollow.hollow_intensities(m, t, geometry.angles_rad, f_max)
@@ -132,10 +148,11 @@ def _channels(geometry, m: np.ndarray, t: np.ndarray, quantity: str = "total",
         e = hollow.hollow_efficiencies(m, t, f_max)
         base = 2.0 * np.pi * t**2 * e.q_sca
         return np.stack([base, base * e.g])
-    if quantity == "polarised":
-        return mie.polarised_scattered_intensity(m, t, geometry.angles_rad)[None, :]
-    if geometry.phase == "mie":
-        return mie.scattered_intensity(m, t, geometry.angles_rad)[None, :]
+    if quantity == "polarised" or geometry.phase == "mie":
+        # one index per node: the one-index kernel (miepython's series, ~1.6x faster per x; same
+        # values up to rounding, measured in benchmarks/bench_tilebuild.py)
+        total, polarised = mie.intensities_for_index(m[0], t, geometry.angles_rad)
+        return (polarised if quantity == "polarised" else total)[None, :]
     e = mie.efficiencies(m, t)
     base = 2.0 * np.pi * t**2 * e.q_sca
     return np.stack([base, base * e.g])
@@ -181,16 +198,28 @@ def tile_path(folder: Path, i: int, j: int) -> Path:
     return folder / f"tile_{i:03d}_{j:03d}.npz"
 
 
-def build_tile(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total", f_max: float | None = None):
-    """Moments of the (n, k) nodes of tile (i, j); returns (moments, start, tail)."""
+def tile_rows(spec: TableSpec, i: int) -> int:
+    """Number of n rows tile row ``i`` holds (``spec.tile``, fewer at the top of the n axis)."""
+    return len(range(i * spec.tile, min((i + 1) * spec.tile, spec.n_count)))
+
+
+def build_tile(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total", f_max: float | None = None,
+               rows=None):
+    """Moments of the (n, k) nodes of tile (i, j); returns (moments, start, tail).
+
+    ``rows``: build only these local n rows (0 .. tile - 1) and leave the others zero, so
+    that one tile can be split over processes; each node's values do not depend on it.
+    """
     ln_n, kk = spec.ln_n, spec.k
-    rows = range(i * spec.tile, min((i + 1) * spec.tile, spec.n_count))
+    rows_all = range(i * spec.tile, min((i + 1) * spec.tile, spec.n_count))
+    rows = rows_all if rows is None else [rows_all[a] for a in rows]
     cols = range(j * spec.tile, min((j + 1) * spec.tile, spec.k_count))
     n_ch = 1 if (geometry.phase == "mie" or quantity == "polarised") else 2
     moments = np.zeros((spec.tile, spec.tile, n_ch, spec.x_count - 1, N_MOMENTS))
     start = np.zeros((spec.tile, spec.tile, n_ch))
     tail = np.zeros((spec.tile, spec.tile, n_ch))
-    for a, r in enumerate(rows):
+    for r in rows:
+        a = r - i * spec.tile
         for b, c in enumerate(cols):
             m = complex(np.exp(ln_n[r]), kk[c])
             moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m, quantity, f_max)

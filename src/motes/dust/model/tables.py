@@ -18,7 +18,10 @@ columns (``LookupTable(quantity="polarised")``). For hollow-sphere grains
 hollow-sphere average of :func:`motes.optics.hollow.hollow_intensities` (or
 its efficiencies for Henyey-Greenstein), in tables of the run's f_max with
 cache folders of their own (``LookupTable(f_max=...)``), made ready only for
-such runs; the sphere tables keep their folders and contents.
+such runs; the sphere tables keep their folders and contents. An f_max given
+per point (``DiskColourModel(f_max_tables=...)``) uses one such table per listed
+value (a grid axis) or interpolates between the tables at :data:`F_MAX_NODES`
+(a fitted f_max; :func:`f_max_terms`).
 
 How the table is made
 ---------------------
@@ -42,7 +45,8 @@ How the table is made
   cached on disk under :func:`motes.files.cache_directory` (``$MOTES_CACHE_DIR``,
   else ``$XDG_CACHE_HOME/motes``, else ``~/.cache/motes``) ``/tables``,
   keyed by a hash of the geometry, the axes, the sampling rule, the format
-  version and the miepython version. Files are written to a temporary name
+  version, the miepython version and (solid spheres, Mie phase) the node builder
+  (:data:`motes.dust.model.tablebuild.SPHERE_BUILDER`). Files are written to a temporary name
   and renamed. A tile missing at evaluation time is built then.
 * Evaluation: C for the q grid (step 0.1) is assembled from the moments when
   first needed; values are interpolated with 4-point Lagrange polynomials in
@@ -69,7 +73,7 @@ from ...parameters import accepts_quantities
 from ...files import atomic_write, cache_directory, write_text_atomic
 from ...optics import mie
 from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, QUANTITIES, TableSpec, build_tile, channel_key,
-                         rayleigh_exponents, tile_path)
+                         rayleigh_exponents, tile_path, tile_rows)
 
 __all__ = [
     "FORMAT_VERSION",
@@ -81,6 +85,9 @@ __all__ = [
     "reachable_indices",
     "table_for_model",
     "table_build_workers",
+    "F_MAX_NODES",
+    "F_MAX_FAST_RANGE",
+    "f_max_terms",
 ]
 
 #: q slices added on each side when the assembled q range must grow (a run that explores q one
@@ -316,7 +323,7 @@ class LookupTable:
         # a table inherited by a forked daemonic worker (a fit's pool) keeps the driver's setting,
         # but such a process may not start processes of its own
         daemonic = multiprocessing.current_process().daemon
-        if self.workers <= 1 or len(todo) == 1 or daemonic:
+        if self.workers <= 1 or daemonic:
             for ij in todo:
                 yield ij, build_tile(self.spec, self.geometry, *ij, self.quantity, self.f_max)
             return
@@ -326,12 +333,27 @@ class LookupTable:
         with concurrent.futures.ProcessPoolExecutor(
                 max_workers=self.workers, mp_context=multiprocessing.get_context(method)) as pool:
             # weakly absorbing tiles (low k index) cost ~10x the opaque ones: submitted first, so that no core
-            # waits for one of them at the end; slots do not depend on the build order (see _slot_map)
+            # waits for one of them at the end; slots do not depend on the build order (see _slot_map).
+            # One job per n row of a tile (4 nodes), so that a single missing tile (a sampler reaching
+            # a new region mid-run) is built on every worker too; a tile is yielded when its rows are in.
             order = sorted(todo, key=lambda ij: (ij[1], ij[0]))
-            futures = {pool.submit(build_tile, self.spec, self.geometry, *ij, self.quantity, self.f_max): ij
-                       for ij in order}
+            futures, left, parts = {}, {}, {}
+            for ij in order:
+                left[ij] = tile_rows(self.spec, ij[0])
+                for a in range(left[ij]):
+                    fut = pool.submit(build_tile, self.spec, self.geometry, *ij, self.quantity, self.f_max, (a,))
+                    futures[fut] = (ij, a)
             for fut in concurrent.futures.as_completed(futures):
-                yield futures[fut], fut.result()
+                ij, a = futures.pop(fut)
+                part = fut.result()
+                if ij not in parts:
+                    parts[ij] = part
+                else:
+                    for whole, piece in zip(parts[ij], part):
+                        whole[a] = piece[a]
+                left[ij] -= 1
+                if left[ij] == 0:
+                    yield ij, parts.pop(ij)
 
     def _stencil_tiles(self, pn, pk):
         """Tile indices (lowest and highest per axis) of each query's 4 x 4 stencil."""
@@ -632,6 +654,66 @@ def _compositions(total: int, parts: int):
 
 _TABLES: dict[tuple, LookupTable] = {}
 
+#: f_max nodes of the tables a per-point f_max (a fitted f_max, ``f_max_tables="nodes"``) is
+#: interpolated between: step 0.05 from 0 (the solid sphere's table) to 0.9; 4-point Lagrange in
+#: f_max. Step 0.1 left polarised ratios off by up to 4% (total within 0.15%); interpolation
+#: error against the exact path at the f_max itself measured by benchmarks/bench_hollow_fmax.py
+#: (docs/optics.md, "f_max per point") and tests/test_dust_hollow_fmax.py.
+F_MAX_NODES = tuple(round(0.05 * i, 10) for i in range(19))
+#: f_max an interpolated (fitted) f_max may take on the fast path. Below 0.1 the hollow-sphere
+#: average of weak absorbers changes faster than the nodes follow (the core first shifts the sphere
+#: resonances): measured up to 1.1% in R and 10% in polarised R at f_max 0.005-0.065, k 1.7e-4-1e-2
+#: (benchmarks/bench_hollow_fmax.py; within 0.09% and 0.3% for f_max >= 0.1).
+F_MAX_FAST_RANGE = (0.1, F_MAX_NODES[-1])
+
+
+def f_max_terms(f_max, how: str = "nodes", nodes=None):
+    """Split per-point f_max values into tables: ``[(table f_max, rows, weight[rows]), ...]``.
+
+    ``how="values"``: one table per distinct value, weight 1. ``how="nodes"``:
+    4-point Lagrange interpolation between the tables at :data:`F_MAX_NODES`
+    (the stencil clamped inside the nodes; a value on a node uses that node's
+    table alone). With the default nodes, f_max outside :data:`F_MAX_FAST_RANGE`
+    (0.1-0.9) is refused: above, the fast path has no table; below, the
+    interpolation misses the fast change of weak absorbers (measured; see the
+    constant). ``nodes``: other equally spaced nodes from 0 (no range check;
+    benchmarks compare node steps).
+
+    Examples
+    --------
+    >>> [(f, rows.tolist(), w.round(3).tolist()) for f, rows, w in f_max_terms([0.3], "nodes")]
+    [(0.3, [True], [1.0])]
+    >>> [f for f, _, _ in f_max_terms([0.37])]
+    [0.3, 0.35, 0.4, 0.45]
+    """
+    values = np.atleast_1d(np.asarray(f_max, dtype=float))
+    if how == "values":
+        return [(float(v), values == v, np.ones(int((values == v).sum()))) for v in np.unique(values)]
+    lo, hi = F_MAX_FAST_RANGE if nodes is None else (0.0, float(np.max(nodes)))
+    nodes = np.asarray(F_MAX_NODES if nodes is None else nodes, dtype=float)
+    step = nodes[1] - nodes[0]
+    outside = (values > hi + 1e-12) | (values < lo - 1e-12)
+    if outside.any():
+        raise ModelError(f"f_max = {values[outside][0]:g}: the fast path interpolates a fitted f_max between "
+                         f"tables at f_max nodes (step {step:g}) for f_max in [{lo:g}, {hi:g}] only; keep the "
+                         "prior within that range, list the values as a grid axis, or use method = 'exact'")
+    pos = values / step
+    near = np.abs(pos - np.round(pos)) < 1e-9            # on a node: that table alone
+    first = np.clip(np.floor(pos).astype(int) - 1, 0, nodes.size - 4)
+    frac = pos - first - 1.0
+    weights = np.stack([-frac * (frac - 1) * (frac - 2) / 6, (frac + 1) * (frac - 1) * (frac - 2) / 2,
+                        -(frac + 1) * frac * (frac - 2) / 2, (frac + 1) * frac * (frac - 1) / 6], axis=1)
+    index = first[:, None] + np.arange(4)[None, :]
+    on = np.round(pos).astype(int)
+    weights = np.where(near[:, None], (index == on[:, None]).astype(float), weights)
+    out = []
+    for j, node in enumerate(nodes):
+        w = np.where(index == j, weights, 0.0).sum(axis=1)
+        rows = (index == j).any(axis=1) & (w != 0.0)
+        if rows.any():
+            out.append((float(node), rows, w[rows]))
+    return out
+
 #: hollow-sphere tables: x range cut to the model's a_max in steps of this many ln x nodes
 _HOLLOW_X_QUANTUM = 20
 
@@ -646,7 +728,7 @@ def _default_spec(model) -> TableSpec:
     geometric-optics continuation above the table, with its note.
     """
     spec = TableSpec()
-    if getattr(model, "f_max", None) is None:
+    if not getattr(model, "hollow", getattr(model, "f_max", None) is not None):
         return spec
     x_need = 2 * np.pi * model.a_max / float(np.min(model.node_wavelength)) * 1.02
     count = int(np.ceil(np.log(max(x_need, spec.x_min) / spec.x_min) / spec.dln_x)) + 4
@@ -654,8 +736,31 @@ def _default_spec(model) -> TableSpec:
     return dataclasses.replace(spec, x_count=min(spec.x_count, max(count, _HOLLOW_X_QUANTUM)))
 
 
+#: hollow-sphere tables reaching beyond this size parameter are announced before they are built:
+#: a node over the full x range (to 1.26e4, a_max = 1 mm at 0.5 um) costs ~60x a sphere node
+#: (4.7 s against 0.076 s measured at m = 2 + 0.8i; weak absorbers cost more), so their first
+#: build takes hours on a 2-core machine (docs/optics.md, "First-run cost")
+HOLLOW_X_WARN = 2000.0
+HOLLOW_LARGE_NOTE = ("fast path: hollow-sphere grains with a_max = {a_max:g} um need lookup tables up to x = "
+                     "{x_top:.3g}; one table node there costs ~60x a sphere node (4.7 s measured at m = 2 + 0.8i, "
+                     "more for weak absorbers), so building the tiles a run needs can take hours on first use "
+                     "(cached afterwards); a smaller a_max, or grains = 'spheres', avoids it")
+
+
+def _warn_large_hollow_table(model, spec: TableSpec, progress: bool) -> None:
+    """Add the large-table note to the model; say it on stderr once before a build can start."""
+    import sys
+
+    note = HOLLOW_LARGE_NOTE.format(a_max=float(getattr(model, "a_max", float("nan"))), x_top=spec.x_top)
+    if note in getattr(model, "notes", ()):
+        return
+    model.notes = tuple(getattr(model, "notes", ())) + (note,)
+    if progress:
+        print(f"motes: {note}", file=sys.stderr)
+
+
 def table_for_model(model, spec: TableSpec | None = None, progress: bool = True,
-                    fractions=None, porosity=None, lazy: bool = False) -> ModelTable:
+                    fractions=None, porosity=None, lazy: bool = False, f_max: float | None = None) -> ModelTable:
     """The fast path for ``model``: loads cached tiles, builds the missing ones.
 
     Parameters
@@ -670,6 +775,9 @@ def table_for_model(model, spec: TableSpec | None = None, progress: bool = True,
         (:func:`reachable_indices`). Tiles missing later are built on demand.
     lazy : bool
         Build nothing now; every evaluation builds the tiles it needs.
+    f_max : float, optional
+        The tables of this f_max instead of the model's own (a model with f_max
+        per point; f_max = 0 is the solid sphere's table, same axes).
 
     Tables are shared between models of the same geometry (and grain model) in one process. A
     hollow-sphere model (``model.f_max`` not None) uses tables of its own f_max, in cache folders
@@ -683,7 +791,12 @@ def table_for_model(model, spec: TableSpec | None = None, progress: bool = True,
     if getattr(model, "has_polarised", False):
         wanted.append("polarised")
     tables = []
-    f_max = getattr(model, "f_max", None)
+    if f_max is None:
+        f_max = getattr(model, "f_max", None)
+    elif float(f_max) == 0.0:
+        f_max = None        # the solid sphere (Min et al. 2005: f_max = 0), on the hollow-sphere axes
+    if f_max is not None and spec.x_top > HOLLOW_X_WARN:
+        _warn_large_hollow_table(model, spec, progress)
     for quantity in wanted:
         key = (channel_key(model.geometry, quantity, f_max), spec)
         table = _TABLES.get(key)
