@@ -35,7 +35,7 @@ def plot_band(band: Band, path) -> Path:
     path = Path(path)
     if path.parent and not path.parent.exists():
         raise InputError("output folder does not exist", path.parent)
-    fig = new_figure(1, height=2.6)
+    fig = new_figure(1, height=3.0)
     ax = fig.subplots()
     t = band.throughput / band.throughput.max()
     ax.plot(band.wavelength, t, color=SERIES_COLOURS[0], lw=1.4, label=f"curve ({band.response} response)")
@@ -50,7 +50,8 @@ def plot_band(band: Band, path) -> Path:
     title = (shown if shown == band.name else f"{shown} ({band.name})") + (" (approximate)" if band.approximate else "")
     ax.set_title(title)
     ax.set_ylim(0, 1.12)
-    ax.legend(fontsize=6.5, loc="lower center")
+    # below the axes: inside, it covers the curve of one band or another (a steep edge, a flat top)
+    ax.legend(fontsize=6.5, loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=2, frameon=False)
     fig.tight_layout()
     try:
         with atomic_write(path, suffix=path.suffix or ".png") as tmp:
