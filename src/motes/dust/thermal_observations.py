@@ -34,6 +34,7 @@ import numpy as np
 from ..errors import BandError, InputError
 from ..parameters import accepts_quantities
 from ..photometry.bands import get_band
+from ..photometry.measurement_table import _cell_float as _number  # one reading of a numeric cell
 from ..photometry.measurement_table import parse_flux_unit, read_table_rows
 from ..photometry.table_schema import check_kind
 
@@ -82,15 +83,6 @@ class ThermalPhotometry:
     @property
     def n_detections(self) -> int:
         return int(np.count_nonzero(~self.is_limit))
-
-
-def _number(text, path, where, column):
-    if text == "":
-        return math.nan
-    try:
-        return float(text)
-    except ValueError:
-        raise InputError(f"column {column!r}: expected a number, got {text!r}", path, where) from None
 
 
 def read_thermal_photometry(path, custom_bands=None, shown=None) -> ThermalPhotometry:

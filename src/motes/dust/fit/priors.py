@@ -336,25 +336,16 @@ class ParameterSpace:
         kf = self.n_fraction_dims
         out = {"fractions": theta[:, :kf] if kf else np.ones((n, 1))}
         col = kf
-        for name in PRIOR_PARAMETERS:
+        # the declared parameters, then the optional ones (None when the description has none), in column order
+        for name in (*PRIOR_PARAMETERS, "f_max", "ring_radius"):
             prior = getattr(self, name)
+            if prior is None:
+                continue
             if prior.free:
                 out[name] = theta[:, col]
                 col += 1
             else:
                 out[name] = np.full(n, prior.value)
-        if self.f_max is not None:
-            if self.f_max.free:
-                out["f_max"] = theta[:, col]
-                col += 1
-            else:
-                out["f_max"] = np.full(n, self.f_max.value)
-        if self.ring_radius is not None:
-            if self.ring_radius.free:
-                out["ring_radius"] = theta[:, col]
-                col += 1
-            else:
-                out["ring_radius"] = np.full(n, self.ring_radius.value)
         if self.sample_scale:
             out["scale"] = theta[:, col]
         if self.a_min.relative_to == "blowout" and not self.a_min.free and not _raw_a_min:
