@@ -261,6 +261,24 @@ def test_corner_two_materials_has_no_fraction_pair_and_no_scale_row():
     assert all(t.get_fontsize() >= 6 for ax in grid for t in ax.get_xticklabels() + ax.get_yticklabels())
 
 
+def test_corner_of_a_joint_fit_labels_the_ring_radius_and_keeps_the_thermal_scale_as_a_nuisance():
+    import dataclasses
+
+    from motes.report.corner_figure import draw_corner
+
+    base = _model_result(("silica", "ice"))
+    rng = np.random.default_rng(6)
+    n = base.samples.shape[0]
+    samples = np.column_stack([base.samples, rng.normal(60.0, 3.0, n), np.exp(rng.normal(3.0, 0.2, n))])
+    names = base.sample_names + ("ring_radius", "thermal_scale")
+    model = dataclasses.replace(base, sample_names=names, samples=samples, best=dict(zip(names, samples[0])))
+    fig = draw_corner(model)
+    grid = [ax for ax in fig.axes if ax.get_subplotspec() is not None]
+    assert len(grid) == 5 * 5 and grid[-1].get_xlabel() == "ring radius [au]"
+    insets = [ax.get_xlabel() for ax in fig.axes if ax.get_subplotspec() is None]
+    assert insets == ["log10 scale (nuisance)", "log10 thermal scale [au²] (nuisance)"]
+
+
 def test_corner_three_materials_keeps_every_fraction():
     from motes.report.corner_figure import draw_corner
 

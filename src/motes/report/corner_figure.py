@@ -25,9 +25,11 @@ __all__ = ["draw_corner", "credible_levels", "CORNER_LEVELS"]
 
 #: probability enclosed by the 2-D contours: the 1- and 2-sigma regions of a 2-D Gaussian, 1 - exp(-k^2/2)
 CORNER_LEVELS = (1.0 - np.exp(-0.5), 1.0 - np.exp(-2.0))
-_NUISANCE = ("scale", "systematic")
-_LOG_AXES = {"a_min": "log10 a_min [µm]", "a_max": "log10 a_max [µm]"}
-_LABELS = {"porosity": "porosity", "q": "size slope q", "angle": "angle [deg]"}
+_NUISANCE = ("scale", "systematic", "thermal_scale")
+_LOG_AXES = {"a_min": "log10 a_min [µm]", "a_max": "log10 a_max [µm]",
+             "thermal_scale": "log10 thermal scale [au²]"}
+_LABELS = {"porosity": "porosity", "q": "size slope q", "angle": "angle [deg]", "ring_radius": "ring radius [au]",
+           "f_max": "f_max (largest core fraction)"}
 
 
 def credible_levels(density, levels=CORNER_LEVELS) -> np.ndarray:
