@@ -91,3 +91,15 @@ def test_format_2_files_may_still_give_mko_bands_as_extra_columns():
     with pytest.raises(InputError, match="derived from the standard columns"):
         read_dwarf_sequence(text.replace(_HEAD, _HEAD + " jhk_sys").replace(" 17.0", " 2mass 17.0")
                             .replace(" 18.2", " 2mass 18.2"), "new.txt")
+
+
+def test_ranked_table_has_no_row_for_a_type_the_grid_does_not_reach():
+    # MKO J/K meet only the T9.5-Y rows: the T9.5 grid point lies on the T9/Y0 bin edge, and the
+    # T9 bin holds no grid point of its own, so no 'T9' row may appear (it showed T9.5's values)
+    seq = load_dwarf_sequence()
+    mags = {b: (float(seq.value(b, "T9.5")), 0.05) for b in ("mko_j", "mko_k")}
+    result = classify(photometry_from_magnitudes(mags, distance_pc=10.0, distance_pc_error=0.1))
+    for ranking in (r for r in result.rankings if r.kind == "sequence"):
+        labels = [row.label for row in ranking.rows]
+        assert "T9" not in labels and labels[0] == "Y0", (ranking.mode, labels)
+        assert sum(row.probability for row in ranking.rows) == pytest.approx(1.0, abs=1e-6)

@@ -116,12 +116,23 @@ def _row(label, a, i, dof, probability) -> RankedTemplate:
 
 
 def _sequence_rows(a, dof):
-    """One row per integer subtype: probability of the grid points within half a subtype."""
+    """One row per integer subtype: probability of the grid points within half a subtype.
+
+    A grid point on a bin edge (x.5) is shared by the two bins, unless one of them holds no
+    point of its own (the grid starts or ends there, e.g. sequence rows from T9.5 on): then
+    it goes whole to the other, so that no row is labelled with a type the grid does not reach.
+    """
     from .spectral_types import type_label
 
     codes, prob = a["type_code"], a["probability"]
     lo_bin = np.floor(codes + 0.5 - 1e-7).astype(int)
     hi_bin = np.floor(codes + 0.5 + 1e-7).astype(int)
+    split = lo_bin != hi_bin
+    own = set(lo_bin[~split].tolist())
+    lone_lo = split & ~np.isin(lo_bin, list(own)) & np.isin(hi_bin, list(own))
+    lone_hi = split & ~np.isin(hi_bin, list(own)) & np.isin(lo_bin, list(own))
+    lo_bin = np.where(lone_lo, hi_bin, lo_bin)
+    hi_bin = np.where(lone_hi, lo_bin, hi_bin)
     split = lo_bin != hi_bin
     bins = {}
     for b, p in zip(lo_bin, np.where(split, 0.5 * prob, prob)):
