@@ -529,3 +529,27 @@ def test_band_figure_titles_display_name_and_identifier(drawn_figures, tmp_path)
     assert drawn_figures[-1].axes[0].get_title() == "MKO L′ (mko_lp) (approximate)"
     plot_band(get_band("2mass_ks"), tmp_path / "ks.png")
     assert drawn_figures[-1].axes[0].get_title() == "2MASS Ks (2mass_ks)"
+
+
+def test_thermal_sed_figure_of_a_joint_fit(tmp_path):
+    import dataclasses
+
+    import astropy.units as u
+    from astropy.table import Table
+
+    from motes.report import plot_thermal_fit
+
+    lam = np.array([22.0, 70.0, 160.0, 500.0])
+    value = np.array([10.0, 120.0, 60.0, 9.0]) * 1e-3
+    t = Table({"band": ["wise_w4", "herschel-pacs_70", "herschel-pacs_160", "herschel-spire_500"],
+               "pivot_wavelength": lam * u.um, "value": value * u.Jy, "error": 0.05 * value * u.Jy,
+               "is_limit": [False, False, False, True], "limit_sigma": [np.nan, np.nan, np.nan, 3.0],
+               "star_flux": 0.1 * (22.0 / lam) ** 2 * u.Jy})
+    for name, f in (("model_median", 1.0), ("model_lo68", 0.95), ("model_hi68", 1.05), ("model_lo95", 0.9),
+                    ("model_hi95", 1.1), ("model_best", 1.01)):
+        t[name] = value * f * u.Jy
+    model = dataclasses.replace(_model_result(("silica", "ice")), thermal_fluxes=t)
+    png = plot_thermal_fit(model, tmp_path / "thermal_sed.png")
+    assert png.is_file() and png.stat().st_size > 10_000
+    with pytest.raises(ValueError, match="no thermal fluxes"):
+        plot_thermal_fit(_model_result(("silica", "ice")), tmp_path / "none.png")

@@ -67,6 +67,7 @@ _EXPORTS = {
     "plot_colours": "fit_figures",
     "plot_corner": "fit_figures",
     "plot_evidence": "fit_figures",
+    "plot_thermal_fit": "fit_figures",
     "write_fit_figures": "fit_figures",
     "draw_colours": "colours_figure",
     "scattering_angles_text": "colours_figure",

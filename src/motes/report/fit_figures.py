@@ -15,7 +15,7 @@ import numpy as np
 from .figure_files import figure_paths, save_figure
 from .figure_style import house_style, new_figure
 
-__all__ = ["write_fit_figures", "plot_colours", "plot_corner", "plot_evidence"]
+__all__ = ["write_fit_figures", "plot_colours", "plot_corner", "plot_evidence", "plot_thermal_fit"]
 
 _COLOURS = ("#1b6ca8", "#c0392b", "#2e8b57", "#8e44ad")
 _N_MODELS_SHOWN = 3
@@ -95,6 +95,74 @@ def plot_evidence(result, path: Path, formats=None) -> Path:
     return save_figure(fig, path, formats=formats)
 
 
+@house_style
+def plot_thermal_fit(model, path: Path, formats=None) -> Path:
+    """Thermal SED of a joint fit's model: the data (limits as arrows), the posterior model
+    fluxes per band (median, 68% and 95% ranges), the best fit and the stellar photosphere.
+
+    Parameters
+    ----------
+    model : ModelResult
+        With ``thermal_fluxes`` (``thermal.ecsv`` of a joint fit).
+    path : path-like
+
+    Returns
+    -------
+    Path
+    """
+    from matplotlib.ticker import FuncFormatter
+
+    from .figure_style import SERIES_COLOURS, figure_band_name
+
+    t = model.thermal_fluxes
+    if t is None or len(t) == 0:
+        raise ValueError(f"model {model.name!r} has no thermal fluxes (not a joint fit)")
+    order = np.argsort(np.asarray(t["pivot_wavelength"], dtype=float))
+    lam = np.asarray(t["pivot_wavelength"], dtype=float)[order]
+    mjy = 1000.0
+    col = {n: np.asarray(t[n], dtype=float)[order] * mjy for n in
+           ("value", "error", "star_flux", "model_median", "model_lo68", "model_hi68", "model_lo95",
+            "model_hi95", "model_best")}
+    limit = np.asarray(t["is_limit"], dtype=bool)[order]
+    fig = new_figure(1, height=4.0)
+    ax = fig.subplots()
+    # band values are points, not a spectrum: the model beside the data (x 1.05), 68% and 95% bars
+    xm = lam * 1.05
+    med = col["model_median"]
+    ax.errorbar(xm, med, yerr=[med - col["model_lo95"], col["model_hi95"] - med], fmt="none",
+                ecolor=SERIES_COLOURS[0], elinewidth=0.7, capsize=0, alpha=0.6)
+    ax.errorbar(xm, med, yerr=[med - col["model_lo68"], col["model_hi68"] - med], fmt="s", ms=3.5,
+                mfc="white", color=SERIES_COLOURS[0], elinewidth=1.4, capsize=0,
+                label="model: median, 68% (thick) and 95% (thin)")
+    ax.plot(xm, col["model_best"], lw=0, marker="x", ms=4.5, color=SERIES_COLOURS[0], label="model: best fit")
+    ax.plot(lam, col["star_flux"], lw=0, marker="_", ms=9, mew=1.2, color="0.35", label="stellar photosphere")
+    det = ~limit
+    ax.errorbar(lam[det], col["value"][det], yerr=col["error"][det], fmt="o", ms=4, color=SERIES_COLOURS[3],
+                capsize=2, label="data (excess over the photosphere)", zorder=5)
+    if limit.any():
+        up = col["value"][limit]
+        ax.errorbar(lam[limit], up, yerr=0.35 * up, uplims=True, fmt="v", ms=4, color=SERIES_COLOURS[3],
+                    zorder=5, label="upper limit")
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    from matplotlib.ticker import NullFormatter
+
+    plain = FuncFormatter(lambda v, _pos: f"{v:g}")
+    ax.xaxis.set_major_formatter(plain)
+    ax.xaxis.set_minor_formatter(NullFormatter())
+    ax.set_xlabel("wavelength [µm]")
+    ax.set_ylabel("flux density [mJy]")
+    top = ax.secondary_xaxis("top")
+    top.set_xticks(lam, [figure_band_name(str(n)) for n in np.asarray(t["band"])[order]], rotation=60,
+                   ha="left", fontsize=5)
+    top.xaxis.set_minor_formatter(NullFormatter())
+    top.tick_params(which="minor", length=0)
+    ax.set_title(f"thermal SED: {model.name}", fontsize=8, loc="left")
+    ax.legend(fontsize=6, loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=2, frameon=False)
+    fig.tight_layout()
+    return save_figure(fig, path, formats=formats)
+
+
 def write_fit_figures(result, folder: Path, formats=None, curves=None, truth=None) -> tuple[Path, ...]:
     """Write the colour, corner and evidence figures of a fit into ``folder``; return the paths.
 
@@ -114,7 +182,10 @@ def write_fit_figures(result, folder: Path, formats=None, curves=None, truth=Non
     plot_colours(result, folder / "colours.png", formats=formats, curves=curves)
     plot_corner(result.best, corner, formats=formats, truth=truth)
     plot_evidence(result, folder / "evidence.png", formats=formats)
+    written = [folder / "colours.png", corner, folder / "evidence.png"]
+    if getattr(result.best, "thermal_fluxes", None) is not None and len(result.best.thermal_fluxes):
+        written.append(plot_thermal_fit(result.best, folder / "thermal_sed.png", formats=formats))
     files = []
-    for p in (folder / "colours.png", corner, folder / "evidence.png"):
+    for p in written:
         files += figure_paths(p, formats)
     return tuple(files)
