@@ -109,7 +109,9 @@ def register(subparsers) -> None:
     p.add_argument("--extinction-law", metavar="LAW", default=None,
                    help="dust_extinction law for --fit-extinction (default G23)")
     p.add_argument("--template-scatter", metavar="MAG", type=float, default=None,
-                   help="per-band intrinsic scatter of the templates (default 0.10 mag)")
+                   help="per-band intrinsic scatter of the templates (default 0.10 mag; in the colours-only "
+                        "mode the dwarf sequence's scatter is marginalised over colour_scatter_range, "
+                        "0.02-0.30 mag, set in a --settings file, and this value gives its chi2)")
     p.add_argument("--luminosity-scatter", metavar="MAG", type=float, default=None,
                    help="shared absolute-magnitude scatter at fixed type (default 0.30 mag)")
     p.add_argument("--types", metavar="FIRST-LAST", type=_range, default=None,

@@ -16,7 +16,9 @@ user library, blackbodies) and every mode:
 
 Per-band template scatter sigma_tpl adds to the observed errors (in the
 colours-only mode, for the dwarf sequence, with the sequence's own uncertainty
-measured from its rows added in quadrature: :func:`sequence_colour_scatter`).
+measured from its rows added in quadrature: :func:`sequence_colour_scatter`;
+there sigma_tpl is also an unknown of the object, marginalised over a
+log-uniform prior, :data:`COLOUR_SCATTER_RANGE`).
 The likelihood, the limits and the marginalisation are in
 :mod:`motes.companion.likelihood`. Template probabilities of the dwarf
 sequence include a prior over types (:mod:`motes.companion.type_prior`;
@@ -42,6 +44,7 @@ import math
 import os
 import tomllib
 from dataclasses import dataclass, fields
+from dataclasses import replace as dataclass_replace
 from pathlib import Path
 
 import numpy as np
@@ -71,6 +74,9 @@ __all__ = [
     "CAVEATS",
     "sequence_colour_scatter",
     "SEQUENCE_SCATTER_WINDOW",
+    "COLOUR_SCATTER_RANGE",
+    "COLOUR_SCATTER_NODES",
+    "colour_scatter_nodes",
 ]
 
 MODES = ("auto", "distance", "colours", "both")
@@ -79,6 +85,25 @@ MODES = ("auto", "distance", "colours", "both")
 OFFSET_PRIOR_WIDTH = 40.0
 #: Lower end [mag] of that prior for templates with an absolute scale (0.1 pc).
 OFFSET_PRIOR_LOWER = -5.0
+#: Default log-uniform prior range [mag] of the per-band template scatter of the dwarf sequence in the
+#: colours-only mode (:attr:`ClassifySettings.colour_scatter_range`). How far an individual dwarf's
+#: near-infrared colours sit from the mean sequence at its type is not one number: most field dwarfs
+#: lie close to it, while metallicity, gravity (youth), clouds (red and blue L dwarfs) and unresolved
+#: binarity move a minority far off. A scale mixture of Gaussians - the scatter an unknown of the
+#: object, with the scale-invariant (log-uniform) prior between physical bounds - describes such a
+#: narrow core with heavy tails. Lower bound 0.02 mag: no smaller than the colour spread at fixed
+#: type that the quantisation of spectral types alone gives (types to +-0.5 subtype, common practice,
+#: no source, times the sequence's slopes of 0.01-0.04 mag per subtype in J-H and H-Ks for K-M dwarfs,
+#: read from its rows: up to 0.02 mag), and about the ~0.02-0.03 mag rms of J-H and H-Ks at fixed type
+#: of solar-neighbourhood FGK dwarfs (from memory); upper bound 0.30 mag: the top of the 0.1-0.3 mag
+#: range of common practice (no source), about the J-Ks offset of the red and blue L dwarfs from the
+#: mean of their type (~0.3-0.5 mag in J-Ks, Faherty et al. 2009, AJ 137, 1; Kirkpatrick et al. 2010,
+#: ApJS 190, 100; from memory). No published per-type table of the intrinsic rms of J-H, H-Ks at
+#: fixed type was at hand (none could be read in full). Chosen from these arguments before any
+#: classification was run with it; not fitted to any test set.
+COLOUR_SCATTER_RANGE = (0.02, 0.30)
+#: Nodes of the scale mixture over that range (midpoints of equal steps in ln sigma, equal weights).
+COLOUR_SCATTER_NODES = 9
 #: Probability (from the bands all templates share) that templates may carry
 #: before motes refuses to drop them for the sake of an extra band.
 EXCLUSION_TOLERANCE = 0.01
@@ -119,6 +144,14 @@ class ClassifySettings:
     template_scatter : float [mag]
         Intrinsic scatter of template colours, per band (default 0.10:
         common practice, no source - 0.1-0.3 mag is usual).
+    colour_scatter_range : (float, float) or None [mag]
+        In the colours-only mode, the dwarf sequence's per-band template
+        scatter is not fixed but an unknown of the object, marginalised over a
+        log-uniform prior between these two values (default 0.02-0.30 mag,
+        argued in :data:`COLOUR_SCATTER_RANGE`); its probabilities are then a
+        scale mixture over :data:`COLOUR_SCATTER_NODES` values. The chi2,
+        the best offset and the goodness of fit are still those at
+        ``template_scatter``. None: the fixed ``template_scatter`` throughout.
     luminosity_scatter : float [mag]
         Intrinsic scatter of absolute magnitude at fixed type, shared by all
         bands (default 0.30: the rms of absolute magnitudes about
@@ -172,6 +205,7 @@ class ClassifySettings:
     mode: str = "auto"
     band_map: tuple = ()
     template_scatter: float = 0.10
+    colour_scatter_range: tuple | None = COLOUR_SCATTER_RANGE
     luminosity_scatter: float = 0.30
     use_sequence: bool = True
     type_range: tuple | None = None
@@ -199,6 +233,16 @@ class ClassifySettings:
             value = getattr(self, name)
             if not (isinstance(value, (int, float)) and math.isfinite(value) and value >= 0):
                 raise InputError(f"{name} must be a number >= 0 [mag], got {value!r}")
+        if self.colour_scatter_range is not None:
+            rng = self.colour_scatter_range
+            try:
+                lo, hi = (float(v) for v in rng)
+            except (TypeError, ValueError):
+                raise InputError("colour_scatter_range must be two numbers [mag], e.g. (0.02, 0.30), or None, "
+                                 f"got {rng!r}") from None
+            if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo <= hi):
+                raise InputError(f"colour_scatter_range must be 0 < low <= high [mag], got {rng!r}")
+            object.__setattr__(self, "colour_scatter_range", (lo, hi))
         if not (self.type_step > 0):
             raise InputError(f"type_step must be positive, got {self.type_step!r}")
         object.__setattr__(self, "type_prior", parse_type_prior(self.type_prior))
@@ -390,6 +434,16 @@ def _fit(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySe
         scatter = sequence_colour_scatter(grid, templates, columns, settings.template_scatter)
     marginal = offset_marginal(model, obs.mag[columns], sigma, obs.detected[columns],
                                scatter, prior, **kwargs)
+    if mode == "colours" and grid.kind == "sequence" and settings.colour_scatter_range is not None:
+        # the template scatter an unknown of the object: a scale mixture (see COLOUR_SCATTER_RANGE)
+        ln_zs = []
+        for s in colour_scatter_nodes(settings.colour_scatter_range):
+            sc = (sequence_colour_scatter(grid, templates, columns, s) if "row_residuals" in grid.extra else s)
+            ln_zs.append(offset_marginal(model, obs.mag[columns], sigma, obs.detected[columns],
+                                         sc, prior, **kwargs).ln_evidence)
+        with np.errstate(divide="ignore"):
+            mixed = logsumexp(np.stack(ln_zs), axis=0) - math.log(len(ln_zs))
+        marginal = dataclass_replace(marginal, ln_evidence=mixed)
     ln_z = marginal.ln_evidence
     if not np.any(np.isfinite(ln_z)):
         return None
@@ -411,6 +465,16 @@ def _fit(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifySe
 #: sequence's own colour uncertainty at a type (:func:`sequence_colour_scatter`; 2 subtypes: a
 #: choice, common practice, no source - five rows where the rows are whole subtypes, nine where half).
 SEQUENCE_SCATTER_WINDOW = 2.0
+
+
+def colour_scatter_nodes(scatter_range) -> np.ndarray:
+    """Per-band template scatters [mag] of the colours-only scale mixture: :data:`COLOUR_SCATTER_NODES`
+    midpoints of equal steps in ln sigma over ``scatter_range`` (low, high), equal weights (log-uniform prior)."""
+    lo, hi = (float(v) for v in scatter_range)
+    if hi == lo:
+        return np.array([lo])
+    edges = np.linspace(math.log(lo), math.log(hi), COLOUR_SCATTER_NODES + 1)
+    return np.exp(0.5 * (edges[1:] + edges[:-1]))
 
 
 def sequence_colour_scatter(grid: TemplateGrid, templates, columns, template_scatter: float) -> np.ndarray:
@@ -513,8 +577,12 @@ def _rank(grid: TemplateGrid, obs: _Observations, mode: str, settings: ClassifyS
         total = sequence_colour_scatter(grid, templates, columns, settings.template_scatter)
         extra = np.sqrt(np.clip(total**2 - settings.template_scatter**2, 0.0, None))
         i, j = np.unravel_index(int(np.argmax(extra)), extra.shape)
+        rng = settings.colour_scatter_range
+        per_band = (f"{settings.template_scatter:g} mag per band" if rng is None else
+                    f"per band an unknown of the object, log-uniform on {rng[0]:g}-{rng[1]:g} mag and marginalised "
+                    f"(a scale mixture; chi2 and fit quality at {settings.template_scatter:g} mag)")
         own_notes.append(
-            f"template scatter of the colours-only mode: {settings.template_scatter:g} mag per band plus, in "
+            f"template scatter of the colours-only mode: {per_band}, plus, in "
             "quadrature, the mean sequence's own uncertainty measured from its rows (leave-one-out, "
             f"sequence_colour_scatter): at most {extra[i, j]:.2f} mag ({names[columns][j]} at "
             f"{type_label(grid.type_code[templates][i])}), median {np.median(extra):.3f} mag")
@@ -804,4 +872,8 @@ def _mode_notes(notes, modes, obs, settings):
             f"colours-only mode: offset flat over {OFFSET_PRIOR_WIDTH:g} mag (distance modulus "
             f"{OFFSET_PRIOR_LOWER:g} to {OFFSET_PRIOR_LOWER + OFFSET_PRIOR_WIDTH:g} mag for absolutely "
             "calibrated templates)")
-    notes.append(f"template scatter {settings.template_scatter:g} mag per band added to the observed errors")
+    rng = settings.colour_scatter_range
+    mixed = "colours" in modes and rng is not None and settings.use_sequence
+    notes.append(f"template scatter {settings.template_scatter:g} mag per band added to the observed errors"
+                 + (f" (the dwarf sequence in the colours-only mode: marginalised over {rng[0]:g}-{rng[1]:g} mag, "
+                    "see colour_scatter_range)" if mixed else ""))

@@ -410,7 +410,8 @@ class Classification:
             "probability": "posterior probability within its (mode, source) ranking",
             "offset": "colours mode: implied distance modulus; distance mode: deviation from the host's",
             "chi2": "minimum over the offset (limits enter as -2 ln P; distance mode includes the prior term)",
-            "ln_evidence": "ln marginal likelihood over the offset, normalisation terms included",
+            "ln_evidence": "ln marginal likelihood over the offset (and over colour_scatter_range in the "
+                           "colours-only mode for the dwarf sequence), normalisation terms included",
             "bands": "observed bands used by this ranking",
             "p_value": "chi2 survival probability of this row's fit (nan: not testable)",
             "poor_fit": "p_value below the poor-fit threshold: this template does not fit",
