@@ -12,9 +12,13 @@ polarisability of a coated sphere (Bohren & Huffman 1983, ch. 5; from memory).
 One published worked case, through the coated-sphere code in its homogeneous
 limit: the sample output of the BHMIE program (Bohren & Huffman 1983,
 Appendix A; from memory, its printed 5 decimals; miepython gives the same
-numbers). No published coated-sphere (BHCOAT, Appendix B) or hollow-sphere
-numbers are quoted: none could be recalled reliably, and the scattnlay
-comparisons stand in for them.
+numbers). Published coated-sphere numbers, found on the TPDSci page of
+Jonasz (2009, "Scattering by a coated sphere: Test values",
+www.tpdsci.com/Tpc/ScaCtSphTestVal.php and its Table 1 page
+ScaCtSphTestValLiu2007.php): the case of Sun et al. (2004) quoted there, and
+Jonasz's Table 1 (a soot core in a water shell, x up to 5000, two independent
+programs agreeing to the digits printed). No published hollow-sphere numbers
+are quoted (none found).
 """
 
 from __future__ import annotations
@@ -184,6 +188,33 @@ def test_bohren_huffman_sample_output_through_the_coated_code(fraction):
     assert float(e.q_ext) == pytest.approx(3.10543, abs=5e-6)
     assert float(e.q_sca) == pytest.approx(3.10543, abs=5e-6)
     assert float(e.q_back) == pytest.approx(2.92534, abs=5e-6)
+
+
+def test_published_coated_sphere_of_sun_et_al_2004():
+    # Sun W. et al. (2004), as quoted by Jonasz M. (2009), "Scattering by a coated sphere: Test
+    # values", Topics in Particle and Dispersion Science, www.tpdsci.com/Tpc/ScaCtSphTestVal.php
+    # (the journal paper itself not seen here): core size parameter 10, shell 12, core index
+    # 1.2 - 0.1i, shell 1.1 - 0.05i (the exp(+i omega t) convention; n + ik here):
+    # Q_ext = 2.162570, Q_sca = 1.143033, Q_abs = 1.019536 (Jonasz's own code: Q_sca = 1.143034).
+    e = coated.coated_efficiencies(1.2 + 0.1j, 1.1 + 0.05j, 12.0, (10.0 / 12.0) ** 3)
+    assert float(e.q_ext) == pytest.approx(2.162570, abs=1e-6)
+    assert float(e.q_sca) == pytest.approx(1.143033, abs=1e-6)   # the last printed digit
+    assert float(e.q_abs) == pytest.approx(1.019536, abs=1e-6)
+
+
+@pytest.mark.parametrize("x,q_ext,q_sca", [(1, 0.366043, 0.124027), (10, 2.210291, 2.206762),
+                                           (40, 1.987762, 1.987576), (70, 2.021424, 2.021344),
+                                           (100, 2.101052, 2.101013), (500, 2.030372, 2.030371),
+                                           (1000, 2.016579, 2.016578), (5000, 2.005736, 2.005736)])
+def test_published_soot_core_in_a_water_shell(x, q_ext, q_sca):
+    # Jonasz M. (2009), "Scattering by a coated sphere: Test values", Table 1,
+    # www.tpdsci.com/Tpc/ScaCtSphTestValLiu2007.php: shell index 1.33 - 0i, core 1.59 - 0.66i
+    # (n + ik here), core size parameter 0.5, shell size parameter x; Q_ext and Q_sca from the
+    # program of Liu et al. (2007, China Particuology 5, 230) and Jonasz's calculator, which
+    # agree to the 6 decimals printed.
+    e = coated.coated_efficiencies(1.59 + 0.66j, 1.33 + 0j, float(x), (0.5 / x) ** 3)
+    assert float(e.q_ext) == pytest.approx(q_ext, abs=1e-6)
+    assert float(e.q_sca) == pytest.approx(q_sca, abs=1e-6)
 
 
 @pytest.mark.parametrize("m_core,m_mantle,x,fraction", [(1.0 + 0j, 1.5 + 0.1j, 1000.0, 0.8),
