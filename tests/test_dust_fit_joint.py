@@ -62,6 +62,28 @@ def test_joint_is_the_sum_of_the_parts_and_batches():
     assert int(np.argmax(prob.thermal_ln_likelihood(a_mins))) == 2
 
 
+class _ThermalWithRange(_Thermal):
+    """Stand-in that, like the fast path, refuses a whole batch when one point is outside its range."""
+
+    def evaluate(self, fractions, porosity, a_min, a_max, q, radius_au):
+        from motes.errors import ModelError
+
+        if (np.asarray(a_min) > 9.0).any():
+            raise ModelError("grains would be colder than the temperature table")
+        return super().evaluate(fractions, porosity, a_min, a_max, q, radius_au)
+
+
+def test_one_point_outside_the_model_range_does_not_zero_its_batch():
+    prob, truth = _problem()
+    prob.thermal.colour_model = _ThermalWithRange()
+    theta = np.vstack([truth, truth, truth])
+    theta[1, 3] = 9.5                                   # this point alone is outside the model's range
+    lnl = prob.thermal_ln_likelihood(theta)
+    alone = prob.thermal_ln_likelihood(truth)[0]
+    assert lnl[0] == alone and lnl[2] == alone and alone > -1e299
+    assert lnl[1] <= -1e299
+
+
 def test_calibration_term_widens_the_thermal_likelihood():
     tight, truth = _problem(0.0)
     loose, _ = _problem(0.2)

@@ -100,6 +100,24 @@ def test_other_description_is_refused_and_fresh_restarts(tmp_path, toy_fit):
     assert len(res.models) == 1
 
 
+def test_run_of_an_older_format_version_is_not_resumed(tmp_path, toy_fit):
+    """FIT_FORMAT_VERSION guards what a resumed sampler state may mix with (2 since the thermal fast path's
+    likelihood changed, issue 13): a run folder stamped with another version is refused, --fresh restarts."""
+    from motes.dust.fit.results import FIT_FORMAT_VERSION
+
+    toy_fit.write_text(toy_fit.read_text().replace('set = "each-removed"', 'set = "list"\nlist = [["alpha"]]'))
+    out = tmp_path / "run"
+    run_fit(toy_fit, FitRunSettings(output=out, progress=False), model_factory=toy_factory, **QUIET)
+    state = json.loads((out / "fit_state.json").read_text())
+    assert state["format_version"] == FIT_FORMAT_VERSION == 2
+    (out / "fit_state.json").write_text(json.dumps({**state, "format_version": 1}))
+    with pytest.raises(FitError, match="another format"):
+        run_fit(toy_fit, FitRunSettings(output=out, resume=True, progress=False), model_factory=toy_factory,
+                **QUIET)
+    run_fit(toy_fit, FitRunSettings(output=out, fresh=True, progress=False), model_factory=toy_factory, **QUIET)
+    assert json.loads((out / "fit_state.json").read_text())["format_version"] == 2
+
+
 def test_foreign_folder_is_not_touched(tmp_path, toy_fit):
     out = tmp_path / "busy"
     out.mkdir()

@@ -198,8 +198,8 @@ def test_user_sublimation_temperature_and_belt(tmp_path):
     (THERMAL, "", 'extrapolation = "dielectric"', r"\[star\].*luminosity"),
     (THERMAL + "\ndust_mass_mearth = 0.1", "luminosity = 1.0", 'extrapolation = "dielectric"',
      "exactly one of dust_mass_mearth"),
-    (THERMAL.replace("40.0", "[10.0, 50.0]"), "luminosity = 1.0", 'extrapolation = "dielectric"',
-     "surface_density_index"),
+    (THERMAL.replace("40.0", "[10.0, 50.0]") + "\nsurface_density_index = 11.0", "luminosity = 1.0",
+     'extrapolation = "dielectric"', r"surface_density_index.*\[-10, 10\]"),
     (THERMAL + "\nring_radius = 3", "luminosity = 1.0", 'extrapolation = "dielectric"', "ring_radius"),
 ])
 def test_bad_thermal_input_is_refused(tmp_path, thermal, luminosity, rule, match):

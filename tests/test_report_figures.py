@@ -553,3 +553,35 @@ def test_thermal_sed_figure_of_a_joint_fit(tmp_path):
     assert png.is_file() and png.stat().st_size > 10_000
     with pytest.raises(ValueError, match="no thermal fluxes"):
         plot_thermal_fit(_model_result(("silica", "ice")), tmp_path / "none.png")
+
+
+@pytest.mark.parametrize("names", [("porosity", "a_min", "scale", "thermal_scale"),
+                                   ("porosity", "a_min", "q", "scale", "thermal_scale"),
+                                   ("porosity", "a_min", "q", "ring_radius", "scale")])
+def test_corner_texts_do_not_overlap(names):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from motes.report.corner_figure import draw_corner
+
+    base = _model_result(("silica", "ice"))
+    rng = np.random.default_rng(7)
+    n = base.samples.shape[0]
+    pool = {"porosity": rng.uniform(0, 0.8, n), "a_min": np.exp(rng.normal(0.5, 0.3, n)),
+            "q": rng.normal(3.6, 0.1, n), "ring_radius": rng.normal(60.0, 3.0, n),
+            "scale": np.exp(rng.normal(-9.0, 0.2, n)), "thermal_scale": np.exp(rng.normal(3.0, 0.2, n))}
+    samples = np.column_stack([pool[k] for k in names])
+    model = dataclasses.replace(base, sample_names=names, samples=samples, best=dict(zip(names, samples[0])))
+    fig = draw_corner(model, truth={"porosity": 0.3})
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw(renderer)
+    grid = [ax for ax in fig.axes if ax.get_subplotspec() is not None and ax.axison]     # drawn panels
+    insets = [ax for ax in fig.axes if ax.get_subplotspec() is None]
+    texts = [fig._suptitle] + [ax.title for ax in grid if ax.get_title()]
+    texts += [t for ax in insets for t in [ax.xaxis.label] + ax.get_xticklabels() if t.get_text()]
+    texts += [t for ax in grid for t in ax.get_xticklabels() + ax.get_yticklabels() if t.get_text()]
+    boxes = [t.get_window_extent(renderer) for t in texts]
+    for a in range(len(boxes)):
+        for b in range(a + 1, len(boxes)):
+            assert not boxes[a].overlaps(boxes[b]), (texts[a].get_text(), texts[b].get_text())
+    for box in boxes:                              # nothing beyond the figure (the tight bbox would grow)
+        assert box.x0 >= -1 and box.x1 <= fig.bbox.width + 1

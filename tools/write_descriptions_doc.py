@@ -147,7 +147,20 @@ def _show(value) -> str:
         return str(value)
     if isinstance(value, (tuple, list, dict)) and not value:
         return "none"
+    if isinstance(value, (tuple, list)) and all(isinstance(v, (bool, int, float, str)) for v in value):
+        return "`[" + ", ".join(_toml_scalar(v) for v in value) + "]`"      # as written in the TOML
     return f"`{value!r}`"
+
+
+def _toml_scalar(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, str):
+        return f'"{value}"'
+    if isinstance(value, float):
+        text = f"{value:g}"
+        return text if any(c in text for c in ".en") else text + ".0"    # a float stays a float in TOML
+    return str(value)
 
 
 def _merge(base: dict, override: dict) -> dict:
@@ -270,6 +283,12 @@ def sections() -> list[Section]:
                                       "meaning": "upper end of the uniform A_V prior [0, av_max]"},
                            "av_steps": {"allowed": ">= 3", "meaning": "grid points of the A_V marginalisation"},
                            "template_scatter": {"allowed": ">= 0"},
+                           "colour_scatter_range": {"type": "array of 2 numbers", "allowed": "0 < low <= high",
+                                                    "meaning": "colours-only mode: the dwarf sequence's per-band "
+                                                    "template scatter is marginalised over a log-uniform prior "
+                                                    "on [low, high] (a scale mixture; default 0.02-0.30, argued "
+                                                    "in docs/companion.md); chi2 and fit quality stay at "
+                                                    "`template_scatter`; equal bounds give one fixed scatter"},
                            "luminosity_scatter": {"allowed": ">= 0"},
                            "type_step": {"unit": "subtypes", "allowed": "> 0"},
                            "sequence_file": {"type": "string (path)"},
@@ -380,8 +399,8 @@ def sections() -> list[Section]:
             "distance_pc", "sublimation_k", "sizes_per_efold", "flux_sizes_per_efold", "radial_nodes")), {
             "radius_au": Key("number or [r_in, r_out]", "au", "required", "> 0, r_in < r_out",
                              "a ring's radius, or a belt's inner and outer radius"),
-            "surface_density_index": Key("number", "", "required for a belt", "[-10, 10]",
-                                         "belt only: surface density Σ ∝ r^p"),
+            "surface_density_index": _param("surface_density_index", meaning="belt only: surface density "
+                                                                             "Σ ∝ r^p (-1: common practice, no source)"),
             "bands": Key("array of strings", default="required", allowed="band identifiers or [bands.NAME] names",
                          meaning="bands of the thermal fluxes (photon-counting averages, no colour correction)"),
             "dust_mass_mearth": Key("number", "M_earth", "one of the two", "> 0",
@@ -427,6 +446,12 @@ def sections() -> list[Section]:
                                        "(needs [star] luminosity and mass)"),
         }, note='Written `porosity = { prior = "uniform", lower = 0.0, upper = 0.8 }`.'),
         Section(FIT, "[thermal] (fit)", FIT_KEYS["thermal"], {
+            "belt_au": Key("[r_in, r_out]", "au", "none (a ring: [parameters] ring_radius)",
+                           "0 < r_in < r_out, r_in outside the sublimation radius",
+                           "a belt with fixed edges instead of a ring (not with ring_radius)"),
+            "surface_density_index": _param("surface_density_index", meaning="belt only: surface density "
+                                                                             "Σ ∝ r^p (-1: common practice, no source)"),
+            "radial_nodes": Key("integer", "", "6", "[2, 64]", "belt only: Gauss nodes in ln r of the fast path"),
             "distance_pc": Key("number", "pc", "none", "> 0", "the star's distance, for the model photosphere in Jy "
                                                               "(required with [data] thermal)"),
             "calibration": Key("number", "", "0", "[0, 10]", "fractional calibration error added in quadrature to "

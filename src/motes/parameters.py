@@ -172,6 +172,12 @@ PARAMETERS: MappingProxyType = MappingProxyType({p.name: p for p in (
               "distance of the ring's grains from the star (joint fits with thermal data)"),
     Parameter("thermal_scale", "scale", u.AU**2, 0.0, _INF, False, True,
               "total grain cross-section seen in the thermal data (joint fits)"),
+    # a belt instead of a ring (r_in to r_out): surface density Sigma ∝ r^p. p = -1 is a usual choice for
+    # debris belts (common practice, no source); |p| <= 10 keeps r^(p+2) within floating point over any
+    # belt of the thermal side.
+    Parameter("surface_density_index", "thermal", _NONE, -10.0, 10.0, False, False,
+              "power-law index p of a belt's surface density, Sigma ∝ r^p (fixed; a belt of the thermal side)",
+              default=-1.0),
 )})
 
 #: Effective temperature of a star (a photometry target's host, the star lighting a disk). 500-100000 K

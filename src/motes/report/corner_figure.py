@@ -17,6 +17,8 @@ when given, an invented truth as lines and a star.
 
 from __future__ import annotations
 
+import textwrap
+
 import numpy as np
 
 from .figure_style import DATA_COLOUR, SERIES_COLOURS, TRUTH_COLOUR, colour_map, new_figure
@@ -26,6 +28,7 @@ __all__ = ["draw_corner", "credible_levels", "CORNER_LEVELS"]
 #: probability enclosed by the 2-D contours: the 1- and 2-sigma regions of a 2-D Gaussian, 1 - exp(-k^2/2)
 CORNER_LEVELS = (1.0 - np.exp(-0.5), 1.0 - np.exp(-2.0))
 _NUISANCE = ("scale", "systematic", "thermal_scale")
+_TITLE_PT, _SUMMARY_PT, _INSET_PT = 6.5, 6.5, 6.0      # font sizes [pt] of the title, the diagonal summaries, insets
 _LOG_AXES = {"a_min": "log10 a_min [µm]", "a_max": "log10 a_max [µm]",
              "thermal_scale": "log10 thermal scale [au²]"}
 _LABELS = {"porosity": "porosity", "q": "size slope q", "angle": "angle [deg]", "ring_radius": "ring radius [au]",
@@ -88,6 +91,23 @@ def _truth_value(truth, key):
     return value
 
 
+def _inner_ticks(lo: float, hi: float, low_margin: float, high_margin: float, n: int = 3) -> np.ndarray:
+    """At most ``n + 1`` round tick values kept the given fractions of the span away from the axis ends.
+
+    Rotated tick labels reach left of their tick, so an edge tick's label would run into the
+    neighbouring panel's labels; ticks are therefore kept off the ends (at least two stay).
+    """
+    from matplotlib.ticker import MaxNLocator
+
+    a, b = lo + low_margin * (hi - lo), hi - high_margin * (hi - lo)
+    for bins in (n, n + 1, n + 3):
+        ticks = MaxNLocator(bins).tick_values(a, b)
+        ticks = ticks[(ticks >= a - 1e-12 * abs(b - a)) & (ticks <= b + 1e-12 * abs(b - a))]
+        if ticks.size >= 2:
+            return ticks
+    return np.array([a, b])
+
+
 def draw_corner(model, truth=None, bins: int | None = None):
     """Draw the corner figure of ``model`` (a :class:`~motes.dust.fit.results.ModelResult`).
 
@@ -95,16 +115,34 @@ def draw_corner(model, truth=None, bins: int | None = None):
     {material: f}, "porosity": ..., "a_min": ...}``; absent keys are not drawn.
     Returns the :class:`matplotlib.figure.Figure`.
     """
-    from matplotlib.ticker import MaxNLocator
+    from matplotlib.ticker import FixedLocator
     from scipy.ndimage import gaussian_filter
 
     main, nuisance = _columns(model)
     p = len(main)
     if bins is None:      # about sqrt(N)/1.5 bins: few samples, coarse bins (common practice, no source)
         bins = int(np.clip(np.sqrt(np.asarray(model.samples).shape[0]) / 1.5, 10, 30))
+    title = (f"Posterior of {model.name}: contours enclose 39% and 86% (2-D 1σ, 2σ); "
+             f"dashes 16/84%, × maximum likelihood")
+    if truth:
+        title += "; dotted: invented truth"
     fig = new_figure(2 if p > 3 else 1, aspect=1.0)
+    width = fig.get_figwidth()
+    # the title wrapped to the figure width (about 0.5 em a character), so it neither overlaps the
+    # panels nor widens the saved (tight) figure
+    title = "\n".join(textwrap.wrap(title, int(width * 72 / (0.5 * _TITLE_PT)) - 4))
+    lines = title.count("\n") + 1
+    # margins and gaps in inch: room for the title, the summaries above the diagonal panels
+    # and the rotated tick labels; the grid stays square
+    left, right, bottom, gap_x, gap_y = 0.5, 0.08, 0.55, 0.06, 0.17
+    top = lines * _TITLE_PT * 1.25 / 72 + 0.06 + (_SUMMARY_PT + 4) / 72 + 0.04
+    grid = width - left - right
+    height = grid + bottom + top
+    fig.set_size_inches(width, height)
+    cell = (grid - (p - 1) * gap_x) / p
     axes = fig.subplots(p, p, squeeze=False)
-    fig.subplots_adjust(left=0.1, right=0.98, bottom=0.1, top=0.93, wspace=0.07, hspace=0.07)
+    fig.subplots_adjust(left=left / width, right=1 - right / width, bottom=bottom / height, top=1 - top / height,
+                        wspace=gap_x / cell, hspace=gap_y / ((grid - (p - 1) * gap_y) / p))
     data = [c[1] for c in main]
     lo = [np.nanpercentile(v, 0.5) for v in data]
     hi = [np.nanpercentile(v, 99.5) for v in data]
@@ -127,7 +165,7 @@ def draw_corner(model, truth=None, bins: int | None = None):
                 q16, q50, q84 = np.percentile(xi[ok], [16, 50, 84])
                 for q, ls in ((q16, "--"), (q50, "-"), (q84, "--")):
                     ax.axvline(q, color=DATA_COLOUR, lw=0.7, ls=ls)
-                ax.set_title(f"{q50:.3g} (+{q84 - q50:.2g} / −{q50 - q16:.2g})", fontsize=6.5)
+                ax.set_title(f"{q50:.3g} (+{q84 - q50:.2g} / −{q50 - q16:.2g})", fontsize=_SUMMARY_PT, pad=2)
                 ax.set_yticks([])
                 if np.isfinite(tj):
                     ax.axvline(tj, color=TRUTH_COLOUR, lw=1.0, ls=":")
@@ -153,9 +191,9 @@ def draw_corner(model, truth=None, bins: int | None = None):
                     ax.plot(tj, ti, "*", color=TRUTH_COLOUR, ms=6)
                 ax.set_ylim(lo[i], hi[i])
             ax.set_xlim(lo[j], hi[j])
-            ax.xaxis.set_major_locator(MaxNLocator(3, prune="both"))
+            ax.xaxis.set_major_locator(FixedLocator(_inner_ticks(lo[j], hi[j], 0.18, 0.06)))
             if i != j:
-                ax.yaxis.set_major_locator(MaxNLocator(3, prune="both"))
+                ax.yaxis.set_major_locator(FixedLocator(_inner_ticks(lo[i], hi[i], 0.08, 0.08)))
             ax.tick_params(labelsize=6.5, top=False, right=False)
             if i == p - 1:
                 ax.set_xlabel(main[j][0], fontsize=7)
@@ -168,18 +206,26 @@ def draw_corner(model, truth=None, bins: int | None = None):
                 ax.set_ylabel(main[i][0], fontsize=7)
             elif j > 0 or i == 0:
                 ax.set_yticklabels([])
-    # the nuisance parameters: small marginals in the empty corner, no row of their own
-    for k, (label, v, best, _key) in enumerate(nuisance):
-        inset = fig.add_axes([0.70 - 0.0 * k, 0.83 - 0.14 * k, 0.26, 0.08])
-        ok = np.isfinite(v)
-        inset.hist(v[ok], bins=bins, color="0.55", histtype="step", lw=0.9)
-        inset.set_yticks([])
-        inset.xaxis.set_major_locator(MaxNLocator(3))
-        inset.tick_params(labelsize=6, top=False, right=False)
-        inset.set_xlabel(f"{label} (nuisance)", fontsize=6.5, labelpad=1)
-    title = (f"Posterior of {model.name}: contours enclose 39% and 86% (2-D 1σ, 2σ); "
-             f"dashes 16/84%, × maximum likelihood")
-    if truth:
-        title += "; dotted: invented truth"
-    fig.suptitle(title, fontsize=7 if p > 3 else 6)
+    # the nuisance parameters: small marginals in the empty upper-right triangle, no row of their own:
+    # the block of empty cells rows 0..r-1, columns r..p-1, stacked top down, right-aligned, each with
+    # room below for its tick labels and label; kept clear of the summary above panel (r-1, r-1),
+    # which runs a little into column r
+    if nuisance:
+        r = max(1, p // 2)
+        pos_tl, pos_br = axes[0, r].get_position(), axes[r - 1, p - 1].get_position()
+        clear = (0.3 if r >= 2 else 0.05) / width
+        x0, x1, y0, y1 = pos_tl.x0 + clear, pos_br.x1, pos_br.y0, pos_tl.y1
+        slot = (y1 - y0) / len(nuisance)
+        below = (_INSET_PT * 2 * 1.2 + 6) / 72 / height        # tick labels, label, pads [figure fraction]
+        h = max(min(0.32 / height, slot - below - 0.05 / height), 0.12 / height)
+        w = min(x1 - x0, 1.7 / width)
+        for k, (label, v, best, _key) in enumerate(nuisance):
+            inset = fig.add_axes([x1 - w, y1 - k * slot - h - 0.02 / height, w, h])
+            ok = np.isfinite(v)
+            inset.hist(v[ok], bins=bins, color="0.55", histtype="step", lw=0.9)
+            inset.set_yticks([])
+            inset.xaxis.set_major_locator(FixedLocator(_inner_ticks(*inset.get_xlim(), 0.1, 0.1)))
+            inset.tick_params(labelsize=_INSET_PT, top=False, right=False)
+            inset.set_xlabel(f"{label} (nuisance)", fontsize=_INSET_PT, labelpad=1)
+    fig.suptitle(title, fontsize=_TITLE_PT, y=1 - 0.04 / height, va="top")
     return fig

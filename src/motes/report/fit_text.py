@@ -65,8 +65,11 @@ def _thermal_model_lines(m) -> list[str]:
     d, t = getattr(m, "thermal", None), getattr(m, "thermal_fluxes", None)
     if not d:
         return []
-    lines = [f"  thermal (best fit, exact path): L_dust/L_star = {_fmt(d['fractional_luminosity'])}, ring radius "
-             f"{_fmt(d['radius_au'])} au, blackbody radius {_fmt(d['blackbody_radius_au'])} au, r / r_bb = "
+    where = (f"ring radius {_fmt(d['radius_au'])} au" if "belt_au" not in d else
+             f"belt {d['belt_au'][0]:g}-{d['belt_au'][1]:g} au (Σ ∝ r^{d['surface_density_index']:g}, mean radius "
+             f"{_fmt(d['radius_au'])} au)")
+    lines = [f"  thermal (best fit, exact path): L_dust/L_star = {_fmt(d['fractional_luminosity'])}, {where}"
+             f", blackbody radius {_fmt(d['blackbody_radius_au'])} au, r / r_bb = "
              f"{_fmt(d['radius_over_blackbody_radius'])}, dust temperature {_fmt(d['dust_temperature_K'])} K; "
              f"chi2 scattered {d['best_chi2_scattered']:.2f}, thermal {d['best_chi2_thermal']:.2f}"]
     flags = [f"  FLAG: {f}" for f in d.get("flags", ())]

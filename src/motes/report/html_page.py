@@ -531,7 +531,11 @@ def write_fit_page(result, printed: str, references=(), folder=None) -> Path:
             d = m.thermal
             tables.append(PageTable(
                 f"model {m.name}: thermal side at the best fit (exact path)", ("quantity", "value"),
-                (("L_dust / L_star", d["fractional_luminosity"]), ("ring radius [au]", d["radius_au"]),
+                (("L_dust / L_star", d["fractional_luminosity"]),
+                 *((("belt [au]", f"{d['belt_au'][0]:g}-{d['belt_au'][1]:g} (surface density ∝ "
+                                  f"r^{d['surface_density_index']:g})"),
+                    ("mean radius [au]", d["radius_au"])) if "belt_au" in d else
+                   (("ring radius [au]", d["radius_au"]),)),
                  ("blackbody radius [au]", d["blackbody_radius_au"]),
                  ("r / r_blackbody", d["radius_over_blackbody_radius"]), ("dust temperature [K]", d["dust_temperature_K"]),
                  ("sublimation flags", "; ".join(d.get("flags", ())) or "none"))))

@@ -53,6 +53,8 @@ __all__ = [
     "parameter_unit",
     "summarise_posterior",
     "EVIDENCE_VS_PROFILE_NOTE",
+    "NEEDED_LN_B",
+    "NOT_NEEDED_LN_B",
     "BestFitContrast",
     "best_fit_contrasts",
 ]
@@ -77,6 +79,9 @@ SEED_SCATTER_FACTOR = 1.1
 STRENGTH_SCALE = ((1.0, "hardly any"), (3.0, "modest"), (5.0, "firm"), (math.inf, "overwhelming"))
 
 _NEEDED, _NOT_NEEDED = 3.0, -1.0
+#: The ln B thresholds of VERDICT_RULE: "needed" when ln B - 2 sigma >= NEEDED_LN_B, "not needed" when
+#: ln B + 2 sigma <= NOT_NEEDED_LN_B.
+NEEDED_LN_B, NOT_NEEDED_LN_B = _NEEDED, _NOT_NEEDED
 
 
 def strength_of(ln_b: float) -> str:

@@ -11,7 +11,10 @@ What is tied and what is free
   priors; nothing ties the two unless a ring geometry fixes both, which this
   module does not do.
 * The ring radius is fixed (:class:`JointProblem` ``radius_au``) or a
-  parameter of the space (``ring_radius``, sampled with its prior). A
+  parameter of the space (``ring_radius``, sampled with its prior); or the
+  thermal model is a belt with fixed edges and surface density index
+  (:class:`motes.dust.model.thermal_belt.ThermalBeltModel`), tied the same
+  way (:func:`tied_text`). A
   radius from the SED alone is degenerate with a_min: smaller, hotter grains
   further out give nearly the same SED as larger, cooler grains further in,
   so a free radius needs a prior from imaging.
@@ -39,7 +42,8 @@ from ..likelihood import (ScalePrior, chi_square_with_best_scale, draw_scale, ef
 from ..observations import DiskPhotometry
 from .problem import ZERO_LIKELIHOOD
 
-__all__ = ["thermal_excess_photometry", "ThermalProblem", "JointProblem", "JOINT_PARTS", "TIED", "FREE"]
+__all__ = ["thermal_excess_photometry", "ThermalProblem", "JointProblem", "JOINT_PARTS", "TIED", "FREE",
+           "tied_text", "is_belt"]
 
 #: The evidence runs of a joint fit: both data sets, each alone.
 JOINT_PARTS = ("joint", "scattered", "thermal")
@@ -47,6 +51,28 @@ JOINT_PARTS = ("joint", "scattered", "thermal")
 TIED = "composition (volume fractions), grain model, porosity, a_min, q, a_max, ring radius"
 FREE = ("the two flux scales: the scattered-light scale and the thermal scale (total grain cross-section "
         "[au^2]), each marginalised under its own log-uniform prior")
+
+
+def is_belt(thermal_model) -> bool:
+    """Whether a thermal model is a belt (fixed radii) rather than a ring (radius per point)."""
+    return getattr(thermal_model, "belt_au", None) is not None
+
+
+def tied_text(thermal_model=None) -> str:
+    """:data:`TIED` for a ring; for a belt its fixed edges and surface density index in place of the radius.
+
+    Examples
+    --------
+    >>> class Belt:
+    ...     belt_au, surface_density_index = (40.0, 90.0), -1.0
+    >>> print(tied_text(Belt()).split("a_max, ")[-1])
+    belt 40-90 au (fixed edges, surface density ∝ r^-1, the same grains at every radius)
+    """
+    if not is_belt(thermal_model):
+        return TIED
+    (r_in, r_out), p = thermal_model.belt_au, thermal_model.surface_density_index
+    return TIED.replace("ring radius", f"belt {r_in:g}-{r_out:g} au (fixed edges, surface density ∝ r^{p:g}, "
+                                       "the same grains at every radius)")
 
 
 @accepts_quantities
@@ -120,7 +146,9 @@ class ThermalProblem:
         self._star = np.asarray(thermal_model.star_flux, dtype=float)
 
     def radius(self, p) -> np.ndarray:
-        """Ring radius [au] of unpacked parameters ``p``."""
+        """Ring radius [au] of unpacked parameters ``p`` (a belt's cross-section-weighted mean radius)."""
+        if is_belt(self.colour_model):
+            return np.full(p["porosity"].shape, float(self.colour_model.mean_radius))
         if "ring_radius" in p:
             return p["ring_radius"]
         return np.full(p["porosity"].shape, float(self.radius_au))
@@ -128,8 +156,9 @@ class ThermalProblem:
     def model_fluxes(self, theta) -> np.ndarray:
         """Model band fluxes [Jy per au^2 of cross-section at the data's distance], ndarray[N, B]."""
         p = self.space.unpack(np.atleast_2d(theta))
+        where = () if is_belt(self.colour_model) else (self.radius(p),)     # a belt's radii are its own
         return np.atleast_2d(self.colour_model.evaluate(p["fractions"], p["porosity"], p["a_min"], p["a_max"],
-                                                        p["q"], self.radius(p)))
+                                                        p["q"], *where))
 
     def model_ratios(self, theta) -> np.ndarray:
         """Model excesses per au^2 of cross-section, ndarray[N, B]."""
@@ -141,7 +170,11 @@ class ThermalProblem:
         try:
             ratio = self.model_ratios(theta)
         except MotesError:
-            return np.full(theta.shape[0], ZERO_LIKELIHOOD)
+            if theta.shape[0] == 1:
+                return np.full(1, ZERO_LIKELIHOOD)
+            # one point of the batch is outside the model's range (e.g. grains hotter or colder than the
+            # temperature table): that point alone has zero likelihood, not its whole batch
+            return np.concatenate([self.ln_likelihood(row[None, :]) for row in theta])
         bad = ~np.all(np.isfinite(ratio) & (ratio >= 0), axis=-1)
         ratio = np.where(bad[:, None], 1.0, ratio)
         out, _ = ln_marginal_likelihood(ratio, self.obs, self.space.scale, self.space.calibration)
@@ -170,12 +203,13 @@ class JointProblem:
     ----------
     scattered : motes.dust.fit.problem.FitProblem
         The scattered-light problem (its parameter space is the joint one).
-    thermal_model : ThermalRingModel
+    thermal_model : ThermalRingModel or ThermalBeltModel
         Band fluxes [Jy per au^2] of the same materials, bands in the order of ``thermal_obs``.
     thermal_obs : DiskPhotometry
         From :func:`thermal_excess_photometry`.
     radius_au : float or None [au]
-        Ring radius when the space has no ``ring_radius`` parameter.
+        Ring radius when the space has no ``ring_radius`` parameter (None for a belt, whose
+        radii are fixed; a belt with a ``ring_radius`` in the space or a radius is refused).
     thermal_scale : ScalePrior
         Prior of the total cross-section [au^2].
     calibration : float
@@ -186,7 +220,12 @@ class JointProblem:
 
     def __init__(self, scattered, thermal_model, thermal_obs: DiskPhotometry, radius_au=None,
                  thermal_scale: ScalePrior = ScalePrior(1e-6, 1e6), calibration: float = 0.0, which: str = "joint"):
-        if radius_au is None:
+        if is_belt(thermal_model):
+            if radius_au is not None or getattr(scattered.space, "ring_radius", None) is not None:
+                raise InputError("a belt's radii are fixed by its edges: give no radius_au and no ring_radius",
+                                 where="radius_au")
+            r = None
+        elif radius_au is None:
             if getattr(scattered.space, "ring_radius", None) is None:
                 raise InputError("the ring radius is needed: give radius_au or a space with ring_radius",
                                  where="radius_au")
@@ -211,6 +250,11 @@ class JointProblem:
     @property
     def space(self):
         return self.scattered.space
+
+    @property
+    def tied(self) -> str:
+        """What both data sets share (:func:`tied_text` of the thermal model)."""
+        return tied_text(self.thermal_model)
 
     @property
     def colour_model(self):

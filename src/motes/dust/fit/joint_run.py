@@ -26,10 +26,10 @@ import numpy as np
 
 from ...errors import InputError
 from ..thermal_observations import read_thermal_photometry
-from .joint import FREE, TIED, JointProblem, thermal_excess_photometry
+from .joint import FREE, TIED, JointProblem, thermal_excess_photometry, tied_text
 
 __all__ = ["build_joint_problem", "check_thermal_coverage", "read_fit_thermal", "postprocess_joint",
-           "postprocess_part", "by_data_columns", "driven_by", "JOINT_NOTES", "DRIVEN_BY_RULE"]
+           "postprocess_part", "by_data_columns", "driven_by", "joint_notes", "JOINT_NOTES", "DRIVEN_BY_RULE"]
 
 #: Notes printed with every joint fit.
 JOINT_NOTES = (
@@ -38,6 +38,24 @@ JOINT_NOTES = (
     "out give nearly the SED of larger, cooler grains further in): a free ring_radius needs its prior from "
     "imaging, and a_min and ring_radius posteriors from a joint fit lean on the scattered light.",
 )
+
+
+def joint_notes(thermal_settings=None) -> tuple[str, ...]:
+    """:data:`JOINT_NOTES` for a ring; for a belt (``thermal_settings.belt_au``) what is tied names it.
+
+    Parameters
+    ----------
+    thermal_settings : motes.dust.fit.thermal_spec.ThermalFitSettings, optional
+    """
+    belt = getattr(thermal_settings, "belt_au", None)
+    if belt is None:
+        return JOINT_NOTES
+    tied = tied_text(thermal_settings)           # the settings carry belt_au and surface_density_index
+    return (f"Joint fit: tied between scattered light and thermal emission: {tied}; free: {FREE}.",
+            "The belt's edges and surface density index are fixed, not fitted (from the SED alone they are "
+            "degenerate with a_min, like a ring radius); r / r_bb uses its cross-section-weighted mean radius.")
+
+
 #: How :func:`driven_by` words which data set decided a verdict.
 DRIVEN_BY_RULE = (
     "Which data drove a verdict: a data set 'speaks' when its own |ln B| >= 1 (modest evidence or more); "
@@ -74,12 +92,16 @@ def check_thermal_coverage(spec, thermal) -> None:
 
 def build_joint_problem(spec, model, scattered, part: str = "joint") -> JointProblem:
     """The :class:`JointProblem` of one model (the scattered-light problem already built)."""
+    from ..model.thermal_belt import ThermalBeltModel
     from ..model.thermal_fast import ThermalRingModel
 
     data = read_fit_thermal(spec)
     check_thermal_coverage(spec, data)
     desc = spec.description.subset(model.materials)
     thermal_model = ThermalRingModel(desc, data.bands, distance_pc=spec.thermal.distance_pc)
+    if spec.thermal.belt_au is not None:
+        thermal_model = ThermalBeltModel(thermal_model, spec.thermal.belt_au, spec.thermal.surface_density_index,
+                                         spec.thermal.radial_nodes)
     obs = thermal_excess_photometry(data.bands, data.flux_jy, data.error_jy, thermal_model.star_flux,
                                     path=data.path, is_limit=data.is_limit, limit_sigma=data.limit_sigma)
     problem = JointProblem(scattered, thermal_model, obs, None, spec.thermal.scale, spec.thermal.calibration,
@@ -98,13 +120,18 @@ def _exact_best(spec, model, problem, best_theta, t_scale):
     p = problem.space.unpack(best_theta)
     fr = [float(v) for v in p["fractions"][0]]
     par = {n: float(p[n][0]) for n in ("porosity", "a_min", "q", "a_max")}
-    r = float(problem.thermal.radius(p)[0])
     data = problem.thermal_data
-    settings = ThermalSettings((float(r),), None, tuple(data.bands), None, float(t_scale), spec.thermal.distance_pc,
+    belt = spec.thermal.belt_au
+    where = ((float(problem.thermal.radius(p)[0]),), None) if belt is None else (tuple(belt),
+                                                                                 spec.thermal.surface_density_index)
+    settings = ThermalSettings(*where, tuple(data.bands), None, float(t_scale), spec.thermal.distance_pc,
                                dict(spec.thermal.sublimation_k))
     res = compute_thermal(desc, MixtureParameters(tuple(fr), par["porosity"], par["a_min"], par["q"], par["a_max"]),
                           settings)
-    return {"fractional_luminosity": float(res.fractional_luminosity), "radius_au": float(r),
+    extra = {} if belt is None else {"belt_au": [float(v) for v in belt],
+                                     "surface_density_index": float(spec.thermal.surface_density_index),
+                                     "radius_kind": "cross-section-weighted mean radius of the belt"}
+    return {**extra, "fractional_luminosity": float(res.fractional_luminosity), "radius_au": float(res.mean_radius),
             "blackbody_radius_au": float(res.blackbody_radius), "radius_over_blackbody_radius": float(res.radius_ratio),
             "dust_temperature_K": float(res.dust_temperature), "flags": list(res.flags),
             "exact_band_flux_jy": [float(v) for v in res.band_disk], "notes": list(res.notes)}
@@ -169,7 +196,7 @@ def postprocess_joint(handle, run, spec, obs, folder: Path, sessions):
     derived = _exact_best(spec, handle.model, problem, best_theta, t_best[i])
     derived.update({"best_chi2_scattered": float(chi2_s[i]), "best_chi2_thermal": float(chi2_t[i]),
                     "calibration": spec.thermal.calibration, "distance_pc": spec.thermal.distance_pc,
-                    "tied": TIED, "free": FREE})
+                    "tied": problem.tied, "free": FREE})
     thermal.meta.update({k: v for k, v in derived.items() if k != "exact_band_flux_jy"})
     thermal.meta["model"] = handle.model.name
     thermal.meta["note"] = ("model fluxes from the fast path (posterior median, 68% and 95% bands, best fit); "

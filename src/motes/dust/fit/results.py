@@ -44,8 +44,10 @@ __all__ = [
     "read_model_result",
 ]
 
-#: Version of the run-folder layout and result files.
-FIT_FORMAT_VERSION = 1
+#: Version of the run-folder layout and result files (and of what a resumed sampler state may mix with):
+#: 2 since the thermal fast path's likelihood changed (issue 13: Q_abs interpolation, far-infrared
+#: quadrature; up to a few % in the mm fluxes), so a run or result of version 1 is not resumed or read.
+FIT_FORMAT_VERSION = 2
 
 #: Printed with every fit.
 FIT_CAVEATS = (

@@ -395,10 +395,10 @@ def run_fit(spec, settings: FitRunSettings = FitRunSettings(), *, model_factory=
     notes = list(obs.notes) + _model_notes(handles) + _bound_notes(ordered, handles)
     thermal_obs = None
     if spec.thermal is not None:
-        from .joint_run import JOINT_NOTES, by_data_columns, read_fit_thermal
+        from .joint_run import by_data_columns, joint_notes, read_fit_thermal
 
         thermal_obs = read_fit_thermal(spec)
-        notes = list(JOINT_NOTES) + list(thermal_obs.notes) + notes
+        notes = list(joint_notes(spec.thermal)) + list(thermal_obs.notes) + notes
         for name, values in by_data_columns(verdicts, by_data).items() if by_data else ():
             verdict_table[name] = values
         for part, models in by_data.items():

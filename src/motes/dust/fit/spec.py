@@ -333,7 +333,8 @@ class FitSpec:
     def parameter_space(self, model: ModelSpec, blowout=None) -> ParameterSpace:
         """The :class:`ParameterSpace` of one model."""
         try:
-            extra = {} if self.thermal is None else {"ring_radius": self.thermal.ring_radius}
+            extra = ({} if self.thermal is None or self.thermal.ring_radius is None
+                     else {"ring_radius": self.thermal.ring_radius})
             return ParameterSpace(materials=model.materials, scale=self.scale, sample_scale=self.sample_scale,
                                   blowout=blowout, **self.parameters, **extra)
         except FitError as exc:

@@ -225,13 +225,13 @@ def compute_mixture_optics(description: ModelDescription, mixture: MixtureParame
     hi_ok = min(m.wavelength_range[1] for m in model.materials)
     lam = np.geomspace(max(lo / 1.1, lo_ok), min(hi * 1.1, hi_ok), spectrum_points)
     m_lam = model.effective_index(f[None, :], mixture.porosity, lam)
-    curve = model.node_values_exact(m_lam, lam, mixture.a_min, mixture.q, mixture.a_max,
-                                    sampling=SizeSampling(c0=1e-3))[0]
     pol_curve = None
-    if model.geometry.phase == "mie":
-        pol_curve = model.node_values_exact(m_lam, lam, mixture.a_min, mixture.q, mixture.a_max,
-                                            sampling=SizeSampling(c0=1e-3), quantity="polarised")[0]
+    if model.geometry.phase == "mie":      # total and polarised from one Mie pass
+        curve, pol_curve = (v[0] for v in model.node_values_exact_both(
+            m_lam, lam, mixture.a_min, mixture.q, mixture.a_max, sampling=SizeSampling(c0=1e-3)))
     else:
+        curve = model.node_values_exact(m_lam, lam, mixture.a_min, mixture.q, mixture.a_max,
+                                        sampling=SizeSampling(c0=1e-3))[0]
         notes.append("no polarised intensity: the Henyey-Greenstein phase function carries no polarisation")
     # efficiencies against size at the band pivots
     radius = np.geomspace(0.01, max(mixture.a_max, 10.0), 240)

@@ -29,6 +29,8 @@ __all__ = [
     "TableSpec",
     "build_node",
     "build_tile",
+    "build_nodes",
+    "tail_first_bin",
     "tile_rows",
     "channel_key",
     "rayleigh_exponents",
@@ -163,34 +165,63 @@ def rayleigh_exponents(geometry) -> np.ndarray:
     return np.array([6.0]) if geometry.phase == "mie" else np.array([6.0, 8.0])
 
 
-def build_node(spec: TableSpec, geometry, m: complex, quantity: str = "total", f_max: float | None = None):
+def tail_first_bin(spec: TableSpec) -> int:
+    """First x bin holding samples of the top decade (``t > x_top / 10``) the tail is the mean over."""
+    return max(int(np.floor((np.log(spec.x_top / 10) - spec.ln_x[0]) / spec.dln_x)) - 1, 0)
+
+
+def build_node(spec: TableSpec, geometry, m: complex, quantity: str = "total", f_max: float | None = None,
+               bins=None, tail: bool | None = None):
     """Moments of one (n, k) node (``quantity``: one of :data:`QUANTITIES`; hollow spheres with ``f_max``).
+
+    ``bins``: ``(b0, b1)``, build only x bins b0 .. b1 - 1 (default: all). Every bin's
+    samples and moments depend on that bin alone, so a node built in x ranges equals the
+    whole build bit for bit (tests/test_dust_tiles_lazy_x.py); the tail needs the samples of
+    the top decade, so a range reaching the top also evaluates (without storing them) the
+    samples of that decade below b0. ``tail``: compute the tail (default: when the range
+    reaches the top bin; True needs b1 at the top, and then allows the empty range b0 = b1, the
+    tail alone).
 
     Returns
     -------
-    moments : ndarray[n_channels, x_count - 1, 5]
+    moments : ndarray[n_channels, b1 - b0, 5]
         Per bin, ``sum w s (ln t - ln t_c)^j / 2`` (t_c the bin centre).
     start : ndarray[n_channels]
         ``s(x_min) / 2``, for the Rayleigh part below the table.
     tail : ndarray[n_channels]
-        ``mean s / (2 t^2)`` over the top decade, for the tail above the table.
+        ``mean s / (2 t^2)`` over the top decade, for the tail above the table
+        (0 unless computed).
     """
-    edges = spec.ln_x
+    n_bins_all = spec.x_count - 1
+    b0, b1 = (0, n_bins_all) if bins is None else (int(bins[0]), int(bins[1]))
+    top_needed = b1 == n_bins_all if tail is None else bool(tail)
+    if not (0 <= b0 < b1 <= n_bins_all or (top_needed and b0 == b1 == n_bins_all)) or \
+            (top_needed and b1 != n_bins_all):
+        raise ValueError(f"bin range {bins!r} outside 0..{n_bins_all} (tail {top_needed})")
+    s0 = min(b0, tail_first_bin(spec)) if top_needed else b0
+    edges = spec.ln_x[s0:b1 + 1]
     t, w, owner = bin_rule(edges, spec.sampling, m.imag)
     mm = np.full(t.size, m)
     s = 0.5 * _channels(geometry, mm, t, quantity, f_max)
+    n_ch = s.shape[0]
+    tail = np.zeros(n_ch)
+    if top_needed:
+        top = t > spec.x_top / 10
+        tail = (w[top] * s[:, top] / t[top] ** 2).sum(axis=1) / w[top].sum()
+    if s0 < b0:      # samples evaluated for the tail only
+        keep = owner >= b0 - s0
+        t, w, owner, s = t[keep], w[keep], owner[keep] - (b0 - s0), s[:, keep]
+        edges = spec.ln_x[b0:b1 + 1]
     centre = 0.5 * (edges[1:] + edges[:-1])
     u = np.log(t) - centre[owner]
     n_bins = edges.size - 1
-    moments = np.empty((s.shape[0], n_bins, N_MOMENTS))
+    moments = np.empty((n_ch, n_bins, N_MOMENTS))
     upow = np.ones_like(u)
     for j in range(N_MOMENTS):
-        for c in range(s.shape[0]):
+        for c in range(n_ch):
             moments[c, :, j] = np.bincount(owner, w * s[c] * upow, minlength=n_bins)
         upow = upow * u
     start = 0.5 * _channels(geometry, np.array([m]), np.array([spec.x_min]), quantity, f_max)[:, 0]
-    top = t > spec.x_top / 10
-    tail = (w[top] * s[:, top] / t[top] ** 2).sum(axis=1) / w[top].sum()
     return moments, start, tail
 
 
@@ -204,23 +235,42 @@ def tile_rows(spec: TableSpec, i: int) -> int:
 
 
 def build_tile(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total", f_max: float | None = None,
-               rows=None):
+               rows=None, bins=None):
     """Moments of the (n, k) nodes of tile (i, j); returns (moments, start, tail).
 
     ``rows``: build only these local n rows (0 .. tile - 1) and leave the others zero, so
     that one tile can be split over processes; each node's values do not depend on it.
+    ``bins``: ``(b0, b1)``, only these x bins (moments ``[..., b1 - b0, 5]``; see
+    :func:`build_node`).
     """
     ln_n, kk = spec.ln_n, spec.k
     rows_all = range(i * spec.tile, min((i + 1) * spec.tile, spec.n_count))
     rows = rows_all if rows is None else [rows_all[a] for a in rows]
     cols = range(j * spec.tile, min((j + 1) * spec.tile, spec.k_count))
     n_ch = 1 if (geometry.phase == "mie" or quantity == "polarised") else 2
-    moments = np.zeros((spec.tile, spec.tile, n_ch, spec.x_count - 1, N_MOMENTS))
+    n_bins = spec.x_count - 1 if bins is None else int(bins[1]) - int(bins[0])
+    moments = np.zeros((spec.tile, spec.tile, n_ch, n_bins, N_MOMENTS))
     start = np.zeros((spec.tile, spec.tile, n_ch))
     tail = np.zeros((spec.tile, spec.tile, n_ch))
     for r in rows:
         a = r - i * spec.tile
         for b, c in enumerate(cols):
             m = complex(np.exp(ln_n[r]), kk[c])
-            moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m, quantity, f_max)
+            moments[a, b], start[a, b], tail[a, b] = build_node(spec, geometry, m, quantity, f_max, bins)
     return moments, start, tail
+
+
+def build_nodes(spec: TableSpec, geometry, i: int, j: int, quantity: str = "total", f_max: float | None = None,
+                jobs=()):
+    """Some nodes of tile (i, j), each over an x bin range: ``jobs`` of ``(a, b, b0, b1)`` (local n row a,
+    local k column b, bins b0 .. b1 - 1; ``b1 = x_count`` (one past the last bin) asks for every bin up
+    to the top and the tail); returns ``[(a, b, b0, b1, moments, start, tail), ...]`` as
+    :func:`build_node` gives them (a node's values do not depend on the others or on the split)."""
+    ln_n, kk = spec.ln_n, spec.k
+    top = spec.x_count - 1
+    out = []
+    for a, b, b0, b1 in jobs:
+        m = complex(np.exp(ln_n[i * spec.tile + a]), kk[j * spec.tile + b])
+        arrays = build_node(spec, geometry, m, quantity, f_max, (min(b0, top), min(b1, top)), tail=b1 > top)
+        out.append((a, b, b0, b1) + tuple(arrays))
+    return out

@@ -48,6 +48,17 @@ How the table is made
   version, the miepython version and (solid spheres, Mie phase) the node builder
   (:data:`motes.dust.model.tablebuild.SPHERE_BUILDER`). Files are written to a temporary name
   and renamed. A tile missing at evaluation time is built then.
+* Within a tile only the nodes some index's 4 x 4 interpolation stencil
+  reads are built, and each only up to the largest x its queries reach
+  (``2 pi a_max / lambda`` at that index's wavelength when a model prepares
+  its tables; rounded up to 8 ln x bins): the rest stays unbuilt (NaN in
+  memory, so that a read of it can only give a NaN result, which is refused)
+  until a later query needs it, and is then built and appended. Every bin of
+  a node depends on its own samples only, so the values equal a whole build
+  bit for bit (``tests/test_dust_tiles_lazy_x.py``). Partial tiles are cached
+  with a format number of their own (:data:`PARTIAL_FORMAT`, the bins built
+  per node beside the moments), whole ones as before; a write keeps the
+  nodes another process wrote to the same file meanwhile.
 * Evaluation: C for the q grid (step 0.1) is assembled from the moments when
   first needed; values are interpolated with 4-point Lagrange polynomials in
   q, ln n, ln k and ln x (a compiled loop over the batch).
@@ -72,8 +83,16 @@ from ...errors import InputError, ModelError
 from ...parameters import accepts_quantities
 from ...files import atomic_write, cache_directory, write_text_atomic
 from ...optics import mie
-from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, QUANTITIES, TableSpec, build_tile, channel_key,
-                         rayleigh_exponents, tile_path, tile_rows)
+from .tablebuild import (FACTORIALS, FORMAT_VERSION, N_MOMENTS, QUANTITIES, TableSpec, build_nodes, build_tile,
+                         channel_key, rayleigh_exponents, tile_path, tile_rows)
+
+#: tile files holding some of their nodes, or some nodes up to some x only (key ``bins``: x bins built per
+#: node; see LookupTable): a format number of their own, so that a motes without partial tiles finds them
+#: foreign and rebuilds them whole instead of reading their unbuilt parts. Whole tiles keep FORMAT_VERSION
+#: and their cache folders.
+PARTIAL_FORMAT = 1001
+#: x bins are built in steps of this many (0.2 in ln x), above what a run needs
+_X_QUANTUM = 8
 
 __all__ = [
     "FORMAT_VERSION",
@@ -263,9 +282,19 @@ class LookupTable:
         self._stack = None          # (first q index, array); grows by _Q_MARGIN slices
         self._tails = None
         self.build_seconds = 0.0
-        self.tiles_built = 0
+        self.tiles_built = 0        # tile builds (a tile given more nodes or x bins later counts again)
+        self.nodes_built = 0        # node builds (likewise)
         t = self.spec.tile
         self._loaded = np.zeros((-(-self.spec.n_count // t), -(-self.spec.k_count // t)), dtype=bool)
+        #: x bins in memory per (n, k) node, on the axes padded to whole tiles (0: not built or not
+        #: loaded; ``n_bins``: the whole x range; ``_full = n_bins + 1``: and the tail above it, a whole
+        #: node); nodes beyond the axes count as whole
+        self.n_bins = self.spec.x_count - 1
+        self._full = self.n_bins + 1
+        self._nbins = np.zeros((self._loaded.shape[0] * t, self._loaded.shape[1] * t), dtype=np.int64)
+        self._nbins[self.spec.n_count:, :] = self._full
+        self._nbins[:, self.spec.k_count:] = self._full
+        self._block = None          # min of _nbins over each 4 x 4 stencil (see _block_min)
 
     # -------------------------------------------------------------- tiles
     def _write_spec(self):
@@ -278,23 +307,87 @@ class LookupTable:
                                   "miepython": mie.miepython.__version__}, indent=1, sort_keys=True)
             write_text_atomic(meta, payload)
 
-    def _load_or_build(self, tiles) -> None:
+    def _real_nodes(self, ij) -> np.ndarray:
+        """bool [t, t]: the nodes of tile ij that lie on the axes."""
+        t = self.spec.tile
+        rows = np.arange(ij[0] * t, ij[0] * t + t) < self.spec.n_count
+        cols = np.arange(ij[1] * t, ij[1] * t + t) < self.spec.k_count
+        return rows[:, None] & cols[None, :]
+
+    def _read_tile(self, ij):
+        """(moments, start, tail, bins [t, t]) from the cache (NaN where not built), or None."""
+        path = tile_path(self.folder, *ij)
+        if not path.exists():
+            return None
+        t = self.spec.tile
+        try:
+            with np.load(path) as z:
+                fmt = int(z["format"])
+                if fmt == FORMAT_VERSION:
+                    return z["moments"], z["start"], z["tail"], np.full((t, t), self._full, dtype=np.int64)
+                if fmt == PARTIAL_FORMAT:
+                    moments, bins = z["moments"], z["bins"].astype(np.int64)
+                    if bins.shape != (t, t) or moments.shape[-2] != self.n_bins or (bins > self._full).any():
+                        return None
+                    return moments, z["start"], z["tail"], bins
+        except (OSError, ValueError, KeyError):
+            pass  # unreadable or foreign: rebuild
+        return None
+
+    def _write_tile(self, ij, moments, start, tail, bins):
+        real = self._real_nodes(ij)
+        with atomic_write(tile_path(self.folder, *ij)) as tmp:
+            if (bins[real] >= self._full).all():
+                np.savez(tmp, moments=moments, start=start, tail=tail, format=np.int64(FORMAT_VERSION))
+            else:
+                np.savez(tmp, moments=moments, start=start, tail=tail, bins=bins.astype(np.int64),
+                         format=np.int64(PARTIAL_FORMAT))
+
+    def _tile_bins(self, ij) -> np.ndarray:
+        t = self.spec.tile
+        return self._nbins[ij[0] * t:(ij[0] + 1) * t, ij[1] * t:(ij[1] + 1) * t]
+
+    def _enter(self, ij, arrays, bins) -> None:
+        """Put a tile (any of its nodes) in memory; a tile new to memory gets a slot at the next use."""
+        new = ij not in self._tiles
+        self._tiles[ij] = arrays
+        view = self._tile_bins(ij)
+        real = self._real_nodes(ij)
+        view[real] = bins[real]
+        self._block = None
+        if new:
+            self._loaded[ij] = True
+            # new tiles get new slots at the end: the q slices already assembled stay valid and are
+            # extended by the new tiles alone (no re-assembly of the whole table, see _stacked)
+            self._slots = None
+        else:
+            self._refresh(ij)       # nodes added to a tile in use: its slot is re-assembled alone
+
+    def _load_or_build(self, tiles, need=None) -> None:
+        """Make tiles ready: ``need`` (int [n, k] on the padded node axes) gives the x bins each node
+        must hold (``n_bins + 1``: all and the tail; default: every node of the tiles, whole).
+
+        Nodes not built yet, or built up to a smaller x, are built (their missing bins appended);
+        a node's bins do not depend on how its x range was split nor on the other nodes
+        (:func:`~motes.dust.model.tablebuild.build_node`), so every value equals a whole build
+        bit for bit.
+        """
         import time
 
+        t = self.spec.tile
         todo = []
         for ij in tiles:
-            if ij in self._tiles:
-                continue
-            path = tile_path(self.folder, *ij)
-            if path.exists():
-                try:
-                    with np.load(path) as z:
-                        if int(z["format"]) == FORMAT_VERSION:
-                            self._tiles[ij] = (z["moments"], z["start"], z["tail"])
-                            continue
-                except (OSError, ValueError, KeyError):
-                    pass  # unreadable or foreign: rebuild
-            todo.append(ij)
+            if ij not in self._tiles:
+                got = self._read_tile(ij)
+                if got is not None:
+                    self._enter(ij, got[:3], got[3])
+            have = self._tile_bins(ij)
+            want = (np.full((t, t), self._full) if need is None else
+                    np.minimum(need[ij[0] * t:(ij[0] + 1) * t, ij[1] * t:(ij[1] + 1) * t], self._full))
+            jobs = [(a, b, int(have[a, b]), int(want[a, b])) for a in range(t) for b in range(t)
+                    if want[a, b] > have[a, b]]
+            if jobs:
+                todo.append((ij, jobs))
         if not todo:
             return
         self._write_spec()
@@ -305,27 +398,67 @@ class LookupTable:
             bar = progress_bar(total=len(todo), desc="motes: building optics lookup tiles", unit="tile",
                                leave=False)
         t0 = time.perf_counter()
-        for ij, (moments, start, tail) in self._built(todo):
-            with atomic_write(tile_path(self.folder, *ij)) as tmp:
-                np.savez(tmp, moments=moments, start=start, tail=tail, format=np.int64(FORMAT_VERSION))
-            self._tiles[ij] = (moments, start, tail)
+        for ij, results in self._built(todo):
+            if ij in self._tiles:
+                moments, start, tail = (np.array(a) for a in self._tiles[ij])     # writable copies
+                bins = self._tile_bins(ij).copy()
+            else:
+                # unbuilt nodes NaN (a read of them shows as a NaN result, never as a value), nodes
+                # beyond the axes zero (as in a whole build)
+                n_ch = results[0][4].shape[0]
+                real = self._real_nodes(ij)
+                moments = np.zeros((t, t, n_ch, self.n_bins, N_MOMENTS))
+                start, tail = np.zeros((t, t, n_ch)), np.zeros((t, t, n_ch))
+                moments[real], start[real] = np.nan, np.nan
+                bins = np.where(real, 0, self._full)
+            for a, b, b0, b1, mo, st, ta in results:
+                moments[a, b, :, min(b0, self.n_bins):min(b1, self.n_bins)] = mo
+                if b0 == 0:
+                    start[a, b] = st
+                if b1 > self.n_bins:
+                    tail[a, b] = ta
+                bins[a, b] = b1
+            # another process (a demo part running alongside, a grid worker) may have written nodes of
+            # this tile since it was read: keep those that hold more x bins than ours (the same values,
+            # bit for bit), so that neither process's nodes are lost from the cache
+            disk = self._read_tile(ij)
+            if disk is not None:
+                more = disk[3] > bins
+                if more.any():
+                    moments[more], start[more], tail[more] = disk[0][more], disk[1][more], disk[2][more]
+                    bins[more] = disk[3][more]
+            self._write_tile(ij, moments, start, tail, bins)
+            self._enter(ij, (moments, start, tail), bins)
             self.tiles_built += 1
+            self.nodes_built += len(results)
             if bar is not None:
                 bar.update(1)
         if bar is not None:
             bar.close()
         self.build_seconds += time.perf_counter() - t0
 
+    def _refresh(self, ij) -> None:
+        """Re-assemble the q slices and the tail of a tile given more nodes or x bins (its slot stays)."""
+        if ij not in self._order:
+            return
+        slot = self._order.index(ij)
+        if self._stack is not None and slot < self._stack[1].shape[2]:
+            slo, arr = self._stack
+            for iq in range(slo, slo + arr.shape[1]):
+                arr[:, iq - slo, slot] = self._slice(iq, [ij])[:, 0]
+        if self._tails is not None and slot < self._tails.shape[1]:
+            self._tails[:, slot] = np.moveaxis(self._tiles[ij][2], 2, 0)
+
     def _built(self, todo):
-        """Yield (tile, arrays) for the tiles in ``todo``, in worker processes if asked."""
+        """Yield (tile, node results) for the (tile, node jobs) in ``todo``, in worker processes if asked."""
         import multiprocessing
 
         # a table inherited by a forked daemonic worker (a fit's pool) keeps the driver's setting,
         # but such a process may not start processes of its own
         daemonic = multiprocessing.current_process().daemon
-        if self.workers <= 1 or daemonic:
-            for ij in todo:
-                yield ij, build_tile(self.spec, self.geometry, *ij, self.quantity, self.f_max)
+        if self.workers <= 1 or daemonic or sum(len(jobs) for _, jobs in todo) == 1:   # (one node: no pool)
+            for ij, jobs in todo:
+                yield ij, build_nodes(self.spec, self.geometry, *ij, self.quantity, self.f_max, jobs)
             return
         import concurrent.futures
 
@@ -334,26 +467,21 @@ class LookupTable:
                 max_workers=self.workers, mp_context=multiprocessing.get_context(method)) as pool:
             # weakly absorbing tiles (low k index) cost ~10x the opaque ones: submitted first, so that no core
             # waits for one of them at the end; slots do not depend on the build order (see _slot_map).
-            # One job per n row of a tile (4 nodes), so that a single missing tile (a sampler reaching
-            # a new region mid-run) is built on every worker too; a tile is yielded when its rows are in.
-            order = sorted(todo, key=lambda ij: (ij[1], ij[0]))
+            # One job per node, so that the few nodes a sampler needs mid-run are built on every worker
+            # too; a tile is yielded when its nodes are in.
+            order = sorted(todo, key=lambda item: (item[0][1], item[0][0]))
             futures, left, parts = {}, {}, {}
-            for ij in order:
-                left[ij] = tile_rows(self.spec, ij[0])
-                for a in range(left[ij]):
-                    fut = pool.submit(build_tile, self.spec, self.geometry, *ij, self.quantity, self.f_max, (a,))
-                    futures[fut] = (ij, a)
+            for ij, jobs in order:
+                left[ij], parts[ij] = len(jobs), []
+                for job in jobs:
+                    fut = pool.submit(build_nodes, self.spec, self.geometry, *ij, self.quantity, self.f_max, [job])
+                    futures[fut] = ij
             for fut in concurrent.futures.as_completed(futures):
-                ij, a = futures.pop(fut)
-                part = fut.result()
-                if ij not in parts:
-                    parts[ij] = part
-                else:
-                    for whole, piece in zip(parts[ij], part):
-                        whole[a] = piece[a]
+                ij = futures.pop(fut)
+                parts[ij].extend(fut.result())
                 left[ij] -= 1
                 if left[ij] == 0:
-                    yield ij, parts.pop(ij)
+                    yield ij, sorted(parts.pop(ij), key=lambda r: (r[0], r[1]))
 
     def _stencil_tiles(self, pn, pk):
         """Tile indices (lowest and highest per axis) of each query's 4 x 4 stencil."""
@@ -370,13 +498,45 @@ class LookupTable:
         codes = np.unique(np.concatenate([i * width + j for i in (i0, i1) for j in (j0, j1)]))
         return set(zip((codes // width).tolist(), (codes % width).tolist()))
 
-    def _all_loaded(self, pn, pk) -> bool:
+    def _block_min(self) -> np.ndarray:
+        """[n - 3, k - 3]: the fewest x bins among the 4 x 4 nodes of the stencil starting at each node."""
+        if self._block is None:
+            nb = self._nbins
+            h, w = nb.shape[0] - 3, nb.shape[1] - 3
+            block = nb[:h, :w].copy()
+            for a in range(4):
+                for b in range(4):
+                    np.minimum(block, nb[a:a + h, b:b + w], out=block)
+            self._block = block
+        return self._block
+
+    def _stencil_nodes(self, pn, pk):
+        """First (n, k) node of each query's 4 x 4 stencil."""
+        spec = self.spec
+        fn = np.clip(np.floor(pn).astype(int), 1, spec.n_count - 3)
+        fk = np.clip(np.floor(pk).astype(int), 1, spec.k_count - 3)
+        return fn - 1, fk - 1
+
+    def _all_loaded(self, pn, pk, need=None) -> bool:
+        """True when every node of every query's stencil is in memory with ``need`` x bins (default: all)."""
         if not self._tiles:
             return False
-        loaded = self._loaded
-        i0, i1, j0, j1 = self._stencil_tiles(pn, pk)
-        return bool(loaded[i0, j0].all() and loaded[i0, j1].all() and loaded[i1, j0].all()
-                    and loaded[i1, j1].all())
+        n0, k0 = self._stencil_nodes(pn, pk)
+        return bool((self._block_min()[n0, k0] >= (self._full if need is None else need)).all())
+
+    def bins_needed(self, x) -> np.ndarray:
+        """x bins a tile must hold for interpolations up to size parameter ``x`` (any shape).
+
+        The 4-point stencil at ``x`` reads C at nodes up to two above x's node, and C at node l
+        sums bins 0 .. l - 1; rounded up to steps of ``_X_QUANTUM`` bins (at most every bin); above
+        the table's top ``n_bins + 1``: every bin and the geometric-optics tail.
+        """
+        spec = self.spec
+        pos = (np.log(np.asarray(x, dtype=float)) - np.log(spec.x_min)) / spec.dln_x
+        node = np.clip(np.floor(np.nan_to_num(pos, nan=spec.x_count)), 1, spec.x_count - 3).astype(np.int64)
+        need = -(-(node + 2) // _X_QUANTUM) * _X_QUANTUM
+        # (the margin: the kernel tests ``ln x > ln x_top`` in its own rounding; tail where in doubt)
+        return np.where(pos > spec.x_count - 1 - 1e-9, self._full, np.minimum(need, self.n_bins))
 
     def _positions(self, m):
         """Fractional positions of indices on the global n and k axes."""
@@ -393,17 +553,35 @@ class LookupTable:
                 f"k <= {spec.k[-3]:.3g}); use method='exact'")
         return pn, pk
 
-    def ensure(self, m) -> None:
-        """Load or build every tile needed for indices ``m`` (any shape)."""
-        tiles = self.tiles_for(m)
-        missing = [ij for ij in tiles if ij not in self._tiles]
-        if missing:
-            self._load_or_build(sorted(missing))
-            for ij in missing:
-                self._loaded[ij] = True
-            # new tiles get new slots at the end: the q slices already assembled stay valid and are
-            # extended by the new tiles alone (no re-assembly of the whole table, see _stacked)
-            self._slots = None
+    def ensure(self, m, x=None) -> None:
+        """Load or build every node the interpolations at indices ``m`` (any shape) read.
+
+        ``x``: the largest size parameter those interpolations reach (a number, or one per index);
+        nodes then hold their x bins up to there only (more are built when a later query needs
+        them, see :meth:`bins_needed`). Default: the whole x range. Only the 4 x 4 nodes of each
+        index's stencil are built; tiles are the unit of the cache files.
+        """
+        m = np.asarray(m).ravel()
+        pn, pk = self._positions(m)
+        if x is None:
+            per = np.full(m.shape, self._full, dtype=np.int64)
+        else:
+            per = np.broadcast_to(self.bins_needed(np.asarray(x, dtype=float)).ravel()
+                                  if np.ndim(x) else self.bins_needed(float(x)), m.shape)
+        n0, k0 = self._stencil_nodes(pn, pk)
+        if self._tiles and (self._block_min()[n0, k0] >= per).all():
+            return
+        need = np.zeros(self._nbins.shape, dtype=np.int64)
+        for a in range(4):
+            for b in range(4):
+                np.maximum.at(need, (n0 + a, k0 + b), per)
+        short = need > self._nbins
+        if not short.any():
+            return
+        t = self.spec.tile
+        rows, cols = np.nonzero(short)
+        tiles = sorted(set(zip((rows // t).tolist(), (cols // t).tolist())))
+        self._load_or_build(tiles, need)
 
     # -------------------------------------------------------------- q slices
     def _slot_map(self) -> np.ndarray:
@@ -513,8 +691,10 @@ class LookupTable:
             raise ModelError(f"q must lie in [{spec.q_min + spec.q_step:g}, {spec.q_max - 2 * spec.q_step:g}] "
                              "for the fast path; use method='exact'")
         pn, pk = self._positions(m)
-        if not self._all_loaded(pn, pk):
-            self.ensure(m)
+        x_hi = np.maximum(np.asarray(x1, dtype=float).ravel(), np.asarray(x2, dtype=float).ravel())
+        need = self.bins_needed(x_hi)
+        if not self._all_loaded(pn, pk, need):
+            self.ensure(m, x_hi)
         q_lo, stack = self._stacked(q)
         out = np.empty((self.n_channels, m.size))
         _interpolate_batch(stack, self._tail_box(), self._slot_map(), spec.tile, self._ray,
@@ -759,6 +939,15 @@ def _warn_large_hollow_table(model, spec: TableSpec, progress: bool) -> None:
         print(f"motes: {note}", file=sys.stderr)
 
 
+def _x_reach(model, shape):
+    """Largest size parameter per index of ``effective_index`` ([N, L] at the band nodes): the model's
+    a_max at each node wavelength; None (the whole x range) for a model without both."""
+    a_max, lam = getattr(model, "a_max", None), getattr(model, "node_wavelength", None)
+    if a_max is None or lam is None or len(shape) != 2 or shape[1] != np.size(lam):
+        return None
+    return np.broadcast_to(2 * np.pi * float(a_max) / np.asarray(lam, dtype=float)[None, :], shape)
+
+
 def table_for_model(model, spec: TableSpec | None = None, progress: bool = True,
                     fractions=None, porosity=None, lazy: bool = False, f_max: float | None = None) -> ModelTable:
     """The fast path for ``model``: loads cached tiles, builds the missing ones.
@@ -805,11 +994,13 @@ def table_for_model(model, spec: TableSpec | None = None, progress: bool = True,
             _TABLES[key] = table
         if lazy or (quantity == "total" and not getattr(model, "has_total", True)):
             pass    # nothing to build now (a polarised-only model builds no total tiles)
-        elif fractions is None:
-            table.ensure(reachable_indices(model))
         else:
-            f = np.atleast_2d(np.asarray(fractions, dtype=float))
-            p = np.broadcast_to(np.asarray(0.0 if porosity is None else porosity, dtype=float), (f.shape[0],))
-            table.ensure(model.effective_index(f, p))
+            if fractions is None:
+                m = reachable_indices(model)
+            else:
+                f = np.atleast_2d(np.asarray(fractions, dtype=float))
+                p = np.broadcast_to(np.asarray(0.0 if porosity is None else porosity, dtype=float), (f.shape[0],))
+                m = model.effective_index(f, p)
+            table.ensure(m, _x_reach(model, m.shape))
         tables.append(table)
     return ModelTable(model, tables[0], tables[1] if len(tables) > 1 else None)

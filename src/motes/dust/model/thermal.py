@@ -12,7 +12,7 @@ A mixture file gains a ``[thermal]`` table (and needs ``[star] luminosity``)::
 
     [thermal]
     radius_au = 60.0                  # ring radius [au]; or [r_in, r_out] for a belt
-    surface_density_index = -1.0      # belt only (required there): Sigma ∝ r^p
+    surface_density_index = -1.0      # belt only (default -1): Sigma ∝ r^p
     bands = ["wise_w3", "wise_w4", "herschel-pacs_70", "mm_1.3"]   # standard or [bands.NAME]
     dust_mass_mearth = 0.01           # the dust amount: mass [M_earth], or
     # cross_section_au2 = 5.0         #   the total grain cross-section [au^2]
@@ -48,7 +48,7 @@ import numpy as np
 
 from ...conventions import flam_to_fnu
 from ...errors import InputError, MotesError, ModelError
-from ...parameters import EXTINCTION_K, REFRACTIVE_N, accepts_quantities
+from ...parameters import EXTINCTION_K, PARAMETERS, REFRACTIVE_N, accepts_quantities
 from ...optics import thermal as th
 from ...optics.mixing import mix_refractive_index, mixture_density
 from ...optics.sizes import gauss_legendre_log
@@ -66,6 +66,7 @@ __all__ = [
     "parse_thermal",
     "read_thermal_settings",
     "compute_thermal",
+    "belt_nodes",
 ]
 
 #: Sublimation temperatures [K] of bundled materials (by file stem) with their source.
@@ -260,11 +261,10 @@ def parse_thermal(doc: dict, description) -> ThermalSettings | None:
     if len(radius) == 2:
         if not radius[0] < radius[1]:
             raise InputError(f"a belt needs r_in < r_out, got {list(radius)}", path=src, where="[thermal] radius_au")
-        if "surface_density_index" not in tab:
-            raise InputError("a belt [r_in, r_out] needs surface_density_index = p (Sigma ∝ r^p)",
-                             path=src, where="[thermal]")
-        p = read_number(tab["surface_density_index"], path=src, where="[thermal] surface_density_index",
-                        lo=-10.0, hi=10.0)
+        declared = PARAMETERS["surface_density_index"]
+        p = read_number(tab.get("surface_density_index", declared.default), path=src,
+                        where="[thermal] surface_density_index", what=f"the index p of Sigma ∝ r^p, in "
+                        f"{declared.interval}", lo=declared.lo, hi=declared.hi)
     elif "surface_density_index" in tab:
         raise InputError("surface_density_index is for a belt (radius_au = [r_in, r_out]); a ring has one radius",
                          path=src, where="[thermal] surface_density_index")
@@ -344,16 +344,61 @@ def _indices(description, wavelength):
     return np.array([s.m for s in samples]), notes
 
 
+@accepts_quantities
+def belt_nodes(r_in_au, r_out_au, surface_density_index, n_nodes: int):
+    """Radius nodes of a belt and the share of its grain cross-section at each.
+
+    Parameters
+    ----------
+    r_in_au, r_out_au : float [au]
+        Inner and outer edge, 0 < r_in <= r_out (r_in = r_out: a ring, one node).
+    surface_density_index : float
+        p of the surface density Sigma ∝ r^p (of cross-section, hence of mass: the size
+        distribution is the same at every radius).
+    n_nodes : int
+        Gauss-Legendre nodes in ln r.
+
+    Returns
+    -------
+    r : ndarray[R] [au]
+    share : ndarray[R]
+        Fraction of the total cross-section at each node (sums to 1).
+
+    Notes
+    -----
+    The cross-section in an annulus is Sigma 2 pi r dr = 2 pi Sigma r^2 dln r ∝ r^(p+2) dln r,
+    integrated by Gauss-Legendre in ln r between the edges; a quantity per unit cross-section
+    F(r) then sums to the belt's ``sum share F(r)``, the same total cross-section (the thermal
+    scale) as a ring's.
+
+    Examples
+    --------
+    >>> r, share = belt_nodes(40.0, 80.0, -1.0, 4)
+    >>> print(f"{share.sum():.3f} {float(np.sum(share * r)):.2f}")
+    1.000 60.00
+    """
+    r_in, r_out, p = float(r_in_au), float(r_out_au), float(surface_density_index)
+    if not (np.isfinite(r_in) and np.isfinite(r_out) and 0 < r_in <= r_out):
+        raise InputError(f"a belt needs 0 < r_in <= r_out [au], got r_in = {r_in:g}, r_out = {r_out:g}",
+                         where="belt")
+    if not np.isfinite(p):
+        raise InputError(f"a belt needs a finite surface_density_index, got {p:g}", where="belt")
+    if isinstance(n_nodes, (bool, np.bool_)) or not isinstance(n_nodes, (int, np.integer)) or n_nodes < 1:
+        raise InputError(f"a belt needs an integer number of radial nodes >= 1, got {n_nodes!r}", where="belt")
+    if r_in == r_out:
+        return np.array([r_in]), np.ones(1)
+    t, w = np.polynomial.legendre.leggauss(int(n_nodes))
+    half = 0.5 * np.log(r_out / r_in)
+    r = np.exp(np.log(r_in) + half * (t + 1.0))
+    g = w * half * (r / r_in) ** (p + 2.0)          # Sigma 2 pi r dr = 2 pi Sigma r^2 dln r
+    return r, g / g.sum()
+
+
 def _radial_nodes(settings):
     if len(settings.radius_au) == 1:
         return np.array(settings.radius_au), np.ones(1)
     r_in, r_out = settings.radius_au
-    t, w = np.polynomial.legendre.leggauss(settings.radial_nodes)
-    half = 0.5 * np.log(r_out / r_in)
-    ln_r = np.log(r_in) + half * (t + 1.0)
-    r = np.exp(ln_r)
-    g = w * half * r ** (settings.surface_density_index + 2.0)      # Sigma 2 pi r dr = 2 pi Sigma r^2 dln r
-    return r, g / g.sum()
+    return belt_nodes(r_in, r_out, settings.surface_density_index, settings.radial_nodes)
 
 
 def _star_at(description, luminosity, grid, l_grid, wavelength):
@@ -463,8 +508,12 @@ def compute_thermal(description, mixture, settings: ThermalSettings) -> ThermalR
     if (2 * np.pi * sizes.max() / grid[0]) > th.RAY_OPTICS_X:
         notes.append(th.RAY_OPTICS_NOTE)
     radii, g_radial = _radial_nodes(settings)
+    # a belt's inner edge too (its Gauss nodes lie inside the edges): the hottest grains, for the
+    # sublimation check and flags
+    edge = radii if len(settings.radius_au) == 1 else np.append(radii, settings.radius_au[0])
     try:
-        temperature = th.equilibrium_temperature(q_grid, grid, l_grid, radii)
+        temperature = th.equilibrium_temperature(q_grid, grid, l_grid, edge)
+        edge_temperature, temperature = temperature, temperature[:, :radii.size]
     except ModelError as exc:
         raise InputError(f"{exc} (radius_au = {list(settings.radius_au)})", path=src,
                          where="[thermal] radius_au") from None
@@ -525,7 +574,7 @@ def compute_thermal(description, mixture, settings: ThermalSettings) -> ThermalR
     t_dust = th.WIEN_NU_UM_K / _peak_wavelength(lam_s, disk_s)
     r_bb = float(th.blackbody_radius(lum, t_dust))
     mean_r = float(np.sum(g_radial * radii))
-    flags = _sublimation_flags(description, mixture, settings, sizes, radii, temperature)
+    flags = _sublimation_flags(description, mixture, settings, sizes, edge, edge_temperature)
     return ThermalResult(settings, lum, sizes, radii, temperature, th.blackbody_temperature(lum, radii), q_star,
                          q_own, lam_s, disk_s, star_s, tuple(names), np.array(pivots), np.array(band_disk),
                          np.array(band_star), l_dust / lum, float(t_dust), r_bb, mean_r, sigma, float(sigma_tot),

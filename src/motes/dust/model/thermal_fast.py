@@ -10,11 +10,15 @@ The Q_abs table
 ---------------
 * Axes: ``ln n`` from n = 0.3 to 3000 (step :data:`LN_N_STEP`), ``ln k`` from
   k = 1e-6 to 1e4 (step :data:`LN_K_STEP`; iron's Hagen-Rubens continuation reaches k ~ 2000 at 2 cm), ``ln x`` from x = 1e-4 to 1.3e5
-  (step :data:`LN_X_STEP`). Values: ``ln Q_abs``, interpolated bilinearly in
-  (ln n, ln k) (Q_abs ∝ k for weak absorbers, so ln Q is linear in ln k there)
-  and linearly in Q along ln x (:func:`_q_at`: linear in ln Q would take the
-  logarithmic mean across the resonances of weak absorbers, biased low); below
-  k = 1e-6 Q_abs is scaled ∝ k (k = 0 gives 0), below x = 1e-4 ∝ x (Rayleigh).
+  (step :data:`LN_X_STEP`). Values: ``ln Q_abs`` (cached), interpolated
+  linearly in Q along every axis with weights linear in n and k below k =
+  :data:`K_LINEAR` (:func:`_q_at`: the logarithmic mean of neighbouring nodes
+  lies below their mean across the resonances of weak absorbers, which shift
+  with n as well as x: issue 13's 5.5% at 1.3 mm on 24 random rings was -3%
+  from the ln-Q interpolation along n and -2.3% from the size quadrature), and
+  bilinearly in (ln n, ln k, ln Q) for conductors (k >= K_LINEAR, Q_abs a power
+  law of n and k there); below k = 1e-6 Q_abs is scaled ∝ k (k = 0 gives 0),
+  below x = 1e-4 ∝ x (Rayleigh).
 * Where a grain is not opaque (k x < :data:`X_AVERAGE_KX`, x > 0.1) a node
   holds the mean of Q_abs over its x bin (:data:`X_AVERAGE` sub-bins), not its
   value at the node: the resonances there are narrower than the x step, and
@@ -45,11 +49,14 @@ of a ring at radius r for many parameter points at once: effective indices
 :data:`BALANCE_PER_DECADE` points per decade plus the materials' own points
 beyond 2 um (thinned to :data:`FEATURE_PER_DECADE` per decade), Q_abs from the
 table at :data:`N_SIZES_T` Gauss-Legendre nodes in ln a for the balance and
-:data:`N_SIZES` for the fluxes, temperatures by
+:data:`N_SIZES` for the fluxes (:data:`N_SIZES_FAR` for bands beyond
+:data:`FAR_IR_UM`), temperatures by
 interpolation on a coarse table of the emitted power and one Newton step
-(compiled), and band averages on :data:`BAND_NODES` Gauss nodes per band, the
-table lookup, ``B_nu`` (ln B_nu interpolated on a fine ln T table,
-:data:`_LN_T_FLUX`) and the size sum in one compiled pass. The Bruggeman
+(compiled), and band averages on :data:`BAND_NODES` Gauss nodes per band
+(:data:`BAND_NODES_FAR` beyond FAR_IR_UM), the
+table lookup, ``B_nu`` (interpolated linearly on a fine ln T table,
+:data:`_LN_T_FLUX`) and the size sum in one compiled pass, with no
+exponential per term. The Bruggeman
 solver takes the materials' permittivities, their logarithms and arguments
 computed once per model.
 """
@@ -57,6 +64,8 @@ computed once per model.
 from __future__ import annotations
 
 import hashlib
+from pathlib import Path
+
 import numpy as np
 import numba
 
@@ -98,9 +107,23 @@ FEATURE_PER_DECADE = 60
 N_SIZES_T = 24
 N_SIZES = 80
 BAND_NODES = 24
+#: Far-infrared and mm bands (pivot >= FAR_IR_UM): their grains are weak absorbers in the resonance regime
+#: (x ~ 0.3-10), Q_abs ripples in x, and the flux is a 2-d integral over (ln a, ln lambda) of a function
+#: of ln x = ln a - ln lambda + const. On a narrow band (1.2-1.4 mm: 0.15 in ln lambda) the size
+#: nodes' spacing (0.09-0.15 in ln a with 80 nodes) is comparable to the band's width and the sum over
+#: the product grid weights the ripples unevenly: -2.8% at 1.3 mm on an iron-rich ring (a_min 9.5 um,
+#: 80 sizes x 24 band nodes), 0.75% with 160 sizes, 0.6% with 160 x 12 (measured, issue 13). These
+#: bands take N_SIZES_FAR sizes and BAND_NODES_FAR band nodes (the same number of terms as 80 x 24);
+#: the mid-infrared bands keep 24 band nodes (silica's and ice's features: 12 left 2.8% in W3, measured).
+FAR_IR_UM = 50.0
+#: k from which the table is interpolated in (ln n, ln k, ln Q) instead of linearly in Q (:func:`_q_at`)
+K_LINEAR = 1.0
+N_SIZES_FAR = 160
+BAND_NODES_FAR = 12
 _LN_T_STEP = 0.1
-#: ln T step of the B_nu table of the flux loop: linear interpolation of ln B errs by <= dlt^2 x / 8
-#: (x = hc / lambda k T), 2e-5 at x = 40 (emission 20x beyond the Wien peak)
+#: ln T step of the B_nu table of the flux loop, interpolated linearly in B (no exponential per term):
+#: errs by <= dlt^2 x^2 / 8 relative (x = hc / lambda k T), 2e-4 at x = 20, 8e-4 at x = 40 (emission
+#: 20x beyond the Wien peak, e^-40 of it)
 _LN_T_FLUX = 0.002
 FAST_NOTE = ("thermal fluxes from the fast path (tabulated Q_abs, coarser grids); accuracy against the exact "
              "path measured by benchmarks/bench_thermal.py")
@@ -111,10 +134,10 @@ def _node_values(axis, count):
 
 
 @numba.njit(cache=True)
-def _interp_lnq(store, slots, axes, n, k, x, out):  # pragma: no cover - compiled
+def _interp_lnq(store, lnstore, slots, axes, n, k, x, out):  # pragma: no cover - compiled
     """out[i] = Q_abs at (n[i], k[i], x[i]), interpolated as in :func:`_q_at`.
 
-    ``store[slot, i, j, x]`` holds ln Q_abs of tile ``slots[ti, tj]`` (-1: not built). Returns 0, or
+    ``store[slot, i, j, x]`` holds Q_abs (linear) of tile ``slots[ti, tj]`` (-1: not built). Returns 0, or
     ``1 + flat tile index`` of a tile to build first, or ``-(i + 1)`` for a point outside the axes.
     """
     lx0, dx, nx = axes[4], axes[5], int(axes[8])
@@ -135,8 +158,7 @@ def _interp_lnq(store, slots, axes, n, k, x, out):  # pragma: no cover - compile
                 for tb in range(slots.shape[1]):
                     if need[ta, tb]:
                         return 1 + ta * slots.shape[1] + tb
-        u, g = _q_at(store, sl, ia, ib, wab, np.log(x[i]), lx0, dx, nx)
-        out[i] = scale * np.exp(u) * g
+        out[i] = abs(scale) * _q_at(store, lnstore, sl, ia, ib, wab, np.log(x[i]), lx0, dx, nx, scale < 0)
     return 0
 
 
@@ -145,7 +167,9 @@ def _stencil(store, slots, axes, nv, kv, sl, ia, ib, wab, need):  # pragma: no c
     """(n, k) stencil of one index: tile slots ``sl``, in-tile rows ``ia``, ``ib``, weights ``wab``.
 
     Returns ``(status, scale)``: status 0 ready, 1 a tile not built (flagged in ``need``), 2 k = 0
-    (Q_abs = 0), -1 outside the axes; ``scale`` = k / 1e-6 below k = 1e-6 (Q_abs ∝ k), else 1.
+    (Q_abs = 0), -1 outside the axes; ``scale`` = k / 1e-6 below k = 1e-6 (Q_abs ∝ k), else 1, and
+    -1 for k >= :data:`K_LINEAR` (the logarithmic mode of :func:`_q_at`). Below K_LINEAR the weights
+    are bilinear in (n, k), along k ``(k - k0) / (k1 - k0)``; above it bilinear in (ln n, ln k).
     """
     ln0, dn, lk0, dk = axes[0], axes[1], axes[2], axes[3]
     nn, nk = int(axes[6]), int(axes[7])
@@ -163,7 +187,15 @@ def _stencil(store, slots, axes, nv, kv, sl, ia, ib, wab, need):  # pragma: no c
         return -1, scale
     a = min(int(pn), nn - 2)
     b = min(int(pk), nk - 2)
-    fa, fb = pn - a, pk - b
+    if kk < K_LINEAR:
+        # linear weights in n and k between the (log-spaced) nodes: (v - v0) / (v1 - v0)
+        fa = np.expm1((pn - a) * dn) / np.expm1(dn)
+        fb = np.expm1((pk - b) * dk) / np.expm1(dk)
+    else:
+        # conductors: weights in ln n, ln k (ln Q interpolated; Q ∝ power laws of n and k there)
+        fa = pn - a
+        fb = pk - b
+        scale = -scale             # flags the logarithmic mode to _q_at (scale is 1 here: k >= 1e-6)
     status = 0
     c4 = 0
     for da in range(2):
@@ -181,21 +213,28 @@ def _stencil(store, slots, axes, nv, kv, sl, ia, ib, wab, need):  # pragma: no c
 
 
 @numba.njit(cache=True, inline="always")
-def _q_at(store, sl, ia, ib, wab, ln_x, lx0, dx, nx):  # pragma: no cover - compiled
-    """Q_abs of a ready stencil at ``ln x`` as ``(u, g)``: ``Q = exp(u) g``.
+def _q_at(store, lnstore, sl, ia, ib, wab, ln_x, lx0, dx, nx, log_mode):  # pragma: no cover - compiled
+    """Q_abs of a ready stencil at ``ln x``: trilinear in (n, k, Q) along ln x, on linear Q.
 
-    (n, k): bilinear in ln Q at the two x nodes around ``ln x``; x: linear in Q between them,
-    ``Q = Q_c (1 + f (Q_c+1 / Q_c - 1))``. Linear in ln Q along x would take the logarithmic mean
-    of neighbouring nodes, which lies below their mean where Q changes fast between nodes: the
-    resonances of weakly absorbing grains are narrower than the x step, and that bias was -6 to
-    -9% in the log-x average of Q_abs for m = 2.75 + 0.0017i at x = 1.5-6 (measured, issue 13);
-    on smooth parts the two differ by <= f (1 - f) d^2 / 2 (d the ln Q step, 0.04 in the Rayleigh
-    limit: 2e-4). Below the axis: Rayleigh, ``Q ∝ x`` from the first node.
+    Linear in Q along every axis, not in ln Q: the logarithmic mean of neighbouring nodes lies
+    below their mean where Q changes fast between them. Along x, the resonances of weakly absorbing
+    grains are narrower than the x step: in ln Q the log-x average of Q_abs was 6-9% low for
+    m = 2.75 + 0.0017i at x = 1.5-6. Along n, the resonances sit at x ∝ 1/n roughly, so two rows
+    2% apart in n hold them shifted by ~0.02 in ln x, comparable to their widths: bilinear in
+    ln Q gave -1.8 to -2.6% in the x-average of Q_abs at m = 6.17 + 0.027i (an iron-rich mixture at
+    1.3 mm) and -3% on its 1.3 mm band flux; linear in Q 0.04-0.08% (measured, issue 13). Along k,
+    linear in k is exact where Q ∝ k (weak absorbers) or Q is flat in k (opaque grains); for
+    Q ∝ k^p between them it errs by <= p (1 - p) (0.2)^2 / 8 (0.12% at p = 1/2). No exponential
+    per evaluation. Conductors (k >= :data:`K_LINEAR`, ``log_mode``) are the exception: their Q_abs
+    follows power laws of n and k (Q ∝ 1/k roughly at |m| >> 1), which linear weights missed by
+    +2% at m = 14 + 41i (an iron-rich mixture at 100-200 um, measured): there ln Q from ``lnstore``
+    is interpolated bilinearly in (ln n, ln k) and linearly in Q along x (one exponential).
+    Below the axis: Rayleigh, ``Q ∝ x`` from the first node.
     """
     px = (ln_x - lx0) / dx
-    xs = 0.0
+    xs = 1.0
     if px < 0.0:
-        xs = px * dx          # below the axis: Rayleigh, Q ∝ x
+        xs = np.exp(px * dx)          # below the axis: Rayleigh, Q ∝ x
         px = 0.0
     if px > nx - 1:
         px = nx - 1.0
@@ -203,19 +242,19 @@ def _q_at(store, sl, ia, ib, wab, ln_x, lx0, dx, nx):  # pragma: no cover - comp
     fc = px - c
     v0 = 0.0
     v1 = 0.0
+    if log_mode:
+        for j in range(4):
+            v0 += wab[j] * lnstore[sl[j], ia[j], ib[j], c]
+            v1 += wab[j] * lnstore[sl[j], ia[j], ib[j], c + 1]
+        return np.exp(v0) * (1.0 + fc * np.expm1(v1 - v0)) * xs
     for j in range(4):
         v0 += wab[j] * store[sl[j], ia[j], ib[j], c]
         v1 += wab[j] * store[sl[j], ia[j], ib[j], c + 1]
-    d = v1 - v0
-    if -0.1 < d < 0.1:
-        e = d * (1.0 + d * (0.5 + d * (1.0 / 6.0 + d * (1.0 / 24.0))))     # expm1(d), error < 1e-7 d
-    else:
-        e = np.expm1(d)
-    return v0 + xs, 1.0 + fc * e
+    return (v0 + fc * (v1 - v0)) * xs
 
 
 @numba.njit(cache=True)
-def _q_batch(store, slots, axes, n, k, ln_x0, ln_lam, out, need):  # pragma: no cover - compiled
+def _q_batch(store, lnstore, slots, axes, n, k, ln_x0, ln_lam, out, need):  # pragma: no cover - compiled
     """out[i, s, l] = Q_abs at (n[i, l], k[i, l], x = exp(ln_x0[i, s] - ln_lam[l])).
 
     The (n, k) stencil is found once per (i, l) and used for every size. Tiles not built are
@@ -241,27 +280,30 @@ def _q_batch(store, slots, axes, n, k, ln_x0, ln_lam, out, need):  # pragma: no 
             if status == 1:
                 missing += 1
                 continue
+            log_mode = scale < 0
+            scale = abs(scale)
             for s in range(n_sizes):
-                u, g = _q_at(store, sl, ia, ib, wab, ln_x0[i, s] - ln_lam[l], lx0, dx, nx)
-                out[i, s, l] = scale * np.exp(u) * g
+                out[i, s, l] = scale * _q_at(store, lnstore, sl, ia, ib, wab, ln_x0[i, s] - ln_lam[l], lx0, dx, nx,
+                                             log_mode)
     return missing
 
 
 @numba.njit(cache=True)
-def _flux_batch(store, slots, axes, n, k, ln_x0, ln_lam, weight, ln_t, ln_b, lt0, dlt, b_coef, x_coef, out,
-                need):  # pragma: no cover - compiled
+def _flux_batch(store, lnstore, slots, axes, n, k, ln_x0, ln_lam, weight, ln_t, b_tab, lt0, dlt, b_coef, x_coef,
+                out, need):  # pragma: no cover - compiled
     """out[i, l] = sum_s weight[i, s] Q_abs(n[i, l], k[i, l], exp(ln_x0[i, s] - ln_lam[l])) B_l(T[i, s]).
 
-    ``ln B_l`` is interpolated linearly in ln T in ``ln_b[t, l]`` (nodes ``lt0 + t dlt``), so that
-    ``Q_abs B`` takes one exponential; temperatures outside the table use the formula
+    ``B_l`` is interpolated linearly in ln T in ``b_tab[t, l]`` (nodes ``lt0 + t dlt``; linear in B:
+    errs by <= dlt^2 x^2 / 8 relative, x = hc / lambda k T: 2e-4 at x = 20, 8e-4 at x = 40, where
+    the emission is e^-20 - e^-40 of its peak); temperatures outside the table use the formula
     ``B_l(T) = b_coef[l] / expm1(x_coef[l] / T)``. The table lookup of :func:`_q_batch` and the size
-    sum in one pass, without the [N, S, L] arrays. Returns as :func:`_q_batch` (points with a tile
-    not built are left unset).
+    sum in one pass, without the [N, S, L] arrays and without an exponential per term. Returns as
+    :func:`_q_batch` (points with a tile not built are left unset).
     """
     lx0, dx, nx = axes[4], axes[5], int(axes[8])
     n_pts, n_lam = out.shape
     n_sizes = ln_x0.shape[1]
-    n_t = ln_b.shape[0]
+    n_t = b_tab.shape[0]
     missing = 0
     sl = np.empty(4, dtype=np.int64)
     ia = np.empty(4, dtype=np.int64)
@@ -269,7 +311,6 @@ def _flux_batch(store, slots, axes, n, k, ln_x0, ln_lam, weight, ln_t, ln_b, lt0
     wab = np.empty(4)
     jt = np.empty(n_sizes, dtype=np.int64)
     ft = np.empty(n_sizes)
-    ln_w = np.empty(n_sizes)
     for i in range(n_pts):
         for s in range(n_sizes):
             pt = (ln_t[i, s] - lt0) / dlt
@@ -279,7 +320,6 @@ def _flux_batch(store, slots, axes, n, k, ln_x0, ln_lam, weight, ln_t, ln_b, lt0
             else:
                 jt[s] = -1
                 ft[s] = np.exp(ln_t[i, s])
-            ln_w[s] = np.log(weight[i, s]) if weight[i, s] > 0 else -np.inf
         for l in range(n_lam):
             status, scale = _stencil(store, slots, axes, n[i, l], k[i, l], sl, ia, ib, wab, need)
             if status == 2:
@@ -291,14 +331,16 @@ def _flux_batch(store, slots, axes, n, k, ln_x0, ln_lam, weight, ln_t, ln_b, lt0
                 missing += 1
                 continue
             acc = 0.0
+            log_mode = scale < 0
+            scale = abs(scale)
             for s in range(n_sizes):
-                u, g = _q_at(store, sl, ia, ib, wab, ln_x0[i, s] - ln_lam[l], lx0, dx, nx)
-                u += ln_w[s]
+                q = weight[i, s] * _q_at(store, lnstore, sl, ia, ib, wab, ln_x0[i, s] - ln_lam[l], lx0, dx, nx,
+                                         log_mode)
                 j = jt[s]
                 if j >= 0:
-                    acc += np.exp(u + (1.0 - ft[s]) * ln_b[j, l] + ft[s] * ln_b[j + 1, l]) * g
+                    acc += q * (b_tab[j, l] + ft[s] * (b_tab[j + 1, l] - b_tab[j, l]))
                 else:                   # outside the table: ft[s] holds T itself
-                    acc += np.exp(u) * g * (b_coef[l] / np.expm1(x_coef[l] / ft[s]))
+                    acc += q * (b_coef[l] / np.expm1(x_coef[l] / ft[s]))
             out[i, l] = scale * acc
     return missing
 
@@ -470,14 +512,20 @@ def _tile_values(ti: int, tk: int) -> np.ndarray:
 
 
 class QAbsTable:
-    """The ln Q_abs(n, k, x) table, tiles built on demand and cached on disk."""
+    """The Q_abs(n, k, x) table, tiles built on demand and cached on disk.
+
+    Tiles are cached as ln Q_abs (float32); :attr:`store` holds Q_abs itself (float32), which the
+    compiled lookups interpolate linearly below k = :data:`K_LINEAR`, :attr:`lnstore` ln Q_abs,
+    interpolated in (ln n, ln k) above it (:func:`_q_at`).
+    """
 
     def __init__(self, folder=None):
         self.slots = np.full(((N_N + TILE - 1) // TILE, (N_K + TILE - 1) // TILE), -1, dtype=np.int64)
         self.store = np.empty((0, TILE, TILE, N_X), dtype=np.float32)
+        self.lnstore = np.empty((0, TILE, TILE, N_X), dtype=np.float32)
         self._count = 0
         self.axes = np.array([LN_N[0], LN_N[1], LN_K[0], LN_K[1], LN_X[0], LN_X[1], N_N, N_K, N_X])
-        self.folder = folder
+        self.folder = Path(folder) if folder is not None else None
         self.tiles_built = 0
 
     @property
@@ -510,10 +558,12 @@ class QAbsTable:
                     np.save(fh, vals)
             self.tiles_built += 1
         if self._count == self.store.shape[0]:
-            grown = np.empty((max(16, 2 * self._count), TILE, TILE, N_X), dtype=np.float32)
-            grown[:self._count] = self.store[:self._count]
-            self.store = grown
-        self.store[self._count] = vals
+            for name in ("store", "lnstore"):
+                grown = np.empty((max(16, 2 * self._count), TILE, TILE, N_X), dtype=np.float32)
+                grown[:self._count] = getattr(self, name)[:self._count]
+                setattr(self, name, grown)
+        self.lnstore[self._count] = vals
+        self.store[self._count] = np.exp(vals.astype(np.float64)).astype(np.float32)
         self.slots[ti, tk] = self._count
         self._count += 1
 
@@ -554,7 +604,7 @@ class QAbsTable:
         n_, k_, x_ = (np.ascontiguousarray(v.ravel()) for v in (m.real, m.imag, x))
         out = np.empty(n_.size)
         for _ in range(10000):
-            code = _interp_lnq(self.store, self.slots, self.axes, n_, k_, x_, out)
+            code = _interp_lnq(self.store, self.lnstore, self.slots, self.axes, n_, k_, x_, out)
             if code == 0:
                 return out.reshape(x.shape)
             if code < 0:
@@ -574,7 +624,7 @@ class QAbsTable:
         out = np.empty((m.shape[0], ln_x0.shape[1], ln_lam.size))
         for _ in range(3):
             need = np.zeros(self.slots.shape, dtype=np.bool_)
-            code = _q_batch(self.store, self.slots, self.axes, n_, k_, ln_x0, ln_lam, out, need)
+            code = _q_batch(self.store, self.lnstore, self.slots, self.axes, n_, k_, ln_x0, ln_lam, out, need)
             if code == 0:
                 return out
             if code < 0:
@@ -585,22 +635,22 @@ class QAbsTable:
                 self.ensure_tile(int(ti), int(tk))
         raise ModelError("thermal table: tiles still missing after building")  # pragma: no cover
 
-    def flux_sums(self, m, ln_x0, ln_lam, weight, ln_t, ln_b, lt0, dlt, b_coef, x_coef) -> np.ndarray:
+    def flux_sums(self, m, ln_x0, ln_lam, weight, ln_t, b_tab, lt0, dlt, b_coef, x_coef) -> np.ndarray:
         """``sum_s weight[N, S] Q_abs B_l(T[N, S])`` [N, L] at indices ``m`` [N, L].
 
-        Q_abs at size parameters ``exp(ln_x0[N, S] - ln_lam[L])`` as :meth:`q_abs_sizes`; ``ln B_l``
-        from the table ``ln_b[t, l]`` on ln T nodes ``lt0 + t dlt``, or ``b_coef[l] / expm1(x_coef[l] / T)``
-        outside it (:func:`_flux_batch`). Builds missing tiles.
+        Q_abs at size parameters ``exp(ln_x0[N, S] - ln_lam[L])`` as :meth:`q_abs_sizes`; ``B_l``
+        from the table ``b_tab[t, l]`` on ln T nodes ``lt0 + t dlt`` (linear in ln T), or
+        ``b_coef[l] / expm1(x_coef[l] / T)`` outside it (:func:`_flux_batch`). Builds missing tiles.
         """
         m = np.asarray(m, dtype=complex)
         n_, k_ = np.ascontiguousarray(m.real), np.ascontiguousarray(m.imag)
-        ln_x0, ln_lam, weight, ln_t, ln_b, b_coef, x_coef = (
-            np.ascontiguousarray(v, dtype=float) for v in (ln_x0, ln_lam, weight, ln_t, ln_b, b_coef, x_coef))
+        ln_x0, ln_lam, weight, ln_t, b_tab, b_coef, x_coef = (
+            np.ascontiguousarray(v, dtype=float) for v in (ln_x0, ln_lam, weight, ln_t, b_tab, b_coef, x_coef))
         out = np.empty(m.shape)
         for _ in range(3):
             need = np.zeros(self.slots.shape, dtype=np.bool_)
-            code = _flux_batch(self.store, self.slots, self.axes, n_, k_, ln_x0, ln_lam, weight, ln_t, ln_b,
-                               float(lt0), float(dlt), b_coef, x_coef, out, need)
+            code = _flux_batch(self.store, self.lnstore, self.slots, self.axes, n_, k_, ln_x0, ln_lam, weight, ln_t,
+                               b_tab, float(lt0), float(dlt), b_coef, x_coef, out, need)
             if code == 0:
                 return out
             if code < 0:
@@ -668,7 +718,7 @@ class ThermalRingModel:
         w = th.trapezoid_weights(grid)
         self._wl = w * l_grid * th._L_SUN                        # W per um-weight
         self._w = w
-        nodes, coef, star_band = [], [], []
+        nodes, coef, star_band, far = [], [], [], []
         for band in bands:
             lo, hi = band.wavelength_min, band.wavelength_max
             if lo < grid[0] or hi > grid[-1]:
@@ -676,19 +726,23 @@ class ThermalRingModel:
                                  f"({grid[0]:.3g}-{grid[-1]:.3g} um)", where="thermal bands")
             fine = np.union1d(np.linspace(lo, hi, 801),
                               band.wavelength[(band.wavelength >= lo) & (band.wavelength <= hi)])
-            nd, wt = weighted_gauss_nodes(fine, band.weight(fine), BAND_NODES)
+            far.append(band.pivot_wavelength >= FAR_IR_UM)
+            nd, wt = weighted_gauss_nodes(fine, band.weight(fine), BAND_NODES_FAR if far[-1] else BAND_NODES)
             c = band.flux_lambda_to_fnu(1.0) * wt / flam_to_fnu(1.0, nd)
             nodes.append(nd)
             coef.append(c)
             star_band.append(float(np.sum(c * _flux_jy(_star_at(description, self.luminosity, grid, l_grid, nd),
                                                        nd, distance_pc))))
         self.bands = tuple(bands)
-        self.band_nodes = np.concatenate(nodes)
+        # band nodes of the mid-infrared bands first, then the far-infrared ones (two size quadratures)
+        order = [i for i in range(len(bands)) if not far[i]] + [i for i in range(len(bands)) if far[i]]
+        self.band_nodes = np.concatenate([nodes[i] for i in order]) if order else np.zeros(0)
+        self._n_mid = int(sum(nodes[i].size for i in order if not far[i]))
         self._coef = np.zeros((len(bands), self.band_nodes.size))
         j = 0
-        for i, c in enumerate(coef):
-            self._coef[i, j:j + c.size] = c
-            j += c.size
+        for i in order:
+            self._coef[i, j:j + coef[i].size] = coef[i]
+            j += coef[i].size
         self.star_flux = np.array(star_band)
         self.distance_pc = float(distance_pc)
         lam = np.concatenate([grid, self.band_nodes])
@@ -715,15 +769,23 @@ class ThermalRingModel:
         lt_b = np.arange(np.log(th.TEMPERATURE_RANGE[0]) - 0.1, np.log(th.TEMPERATURE_RANGE[1]) + 0.1, _LN_T_FLUX)
         xt = self._x_band[None, :] * np.exp(-lt_b)[:, None]
         self._ln_b_band = np.ascontiguousarray(np.log(self._b_band)[None, :] - xt - np.log1p(-np.exp(-xt)))
+        self._b_band_tab = np.exp(self._ln_b_band)         # B_nu itself: the flux loop interpolates it linearly
         self._lt_b0 = float(lt_b[0])
         # B_nu [Jy/sr] at band nodes is evaluated per temperature; constant factor au^2 / d^2
         self._flux_factor = th._AU**2 / (self.distance_pc * th._PC) ** 2
         self._gl = np.polynomial.legendre.leggauss(N_SIZES)
         self._gl_t = np.polynomial.legendre.leggauss(N_SIZES_T)
-        # both node sets span the same interval in ln a: one set of interpolation weights for every point
-        tt, tf = self._gl_t[0], self._gl[0]
-        j = np.clip(np.searchsorted(tt, tf) - 1, 0, tt.size - 2)
-        self._t_index, self._t_frac = j, (tf - tt[j]) / (tt[j + 1] - tt[j])
+        # every node set spans the same interval in ln a: one set of interpolation weights for every point
+        tt = self._gl_t[0]
+        # (band-node slice, Gauss-Legendre set, T interpolation index) of the mid- and far-infrared bands
+        self._flux_groups = []
+        n_grid = grid.size
+        for sl, n_s in ((slice(0, self._n_mid), N_SIZES), (slice(self._n_mid, self.band_nodes.size), N_SIZES_FAR)):
+            if sl.stop <= sl.start:
+                continue
+            gl = self._gl if n_s == N_SIZES else np.polynomial.legendre.leggauss(n_s)
+            j = np.clip(np.searchsorted(tt, gl[0]) - 1, 0, tt.size - 2)
+            self._flux_groups.append((slice(n_grid + sl.start, n_grid + sl.stop), sl, gl, j))
 
     def effective_index(self, fractions, porosity):
         """[N, n_lambda] effective indices on the balance grid and band nodes.
@@ -778,11 +840,7 @@ class ThermalRingModel:
         if not (np.isfinite(r).all() and (r > 0).all()):
             raise InputError(f"ring radius must be > 0 au, got {r[~(r > 0)][:1]}", where="radius_au")
         m = self.effective_index(f, por)                                         # [N, L']
-        t_gl, w_gl = self._gl
         half = 0.5 * np.log(amax / amin)
-        ln_a = np.log(amin)[:, None] + half[:, None] * (t_gl[None, :] + 1.0)
-        a = np.exp(ln_a)                                                         # [N, S] flux nodes
-        w_ln = w_gl[None, :] * half[:, None]
         ln_at = np.log(amin)[:, None] + half[:, None] * (self._gl_t[0][None, :] + 1.0)   # [N, S_T]
         n_grid = self.grid.size
         ln_2pi = np.log(2 * np.pi)
@@ -790,32 +848,35 @@ class ThermalRingModel:
         absorbed = (qg @ self._wl) / (16 * np.pi * (r[:, None] * th._AU) ** 2)    # [N, S] W m^-2
         if not (absorbed > 0).all():
             raise ModelError("a grain absorbs no starlight (Q_abs = 0 wherever the star shines)")
-        e_tab = qg @ self._planck                                                # [N, S, T]
-        ln_e = np.log(np.maximum(e_tab, 1e-300))
+        e_tab = np.maximum(qg @ self._planck, 1e-300)                            # [N, S, T]
         ln_abs = np.log(absorbed)
-        if (ln_abs > ln_e[:, :, -1]).any():
+        if (absorbed > e_tab[:, :, -1]).any():
             raise ModelError(f"grains would be hotter than {th.TEMPERATURE_RANGE[1]:g} K: the ring lies inside "
                              "the sublimation radius of every solid (move it out)")
-        if (ln_abs < ln_e[:, :, 0]).any():
+        if (absorbed < e_tab[:, :, 0]).any():
             raise ModelError(f"grains would be colder than {th.TEMPERATURE_RANGE[0]:g} K")
-        j = np.clip((ln_e < ln_abs[:, :, None]).sum(axis=-1) - 1, 0, self._t_grid.size - 2)
-        e0 = np.take_along_axis(ln_e, j[..., None], -1)[..., 0]
-        e1 = np.take_along_axis(ln_e, (j + 1)[..., None], -1)[..., 0]
+        # the bracketing T nodes (E rises with T; comparing E itself, the logarithms only of the two nodes)
+        j = np.clip((e_tab < absorbed[:, :, None]).sum(axis=-1) - 1, 0, self._t_grid.size - 2)
+        e0 = np.log(np.take_along_axis(e_tab, j[..., None], -1)[..., 0])
+        e1 = np.log(np.take_along_axis(e_tab, (j + 1)[..., None], -1)[..., 0])
         lt = np.log(self._t_grid)
         ln_t = lt[j] + (ln_abs - e0) / (e1 - e0) * _LN_T_STEP
         # one Newton step on ln E(ln T) (from a start good to ~1e-3), compiled: no [N, S, L] temporaries
         ln_t = np.ascontiguousarray(ln_t)
         _newton_ln_t(qg, self._w, self._x_grid, self._b_grid, ln_t, np.ascontiguousarray(ln_abs))
         t_nodes = np.exp(ln_t)
-        j = self._t_index
-        slope = (ln_t[:, j + 1] - ln_t[:, j]) / (ln_at[:, j + 1] - ln_at[:, j])
-        ln_tf = ln_t[:, j] + slope * (ln_a - ln_at[:, j])                       # ln T at the flux nodes
-        c = w_ln * a ** (3.0 - qq[:, None])
-        c = c / c.sum(axis=1, keepdims=True)                                     # cross-section share per node
-        # sum_s c Q_abs B_nu(T) at the band nodes [N, B'] (Jy/sr), table lookup and sum in one compiled pass
-        fnu = self.table.flux_sums(m[:, n_grid:], ln_a + ln_2pi, self._ln_band, c, ln_tf, self._ln_b_band,
-                                   self._lt_b0, _LN_T_FLUX, self._b_band, self._x_band) * self._flux_factor
-        out = fnu @ self._coef.T
+        fnu = np.empty((n, self.band_nodes.size))
+        for m_sl, b_sl, (t_gl, w_gl), j in self._flux_groups:
+            ln_a = np.log(amin)[:, None] + half[:, None] * (t_gl[None, :] + 1.0)    # [N, S] flux nodes
+            slope = (ln_t[:, j + 1] - ln_t[:, j]) / (ln_at[:, j + 1] - ln_at[:, j])
+            ln_tf = ln_t[:, j] + slope * (ln_a - ln_at[:, j])                   # ln T at the flux nodes
+            c = (w_gl[None, :] * half[:, None]) * np.exp(ln_a * (3.0 - qq[:, None]))
+            c = c / c.sum(axis=1, keepdims=True)                                 # cross-section share per node
+            # sum_s c Q_abs B_nu(T) at the band nodes [N, B'] (Jy/sr), table lookup and sum in one compiled pass
+            fnu[:, b_sl] = self.table.flux_sums(m[:, m_sl], ln_a + ln_2pi, self._ln_band[b_sl], c, ln_tf,
+                                                self._b_band_tab[:, b_sl], self._lt_b0, _LN_T_FLUX,
+                                                self._b_band[b_sl], self._x_band[b_sl])
+        out = (fnu * self._flux_factor) @ self._coef.T
         if temperatures:
             return out, t_nodes, np.exp(ln_at)
         return out
