@@ -147,7 +147,10 @@ def plot_thermal_fit(model, path: Path, formats=None) -> Path:
     ax.set_yscale("log")
     from matplotlib.ticker import NullFormatter
 
+    from matplotlib.ticker import LogLocator
+
     plain = FuncFormatter(lambda v, _pos: f"{v:g}")
+    ax.xaxis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))    # 10, 20, 50, 100, ...: labelled
     ax.xaxis.set_major_formatter(plain)
     ax.xaxis.set_minor_formatter(NullFormatter())
     ax.set_xlabel("wavelength [µm]")
